@@ -1,0 +1,596 @@
+// analysis.cpp: from a table of text cells to a finished interim analysis.
+//
+// Index:
+//   [input]       response parsing, factor coding, structural checks
+//   [table]       analysis-of-variance rows and error terms
+//   [means]       means, comparisons, letters
+//   [components]  variance components and heritability
+//   [residuals]   studentized residuals and outlier plots
+//   [missing]     missing treatment x block cells
+//   [driver]      analyse_all / analyse
+
+#include "core/analysis.h"
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+#include <numeric>
+#include <set>
+
+#include "core/distributions.h"
+#include "core/exact_decimal.h"
+#include "core/letter_groups.h"
+#include "core/studentized_range.h"
+
+namespace furrow {
+
+const char* sums_kind_key(SumsKind kind) { return kind == SumsKind::sequential ? "sequential" : "partial"; }
+
+const DataColumn* PlotTable::find(const std::string& name) const {
+  for (const DataColumn& c : columns)
+    if (c.name == name) return &c;
+  return nullptr;
+}
+
+bool is_missing_text(const std::string& cell) {
+  size_t b = 0, e = cell.size();
+  while (b < e && std::isspace(static_cast<unsigned char>(cell[b]))) ++b;
+  while (e > b && std::isspace(static_cast<unsigned char>(cell[e - 1]))) --e;
+  const std::string_view v(cell.data() + b, e - b);
+  return v.empty() || v == "NA" || v == ".";
+}
+
+namespace {
+
+std::string trimmed(const std::string& s) {
+  size_t b = 0, e = s.size();
+  while (b < e && std::isspace(static_cast<unsigned char>(s[b]))) ++b;
+  while (e > b && std::isspace(static_cast<unsigned char>(s[e - 1]))) --e;
+  return s.substr(b, e - b);
+}
+
+std::string join(const std::vector<std::string>& parts, const char* sep) {
+  std::string out;
+  for (size_t i = 0; i < parts.size(); ++i) { if (i) out += sep; out += parts[i]; }
+  return out;
+}
+
+// ------------------------------------------------------------------ [input]
+
+struct ParsedResponse {
+  std::vector<char> present;           // per record
+  std::vector<ExactDecimal> values;    // per present record, in order
+};
+
+Result<ParsedResponse> parse_response(const DataColumn& column) {
+  ParsedResponse out;
+  out.present.assign(column.cells.size(), 0);
+  for (size_t r = 0; r < column.cells.size(); ++r) {
+    if (is_missing_text(column.cells[r])) continue;
+    auto value = parse_exact_decimal(column.cells[r]);
+    if (!value) return make_problem(value.problem().message + " (expected a number)", column.name, static_cast<int>(r));
+    out.present[r] = 1;
+    out.values.push_back(*value);
+  }
+  if (out.values.empty()) return make_problem("column '" + column.name + "' has no values", column.name);
+  return out;
+}
+
+// Everything that depends only on which plots have a value.
+struct Group {
+  std::vector<int> records;                           // input records analysed
+  CodedDesign coded;
+  std::vector<std::vector<std::string>> level_names;  // per factor, per code
+  std::optional<LinearModel> model;
+  std::optional<Problem> problem;
+};
+
+std::string cell_label(const DesignModel& m, const std::vector<int>& factors,
+                       const std::vector<std::vector<std::string>>& names, const std::vector<int>& levels) {
+  std::vector<std::string> parts;
+  for (size_t k = 0; k < factors.size(); ++k)
+    parts.push_back(m.factor_columns[factors[k]] + " " + names[factors[k]][levels[k]]);
+  return join(parts, " x ");
+}
+
+void prepare_group(const PlotTable& table, const DesignModel& m, const AnalysisOptions& options, Group* g) {
+  const int nf = static_cast<int>(m.factor_columns.size());
+  g->coded.n = static_cast<int>(g->records.size());
+  g->level_names.assign(nf, {});
+  for (int f = 0; f < nf; ++f) {
+    const DataColumn* col = table.find(m.factor_columns[f]);
+    std::map<std::string, int> code_of;
+    CodedFactor cf;
+    for (int r : g->records) {
+      const std::string v = trimmed(col->cells[r]);
+      if (v.empty()) {
+        g->problem = make_problem("empty '" + col->name + "' for a plot that has a value", col->name, r);
+        return;
+      }
+      auto [it, inserted] = code_of.emplace(v, static_cast<int>(code_of.size()));
+      if (inserted) g->level_names[f].push_back(v);
+      cf.codes.push_back(it->second);
+    }
+    cf.levels = static_cast<int>(code_of.size());
+    const bool nested_block = f == m.block_factor && m.site_factor >= 0;
+    if (cf.levels < 2 && !nested_block) {
+      g->problem = make_problem("column '" + col->name + "' has only one level ('" + g->level_names[f][0] +
+                                    "') among the plots with a value; the design needs at least two",
+                                col->name, g->records.front());
+      return;
+    }
+    g->coded.factors.push_back(std::move(cf));
+  }
+  for (int t = 0; t < static_cast<int>(m.terms.size()); ++t) {
+    g->coded.terms.push_back(m.terms[t].factors);
+    if (m.terms[t].role == TermRole::treatment) g->coded.means_terms.push_back(t);
+  }
+  g->coded.grid_groups = m.grid_groups;
+  // Treatment combinations without any plot make interactions inestimable.
+  for (const ModelTerm& term : m.terms) {
+    if (term.role != TermRole::treatment || term.factors.size() < 2) continue;
+    const TermCells cells = term_cells(g->coded, term.factors);
+    std::set<std::vector<int>> seen(cells.levels.begin(), cells.levels.end());
+    std::vector<std::string> empty;
+    std::vector<int> levels(term.factors.size(), 0);
+    while (true) {
+      if (!seen.count(levels)) empty.push_back(cell_label(m, term.factors, g->level_names, levels));
+      size_t k = 0;
+      while (k < levels.size() && ++levels[k] == g->coded.factors[term.factors[k]].levels) { levels[k] = 0; ++k; }
+      if (k == levels.size()) break;
+    }
+    if (!empty.empty()) {
+      const size_t shown = std::min<size_t>(empty.size(), 8);
+      std::vector<std::string> list(empty.begin(), empty.begin() + static_cast<long>(shown));
+      std::string msg = "no plot has a value in " + std::to_string(empty.size()) + " treatment cell(s) of '" +
+                        term.label + "': " + join(list, "; ");
+      if (shown < empty.size()) msg += "; ...";
+      msg += ". Measure those plots or analyse without the interaction";
+      g->problem = make_problem(msg, m.factor_columns[term.factors.front()]);
+      return;
+    }
+  }
+  auto model = LinearModel::build(g->coded, options.method);
+  if (!model) { g->problem = model.problem(); return; }
+  g->model = std::move(model).value();
+}
+
+// ------------------------------------------------------------------ [table]
+
+struct ErrorStratum {
+  std::string label;
+  std::optional<double> ms;
+  double df = 0;
+};
+
+ErrorStratum error_of(const Analysis& a, const DesignModel& m, int term) {
+  const int e = m.terms[term].error_term;
+  const AnovaRow& row = e < 0 ? a.table[m.terms.size()] : a.table[e];
+  return {e < 0 ? "residual" : m.terms[e].label, row.ms, row.df};
+}
+
+void fill_table(const DesignModel& m, const ResponseFit& fit, SumsKind sums, Analysis* a) {
+  for (size_t t = 0; t < m.terms.size(); ++t) {
+    AnovaRow row;
+    row.source = m.terms[t].label;
+    row.role = m.terms[t].role;
+    row.df = sums == SumsKind::sequential ? fit.terms[t].df_sequential : fit.terms[t].df_partial;
+    row.ss = sums == SumsKind::sequential ? fit.terms[t].ss_sequential : fit.terms[t].ss_partial;
+    if (row.df > 0) row.ms = row.ss / row.df;
+    a->table.push_back(row);
+  }
+  AnovaRow residual;
+  residual.source = "residual";
+  residual.role = TermRole::error;
+  residual.df = fit.residual_df;
+  residual.ss = fit.residual_ss;
+  residual.ms = fit.residual_ss / fit.residual_df;
+  a->table.push_back(residual);
+  AnovaRow total;
+  total.source = "total";
+  total.role = TermRole::error;
+  total.df = a->n - 1;
+  total.ss = fit.total_ss;
+  a->table.push_back(total);
+  for (size_t t = 0; t < m.terms.size(); ++t) {
+    AnovaRow& row = a->table[t];
+    if (m.terms[t].role == TermRole::error || !row.ms) continue;
+    const ErrorStratum err = error_of(*a, m, static_cast<int>(t));
+    if (!err.ms || err.df <= 0) {
+      a->notes.push_back("'" + row.source + "' is not tested: its error term '" + err.label +
+                         "' has no degrees of freedom");
+      continue;
+    }
+    row.error_term = err.label;
+    if (*err.ms <= 0) {
+      a->notes.push_back("'" + row.source + "' is not tested: the mean square of '" + err.label + "' is zero");
+      continue;
+    }
+    row.f = *row.ms / *err.ms;
+    row.p = f_upper_tail(*row.f, row.df, err.df);
+  }
+  for (AnovaRow& row : a->table) row.share_of_total = fit.total_ss > 0 ? row.ss / fit.total_ss : 0.0;
+}
+
+// ------------------------------------------------------------------ [means]
+
+struct QuantileCache {
+  std::map<std::pair<int, double>, double> q;
+  double get(double p, int k, double df) {
+    const auto key = std::make_pair(k, df);
+    auto it = q.find(key);
+    if (it != q.end()) return it->second;
+    const double v = studentized_range_quantile(p, k, df);
+    q.emplace(key, v);
+    return v;
+  }
+};
+
+TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, const Analysis& a, double offset,
+                     const AnalysisOptions& options, QuantileCache* cache) {
+  TermMeans tm;
+  const ModelTerm& term = m.terms[cm.term];
+  tm.term = term.label;
+  for (int f : term.factors) tm.factors.push_back(m.factor_columns[f]);
+  const ErrorStratum err = error_of(a, m, cm.term);
+  tm.error_term = err.label;
+  tm.error_ms = err.ms.value_or(0.0);
+  tm.error_df = err.df;
+  const int k = static_cast<int>(cm.n.size());
+  std::vector<int> usable;
+  for (int c = 0; c < k; ++c) {
+    MeanRow row;
+    for (size_t j = 0; j < term.factors.size(); ++j) row.levels.push_back(g.level_names[term.factors[j]][cm.cell_levels[c][j]]);
+    row.label = join(row.levels, " x ");
+    row.n = cm.n[c];
+    row.raw_mean = cm.raw_mean[c] + offset;
+    row.estimable = cm.estimable[c] != 0;
+    if (row.estimable) {
+      row.mean = cm.mean[c] + offset;
+      row.se = std::sqrt(cm.var_factor[c] * tm.error_ms);
+      usable.push_back(c);
+      if (std::abs(row.mean - row.raw_mean) > 1e-9 * std::max(1.0, std::abs(row.raw_mean))) tm.adjusted = true;
+    }
+    tm.levels.push_back(std::move(row));
+  }
+  if (usable.size() < 2 || tm.error_df <= 0 || tm.error_ms <= 0) return tm;
+  // Mean variance of a difference over all pairs, in O(k).
+  const double ku = static_cast<double>(usable.size());
+  double sum_v = 0, sum_a2 = 0;
+  std::vector<double> sum_a(cm.a_width, 0.0);
+  for (int c : usable) {
+    sum_v += cm.v[c];
+    for (int j = 0; j < cm.a_width; ++j) {
+      const double x = cm.a[c * cm.a_width + j];
+      sum_a2 += x * x;
+      sum_a[j] += x;
+    }
+  }
+  double norm_sum_a = 0;
+  for (double x : sum_a) norm_sum_a += x * x;
+  const double pairs = ku * (ku - 1) / 2;
+  const double mean_var = ((ku - 1) * sum_v + ku * sum_a2 - norm_sum_a) / pairs;
+  tm.sed = std::sqrt(std::max(0.0, mean_var) * tm.error_ms);
+  tm.t_critical = t_quantile(1 - options.alpha / 2, tm.error_df);
+  tm.lsd = tm.lsd_min = tm.lsd_max = tm.t_critical * tm.sed;
+  if (!options.comparisons) return tm;
+  tm.q_critical = cache->get(1 - options.alpha, static_cast<int>(usable.size()), tm.error_df);
+  tm.hsd = tm.q_critical / std::sqrt(2.0) * tm.sed;
+  if (static_cast<int>(usable.size()) > kMaxLevelsForPairs) {
+    tm.note = "pairwise comparisons and letters are listed for up to " + std::to_string(kMaxLevelsForPairs) +
+              " levels; the LSD and HSD shown are for an average pair";
+    return tm;
+  }
+  tm.lsd_min = std::numeric_limits<double>::infinity();
+  tm.lsd_max = 0;
+  const int u = static_cast<int>(usable.size());
+  std::vector<std::vector<char>> lsd_differs(u, std::vector<char>(u, 0)), hsd_differs = lsd_differs;
+  for (int i = 0; i < u; ++i) {
+    for (int j = i + 1; j < u; ++j) {
+      PairComparison pc;
+      pc.first = usable[i];
+      pc.second = usable[j];
+      pc.difference = tm.levels[pc.first].mean - tm.levels[pc.second].mean;
+      pc.se = std::sqrt(cm.difference_var_factor(pc.first, pc.second) * tm.error_ms);
+      pc.lsd = tm.t_critical * pc.se;
+      pc.hsd = tm.q_critical / std::sqrt(2.0) * pc.se;
+      tm.lsd_min = std::min(tm.lsd_min, pc.lsd);
+      tm.lsd_max = std::max(tm.lsd_max, pc.lsd);
+      lsd_differs[i][j] = std::abs(pc.difference) > pc.lsd;
+      hsd_differs[i][j] = std::abs(pc.difference) > pc.hsd;
+      tm.pairs.push_back(pc);
+    }
+  }
+  std::vector<double> means;
+  for (int c : usable) means.push_back(tm.levels[c].mean);
+  const auto by_lsd = letter_groups(means, [&](int i, int j) { return lsd_differs[i][j] != 0; });
+  const auto by_hsd = letter_groups(means, [&](int i, int j) { return hsd_differs[i][j] != 0; });
+  for (int i = 0; i < u; ++i) {
+    tm.levels[usable[i]].group_lsd = by_lsd[i];
+    tm.levels[usable[i]].group_hsd = by_hsd[i];
+  }
+  return tm;
+}
+
+// ------------------------------------------------------------- [components]
+
+std::optional<double> row_ms(const Analysis& a, const std::string& source) {
+  for (const AnovaRow& r : a.table)
+    if (r.source == source) return r.ms;
+  return std::nullopt;
+}
+
+double clamp_component(double v, const std::string& name, VarianceComponents* vc) {
+  if (v >= 0) return v;
+  vc->notes.push_back("the estimate of " + name + " was negative (" + std::to_string(v) +
+                      ") and is reported as zero, the usual convention");
+  return 0.0;
+}
+
+void fill_components(const DesignModel& m, const Group& g, Analysis* a) {
+  VarianceComponents& vc = a->variance_components;
+  vc.treatments_random = m.treatments_random;
+  const double mse = *a->table[m.terms.size()].ms;
+  vc.error = mse;
+  for (const AnovaRow& r : a->table)
+    if (r.source != "total") vc.shares.push_back({r.source, r.share_of_total});
+  if (m.kind == DesignKind::split_plot) {
+    const ModelTerm& main_error = m.terms[2];
+    const auto ea = row_ms(*a, main_error.label);
+    const double b = g.coded.factors[m.treatment_factors[1]].levels;
+    if (ea) vc.main_plot_error = clamp_component((*ea - mse) / b, "the main-plot error variance", &vc);
+  }
+  if (!m.treatments_random) {
+    vc.notes.push_back("treatments are read as fixed: no treatment variance or heritability");
+    return;
+  }
+  if (m.kind == DesignKind::factorial || m.kind == DesignKind::split_plot) {
+    vc.notes.push_back("treatment variance and heritability are given for single-treatment designs only");
+    return;
+  }
+  const int tf = m.treatment_factors.front();
+  const std::string& tlabel = m.factor_columns[tf];
+  const auto ms_t = row_ms(*a, tlabel);
+  if (!ms_t) return;
+  // Effective replicates per entry: n0 = (N - sum n_i^2 / N) / (t - 1)
+  // (one-way expected mean squares; equals r when balanced).
+  std::vector<double> count(g.coded.factors[tf].levels, 0.0);
+  for (int c : g.coded.factors[tf].codes) count[c] += 1;
+  const double big_n = a->n, t = static_cast<double>(count.size());
+  double sum_sq = 0;
+  for (double c : count) sum_sq += c * c;
+  const double n0 = (big_n - sum_sq / big_n) / (t - 1);
+  if (m.kind == DesignKind::multi_site) {
+    const double s = g.coded.factors[m.site_factor].levels;
+    const double r = n0 / s;   // blocks per site
+    const auto ms_ge = row_ms(*a, m.terms[3].label);
+    if (!ms_ge) return;
+    vc.sites = s;
+    vc.replicates = r;
+    const double ge = clamp_component((*ms_ge - mse) / r, "the treatment x site variance", &vc);
+    const double gv = clamp_component((*ms_t - *ms_ge) / (r * s), "the treatment variance", &vc);
+    vc.treatment_by_site = ge;
+    vc.treatment = gv;
+    const double denom = gv + ge / s + mse / (r * s);
+    if (denom > 0) vc.heritability = gv / denom;
+    vc.notes.push_back("several sites: sigma2_ge = (MS ge - MS e) / r, sigma2_g = (MS g - MS ge) / (r s), "
+                       "H2 = sigma2_g / (sigma2_g + sigma2_ge / s + sigma2_e / (r s)) (Holland, Nyquist & "
+                       "Cervantes-Martinez 2003), sites taken as a random sample");
+  } else {
+    vc.replicates = n0;
+    vc.sites = 1;
+    const double gv = clamp_component((*ms_t - mse) / n0, "the treatment variance", &vc);
+    vc.treatment = gv;
+    const double denom = gv + mse / n0;
+    if (denom > 0) vc.heritability = gv / denom;
+  }
+  if (g.model->method() != FitMethod::balanced)
+    vc.notes.push_back("unequal replication: replicates per entry taken as n0 = (N - sum n_i^2 / N) / (t - 1)");
+}
+
+// -------------------------------------------------------------- [residuals]
+
+void find_outliers(const Group& g, const ResponseFit& fit, const std::vector<double>& y, double offset,
+                   const AnalysisOptions& options, Analysis* a) {
+  const double df = fit.residual_df;
+  struct Candidate { int i; double t_ext, t_int, p; };
+  std::vector<Candidate> c;
+  for (int i = 0; i < g.coded.n; ++i) {
+    const double one_minus_h = 1.0 - fit.leverages[i];
+    if (one_minus_h < 1e-10 || df <= 1) continue;   // a plot alone in its cell carries no residual
+    const double e = fit.residuals[i];
+    const double s2 = fit.residual_ss / df;
+    const double s2_without = (fit.residual_ss - e * e / one_minus_h) / (df - 1);
+    const double t_int = s2 > 0 ? e / std::sqrt(s2 * one_minus_h) : 0.0;
+    const double t_ext = s2_without > 0 ? e / std::sqrt(s2_without * one_minus_h) : 0.0;
+    c.push_back({i, t_ext, t_int, 1.0});
+  }
+  std::vector<char> flagged(c.size(), 0);
+  std::vector<double> p_adj(c.size(), 1.0);
+  if (options.outlier_rule == OutlierRule::threshold) {
+    for (size_t k = 0; k < c.size(); ++k) flagged[k] = std::abs(c[k].t_ext) > options.outlier_threshold;
+    a->outlier_rule = "|externally studentized residual| > " + std::to_string(options.outlier_threshold).substr(0, 4);
+  } else {
+    // Holm (1979) step-down on two-sided P of t(df - 1).
+    for (auto& x : c) x.p = t_two_sided_p(x.t_ext, df - 1);
+    std::vector<size_t> order(c.size());
+    std::iota(order.begin(), order.end(), 0);
+    std::sort(order.begin(), order.end(), [&](size_t l, size_t r) { return c[l].p < c[r].p; });
+    const double m = static_cast<double>(c.size());
+    double running = 0;
+    bool stop = false;
+    for (size_t j = 0; j < order.size(); ++j) {
+      running = std::max(running, std::min(1.0, (m - j) * c[order[j]].p));
+      p_adj[order[j]] = running;
+      if (!stop && c[order[j]].p <= options.alpha / (m - j)) flagged[order[j]] = 1;
+      else stop = true;
+    }
+    a->outlier_rule = "Bonferroni-Holm on externally studentized residuals at alpha " + std::to_string(options.alpha).substr(0, 5);
+  }
+  for (size_t k = 0; k < c.size(); ++k) {
+    if (!flagged[k]) continue;
+    const int i = c[k].i;
+    OutlierPlot o;
+    o.record = g.records[i];
+    o.value = y[i] + offset;
+    o.fitted = fit.fitted[i] + offset;
+    o.residual = fit.residuals[i];
+    o.studentized = c[k].t_int;
+    o.studentized_external = c[k].t_ext;
+    if (options.outlier_rule == OutlierRule::bonferroni_holm) o.p_holm = p_adj[k];
+    a->outliers.push_back(o);
+  }
+  std::sort(a->outliers.begin(), a->outliers.end(), [](const OutlierPlot& l, const OutlierPlot& r) {
+    return std::abs(l.studentized_external) > std::abs(r.studentized_external);
+  });
+}
+
+// ---------------------------------------------------------------- [missing]
+
+void find_missing_cells(const PlotTable& table, const DesignModel& m, const std::vector<char>& present,
+                        Analysis* a) {
+  std::vector<std::vector<int>> groups = m.grid_groups;
+  if (m.kind == DesignKind::latin_square) groups.pop_back();   // positions only: row x column
+  std::vector<const DataColumn*> factor_col;
+  for (const std::string& name : m.factor_columns) factor_col.push_back(table.find(name));
+  // Observed combinations per group over every record, in order of appearance.
+  std::vector<std::vector<std::vector<std::string>>> combos(groups.size());
+  for (size_t gi = 0; gi < groups.size(); ++gi) {
+    std::set<std::vector<std::string>> seen;
+    for (int r = 0; r < table.records(); ++r) {
+      std::vector<std::string> key;
+      for (int f : groups[gi]) key.push_back(trimmed(factor_col[f]->cells[r]));
+      if (seen.insert(key).second) combos[gi].push_back(key);
+    }
+  }
+  // Records per full cell.
+  std::map<std::vector<std::string>, std::vector<int>> records_of;
+  std::set<std::vector<std::string>> has_value;
+  for (int r = 0; r < table.records(); ++r) {
+    std::vector<std::string> key;
+    for (const auto& gr : groups) for (int f : gr) key.push_back(trimmed(factor_col[f]->cells[r]));
+    records_of[key].push_back(r);
+    if (present[r]) has_value.insert(key);
+  }
+  std::vector<size_t> pick(groups.size(), 0);
+  while (true) {
+    std::vector<std::string> key, parts;
+    for (size_t gi = 0; gi < groups.size(); ++gi)
+      for (size_t k = 0; k < groups[gi].size(); ++k) {
+        key.push_back(combos[gi][pick[gi]][k]);
+        parts.push_back(m.factor_columns[groups[gi][k]] + " " + combos[gi][pick[gi]][k]);
+      }
+    if (!has_value.count(key)) {
+      MissingCell mc;
+      mc.label = join(parts, " x ");
+      auto it = records_of.find(key);
+      if (it != records_of.end()) mc.records = it->second;
+      a->missing_cells.push_back(std::move(mc));
+    }
+    size_t gi = 0;
+    while (gi < pick.size() && ++pick[gi] == combos[gi].size()) { pick[gi] = 0; ++gi; }
+    if (gi == pick.size()) break;
+  }
+}
+
+}  // namespace
+
+// ----------------------------------------------------------------- [driver]
+
+std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRoles& roles,
+                                          const std::vector<std::string>& responses, const AnalysisOptions& options) {
+  std::vector<Result<Analysis>> out;
+  auto model = build_design_model(roles);
+  auto fail_all = [&](const Problem& p) {
+    out.clear();
+    for (size_t i = 0; i < responses.size(); ++i) out.emplace_back(p);
+    return out;
+  };
+  if (!model) return fail_all(model.problem());
+  const DesignModel& m = *model;
+  for (const std::string& name : m.factor_columns)
+    if (!table.find(name)) return fail_all(make_problem("there is no column named '" + name + "'", name));
+  if (!(options.alpha > 0 && options.alpha < 1)) return fail_all(make_problem("alpha must lie between 0 and 1"));
+
+  std::vector<std::optional<ParsedResponse>> parsed(responses.size());
+  std::vector<std::optional<Problem>> problems(responses.size());
+  std::map<std::vector<char>, Group> groups;
+  for (size_t k = 0; k < responses.size(); ++k) {
+    const DataColumn* col = table.find(responses[k]);
+    if (!col) { problems[k] = make_problem("there is no column named '" + responses[k] + "'", responses[k]); continue; }
+    if (std::find(m.factor_columns.begin(), m.factor_columns.end(), responses[k]) != m.factor_columns.end()) {
+      problems[k] = make_problem("column '" + responses[k] + "' is a design column, not a response", responses[k]);
+      continue;
+    }
+    auto p = parse_response(*col);
+    if (!p) { problems[k] = p.problem(); continue; }
+    parsed[k] = std::move(p).value();
+    Group& g = groups[parsed[k]->present];
+    if (g.records.empty())
+      for (int r = 0; r < table.records(); ++r) if (parsed[k]->present[r]) g.records.push_back(r);
+  }
+  for (auto& [mask, g] : groups) prepare_group(table, m, options, &g);
+
+  QuantileCache cache;
+  for (size_t k = 0; k < responses.size(); ++k) {
+    if (problems[k]) { out.emplace_back(*problems[k]); continue; }
+    const Group& g = groups.at(parsed[k]->present);
+    if (g.problem) { out.emplace_back(*g.problem); continue; }
+    auto centred = centre_decimals(parsed[k]->values);
+    if (!centred) {
+      Problem p = centred.problem();
+      p.column = responses[k];
+      if (p.record >= 0) p.record = g.records[p.record];
+      out.emplace_back(p);
+      continue;
+    }
+    const std::vector<double>& y = centred->centred;
+    const double offset = centred->offset;
+    const ResponseFit fit = g.model->fit(y);
+    Analysis a;
+    a.design = m.kind;
+    a.response = responses[k];
+    a.n = g.coded.n;
+    a.n_missing = table.records() - a.n;
+    a.sums = options.sums;
+    a.method = g.model->method();
+    a.alpha = options.alpha;
+    a.offset_text = centred->offset_text;
+    fill_table(m, fit, options.sums, &a);
+    a.grand_mean = offset + fit.mean;
+    a.residual_df = fit.residual_df;
+    const double mse = fit.residual_ss / fit.residual_df;
+    a.residual_sd = std::sqrt(mse);
+    a.r_squared = fit.total_ss > 0 ? 1.0 - fit.residual_ss / fit.total_ss : 0.0;
+    a.cv_percent = a.grand_mean != 0 ? 100.0 * a.residual_sd / std::abs(a.grand_mean) : 0.0;
+    if (a.grand_mean == 0) a.notes.push_back("the grand mean is zero: CV and detectable difference in % are not defined");
+    for (const CellMeans& cm : fit.means) a.means.push_back(term_means(m, g, cm, a, offset, options, &cache));
+    if (!a.means.empty() && a.means.front().sed > 0) {
+      const TermMeans& first = a.means.front();
+      a.lsd = first.lsd;
+      if (first.q_critical > 0) a.hsd = first.hsd;
+      if (a.grand_mean != 0) {
+        const double mdd = (first.t_critical + t_quantile(kDetectionPower, first.error_df)) * first.sed;
+        a.mdd_percent = 100.0 * mdd / std::abs(a.grand_mean);
+      }
+    }
+    fill_components(m, g, &a);
+    find_outliers(g, fit, y, offset, options, &a);
+    find_missing_cells(table, m, parsed[k]->present, &a);
+    a.notes.push_back(std::string("sums of squares: ") +
+                      (options.sums == SumsKind::partial
+                           ? "partial (each term adjusted for every other term that does not contain it)"
+                           : "sequential (each term adjusted for the terms above it)"));
+    if (a.method != FitMethod::balanced && (m.kind == DesignKind::split_plot || (m.kind == DesignKind::multi_site && m.sites_random)))
+      a.notes.push_back("unbalanced data: F tests against a stratum mean square are approximate");
+    out.emplace_back(std::move(a));
+  }
+  return out;
+}
+
+Result<Analysis> analyse(const PlotTable& table, const DesignRoles& roles, const std::string& response,
+                         const AnalysisOptions& options) {
+  return std::move(analyse_all(table, roles, {response}, options).front());
+}
+
+}  // namespace furrow

@@ -1,0 +1,36 @@
+#include "tests/test_support.h"
+
+#include <doctest/doctest.h>
+
+#include <fstream>
+#include <sstream>
+
+#include "storage/csv_table.h"
+
+namespace furrow::test {
+
+std::string reference_path(const std::string& relative) { return std::string(FURROW_REFERENCE_DIR) + "/" + relative; }
+std::string generated_path(const std::string& relative) { return std::string(FURROW_GENERATED_DIR) + "/" + relative; }
+
+std::string read_text(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  REQUIRE_MESSAGE(in.good(), "cannot open " << path);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+PlotTable load_csv(const std::string& path) {
+  const CsvRead r = read_csv_file(path);
+  REQUIRE_MESSAGE(r.ok, path << ":" << r.problem.line << ": " << r.problem.message);
+  return r.csv.table;
+}
+
+const AnovaRow& row(const Analysis& a, const std::string& source) {
+  for (const AnovaRow& r : a.table)
+    if (r.source == source) return r;
+  FAIL("no row '" << source << "' in the table");
+  return a.table.front();
+}
+
+}  // namespace furrow::test

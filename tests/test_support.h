@@ -1,0 +1,31 @@
+#pragma once
+// Helpers shared by the tests: reading reference files, comparing numbers.
+
+#include <cmath>
+#include <string>
+#include <vector>
+
+#include "core/analysis.h"
+
+namespace furrow::test {
+
+std::string reference_path(const std::string& relative);   // under shared/reference
+std::string generated_path(const std::string& relative);   // made by a fixture at test time
+std::string read_text(const std::string& path);
+PlotTable load_csv(const std::string& path);               // fails the test on a bad file
+
+// Log relative error, as used for the NIST StRD (McCullough 1998): the number
+// of correct significant digits of `x` against the certified `c`.
+inline double lre(double x, double c) {
+  if (x == c) return 16.0;
+  if (c == 0) return -std::log10(std::abs(x));
+  return std::min(16.0, -std::log10(std::abs(x - c) / std::abs(c)));
+}
+
+inline bool close_rel(double x, double c, double rel, double abs_floor = 0.0) {
+  return std::abs(x - c) <= std::max(rel * std::abs(c), abs_floor);
+}
+
+const AnovaRow& row(const Analysis& a, const std::string& source);   // fails the test when absent
+
+}  // namespace furrow::test
