@@ -1,0 +1,103 @@
+// Cross-check against Debian's python3-statsmodels (anova_lm, typ=1 for
+// sequential and typ=2 for partial sums of squares) on generated data for
+// every design kind, balanced and unbalanced. The reference files are made at
+// test time by make_statsmodels_cases.py (a CTest fixture). SS, F and P must
+// agree to 1e-9 relative.
+
+#include <doctest/doctest.h>
+
+#include <filesystem>
+#include <nlohmann/json.hpp>
+
+#include "core/analysis.h"
+#include "tests/test_support.h"
+
+namespace furrow {
+namespace {
+
+constexpr double kRelative = 1e-9;
+
+DesignRoles roles_from(const nlohmann::json& j) {
+  DesignRoles r;
+  r.kind = *parse_design_kind(j.at("kind").get<std::string>());
+  if (j.contains("treatments")) r.treatments = j["treatments"].get<std::vector<std::string>>();
+  r.block = j.value("block", "");
+  r.row = j.value("row", "");
+  r.column = j.value("column", "");
+  r.main_plot = j.value("main_plot", "");
+  r.sub_plot = j.value("sub_plot", "");
+  r.site = j.value("site", "");
+  r.sites_random = j.value("sites_random", false);
+  return r;
+}
+
+void check_case(const std::string& name, FitMethod method) {
+  const std::string dir = test::generated_path("statsmodels/");
+  const auto expected = nlohmann::json::parse(test::read_text(dir + "case_" + name + ".json"));
+  const PlotTable table = test::load_csv(dir + "case_" + name + ".csv");
+  const DesignRoles roles = roles_from(expected["roles"]);
+  for (const auto& [key, rows] : expected["sums"].items()) {
+    AnalysisOptions options;
+    options.sums = key == "sequential" ? SumsKind::sequential : SumsKind::partial;
+    options.method = method;
+    options.comparisons = false;
+    const auto result = analyse(table, roles, "y", options);
+    REQUIRE_MESSAGE(result.ok(), name << ": " << result.problem().message);
+    const Analysis& a = *result;
+    CHECK(a.n == expected["n"].get<int>());
+    for (const auto& [source, want] : rows.items()) {
+      INFO(name << ", " << key << " sums, method " << std::string(fit_method_name(a.method)) << ", source " << source);
+      const AnovaRow& got = test::row(a, source);
+      CHECK(got.df == want["df"].get<double>());
+      CHECK(test::close_rel(got.ss, want["ss"].get<double>(), kRelative));
+      if (want.contains("f")) {
+        REQUIRE(got.f.has_value());
+        CHECK(test::close_rel(*got.f, want["f"].get<double>(), kRelative));
+        CHECK(test::close_rel(*got.p, want["p"].get<double>(), kRelative));
+      } else {
+        CHECK_FALSE(got.f.has_value());
+      }
+    }
+  }
+}
+
+const char* kCases[] = {"crd", "rcbd", "latin", "factorial2", "factorial3", "splitplot", "multisite_fixed",
+                        "multisite_random"};
+
+TEST_SUITE("statsmodels") {
+  TEST_CASE("every design kind, balanced, matches statsmodels") {
+    for (const char* c : kCases) check_case(std::string(c) + "_balanced", FitMethod::automatic);
+  }
+  TEST_CASE("every design kind, unbalanced, matches statsmodels") {
+    for (const char* c : kCases) check_case(std::string(c) + "_unbalanced", FitMethod::automatic);
+  }
+  TEST_CASE("the dense method matches statsmodels on every case") {
+    for (const char* c : kCases) {
+      check_case(std::string(c) + "_balanced", FitMethod::dense);
+      check_case(std::string(c) + "_unbalanced", FitMethod::dense);
+    }
+  }
+  TEST_CASE("the absorbed method matches statsmodels where it applies") {
+    for (const char* c : {"crd", "rcbd", "latin"}) {
+      check_case(std::string(c) + "_balanced", FitMethod::absorbed);
+      check_case(std::string(c) + "_unbalanced", FitMethod::absorbed);
+    }
+  }
+  TEST_CASE("the automatic method picks the fast paths") {
+    const std::string dir = test::generated_path("statsmodels/");
+    auto method_of = [&](const std::string& name) {
+      const auto j = nlohmann::json::parse(test::read_text(dir + "case_" + name + ".json"));
+      const auto r = analyse(test::load_csv(dir + "case_" + name + ".csv"), roles_from(j["roles"]), "y");
+      REQUIRE(r.ok());
+      return r->method;
+    };
+    CHECK(method_of("rcbd_balanced") == FitMethod::balanced);
+    CHECK(method_of("multisite_random_balanced") == FitMethod::balanced);
+    CHECK(method_of("rcbd_unbalanced") == FitMethod::absorbed);
+    CHECK(method_of("latin_unbalanced") == FitMethod::absorbed);
+    CHECK(method_of("splitplot_unbalanced") == FitMethod::dense);
+  }
+}
+
+}  // namespace
+}  // namespace furrow
