@@ -16,6 +16,8 @@
 #include <map>
 #include <numeric>
 #include <set>
+#include <unordered_map>
+#include <unordered_set>
 
 #include "core/distributions.h"
 #include "core/exact_decimal.h"
@@ -83,6 +85,7 @@ struct Group {
   std::vector<std::vector<std::string>> level_names;  // per factor, per code
   std::optional<LinearModel> model;
   std::optional<Problem> problem;
+  std::vector<MissingCell> missing_cells;   // same for every response of the group
 };
 
 std::string cell_label(const DesignModel& m, const std::vector<int>& factors,
@@ -99,7 +102,7 @@ void prepare_group(const PlotTable& table, const DesignModel& m, const AnalysisO
   g->level_names.assign(nf, {});
   for (int f = 0; f < nf; ++f) {
     const DataColumn* col = table.find(m.factor_columns[f]);
-    std::map<std::string, int> code_of;
+    std::unordered_map<std::string, int> code_of;
     CodedFactor cf;
     for (int r : g->records) {
       const std::string v = trimmed(col->cells[r]);
@@ -276,9 +279,11 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
   if (!options.comparisons) return tm;
   tm.q_critical = cache->get(1 - options.alpha, static_cast<int>(usable.size()), tm.error_df);
   tm.hsd = tm.q_critical / std::sqrt(2.0) * tm.sed;
-  if (static_cast<int>(usable.size()) > kMaxLevelsForPairs) {
-    tm.note = "pairwise comparisons and letters are listed for up to " + std::to_string(kMaxLevelsForPairs) +
-              " levels; the LSD and HSD shown are for an average pair";
+  const int limit = term.factors.size() > 1 ? kMaxCellsForInteractionPairs : kMaxLevelsForPairs;
+  if (static_cast<int>(usable.size()) > limit) {
+    tm.note = std::string("pairwise comparisons and letters are listed for up to ") + std::to_string(limit) +
+              (term.factors.size() > 1 ? " cells of an interaction" : " levels") +
+              "; the LSD and HSD shown are for an average pair";
     return tm;
   }
   tm.lsd_min = std::numeric_limits<double>::infinity();
@@ -448,47 +453,57 @@ void find_outliers(const Group& g, const ResponseFit& fit, const std::vector<dou
 // ---------------------------------------------------------------- [missing]
 
 void find_missing_cells(const PlotTable& table, const DesignModel& m, const std::vector<char>& present,
-                        Analysis* a) {
+                        std::vector<MissingCell>* out) {
   std::vector<std::vector<int>> groups = m.grid_groups;
   if (m.kind == DesignKind::latin_square) groups.pop_back();   // positions only: row x column
   std::vector<const DataColumn*> factor_col;
   for (const std::string& name : m.factor_columns) factor_col.push_back(table.find(name));
-  // Observed combinations per group over every record, in order of appearance.
-  std::vector<std::vector<std::vector<std::string>>> combos(groups.size());
+  const int records = table.records();
+  // Per group, a compact id for each record's combination, in order of appearance.
+  std::vector<std::vector<int>> combo_of(groups.size(), std::vector<int>(records));
+  std::vector<std::vector<int>> first_record(groups.size());
   for (size_t gi = 0; gi < groups.size(); ++gi) {
-    std::set<std::vector<std::string>> seen;
-    for (int r = 0; r < table.records(); ++r) {
-      std::vector<std::string> key;
-      for (int f : groups[gi]) key.push_back(trimmed(factor_col[f]->cells[r]));
-      if (seen.insert(key).second) combos[gi].push_back(key);
+    std::unordered_map<std::string, int> id;
+    for (int r = 0; r < records; ++r) {
+      std::string key;
+      for (int f : groups[gi]) { key += trimmed(factor_col[f]->cells[r]); key += '\x1f'; }
+      auto [it, inserted] = id.emplace(std::move(key), static_cast<int>(id.size()));
+      if (inserted) first_record[gi].push_back(r);
+      combo_of[gi][r] = it->second;
     }
   }
-  // Records per full cell.
-  std::map<std::vector<std::string>, std::vector<int>> records_of;
-  std::set<std::vector<std::string>> has_value;
-  for (int r = 0; r < table.records(); ++r) {
-    std::vector<std::string> key;
-    for (const auto& gr : groups) for (int f : gr) key.push_back(trimmed(factor_col[f]->cells[r]));
+  // Records per full cell, keyed by mixed-radix combination ids.
+  auto cell_key = [&](const std::vector<int>& ids) {
+    long long key = 0;
+    for (size_t gi = 0; gi < groups.size(); ++gi) key = key * static_cast<long long>(first_record[gi].size()) + ids[gi];
+    return key;
+  };
+  std::unordered_map<long long, std::vector<int>> records_of;
+  std::unordered_set<long long> has_value;
+  std::vector<int> ids(groups.size());
+  for (int r = 0; r < records; ++r) {
+    for (size_t gi = 0; gi < groups.size(); ++gi) ids[gi] = combo_of[gi][r];
+    const long long key = cell_key(ids);
     records_of[key].push_back(r);
     if (present[r]) has_value.insert(key);
   }
-  std::vector<size_t> pick(groups.size(), 0);
+  std::vector<int> pick(groups.size(), 0);
   while (true) {
-    std::vector<std::string> key, parts;
-    for (size_t gi = 0; gi < groups.size(); ++gi)
-      for (size_t k = 0; k < groups[gi].size(); ++k) {
-        key.push_back(combos[gi][pick[gi]][k]);
-        parts.push_back(m.factor_columns[groups[gi][k]] + " " + combos[gi][pick[gi]][k]);
-      }
+    const long long key = cell_key(pick);
     if (!has_value.count(key)) {
+      std::vector<std::string> parts;
+      for (size_t gi = 0; gi < groups.size(); ++gi) {
+        const int r0 = first_record[gi][pick[gi]];
+        for (int f : groups[gi]) parts.push_back(m.factor_columns[f] + " " + trimmed(factor_col[f]->cells[r0]));
+      }
       MissingCell mc;
       mc.label = join(parts, " x ");
       auto it = records_of.find(key);
       if (it != records_of.end()) mc.records = it->second;
-      a->missing_cells.push_back(std::move(mc));
+      out->push_back(std::move(mc));
     }
     size_t gi = 0;
-    while (gi < pick.size() && ++pick[gi] == combos[gi].size()) { pick[gi] = 0; ++gi; }
+    while (gi < pick.size() && ++pick[gi] == static_cast<int>(first_record[gi].size())) { pick[gi] = 0; ++gi; }
     if (gi == pick.size()) break;
   }
 }
@@ -529,7 +544,10 @@ std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRo
     if (g.records.empty())
       for (int r = 0; r < table.records(); ++r) if (parsed[k]->present[r]) g.records.push_back(r);
   }
-  for (auto& [mask, g] : groups) prepare_group(table, m, options, &g);
+  for (auto& [mask, g] : groups) {
+    prepare_group(table, m, options, &g);
+    if (!g.problem) find_missing_cells(table, m, mask, &g.missing_cells);
+  }
 
   QuantileCache cache;
   for (size_t k = 0; k < responses.size(); ++k) {
@@ -576,7 +594,7 @@ std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRo
     }
     fill_components(m, g, &a);
     find_outliers(g, fit, y, offset, options, &a);
-    find_missing_cells(table, m, parsed[k]->present, &a);
+    a.missing_cells = g.missing_cells;
     a.notes.push_back(std::string("sums of squares: ") +
                       (options.sums == SumsKind::partial
                            ? "partial (each term adjusted for every other term that does not contain it)"

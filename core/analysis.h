@@ -29,6 +29,9 @@ inline constexpr double kDetectionPower = 0.80;
 // (the LSD and HSD for an average pair still are): 150 levels already give
 // 11,175 pairs, more than anyone reads in the field.
 inline constexpr int kMaxLevelsForPairs = 150;
+// Interaction cells (site x entry, rate x variety) are compared pairwise only
+// up to this many cells; beyond it the means and their SEs are still listed.
+inline constexpr int kMaxCellsForInteractionPairs = 40;
 
 enum class SumsKind { sequential, partial };
 const char* sums_kind_key(SumsKind kind);        // "sequential" / "partial"

@@ -1,27 +1,31 @@
 #include "core/letter_groups.h"
 
 #include <algorithm>
+#include <bitset>
 #include <numeric>
 
 namespace furrow {
 namespace {
 
-using Column = std::vector<char>;   // membership per level
+// Columns are sets of levels; levels are renumbered by descending mean so
+// that the columns insert-and-absorb creates stay few (pairs are processed in
+// the order of the ranking, as Piepho recommends for sorted means).
+constexpr int kMaxLevels = 256;
+using Column = std::bitset<kMaxLevels>;
 
-bool subset_of(const Column& a, const Column& b) {
-  for (size_t i = 0; i < a.size(); ++i)
-    if (a[i] && !b[i]) return false;
-  return true;
-}
+bool subset_of(const Column& a, const Column& b) { return (a & ~b).none(); }
 
 // Removes columns contained in another column (keeps one of equal columns).
 void absorb(std::vector<Column>* columns) {
   std::vector<Column> kept;
-  for (size_t i = 0; i < columns->size(); ++i) {
+  const size_t n = columns->size();
+  for (size_t i = 0; i < n; ++i) {
     bool absorbed = false;
-    for (size_t j = 0; j < columns->size() && !absorbed; ++j) {
+    for (size_t j = 0; j < n && !absorbed; ++j) {
       if (i == j) continue;
-      if (subset_of((*columns)[i], (*columns)[j]) && ((*columns)[i] != (*columns)[j] || j < i)) absorbed = true;
+      const Column& a = (*columns)[i];
+      const Column& b = (*columns)[j];
+      if (subset_of(a, b) && (a != b || j < i)) absorbed = true;
     }
     if (!absorbed) kept.push_back((*columns)[i]);
   }
@@ -42,68 +46,73 @@ std::string letter_name(int index) {
 std::vector<std::string> letter_groups(const std::vector<double>& means,
                                        const std::function<bool(int, int)>& differ) {
   const int t = static_cast<int>(means.size());
-  std::vector<std::vector<char>> significant(t, std::vector<char>(t, 0));
-  std::vector<Column> columns{Column(t, 1)};
+  std::vector<std::string> out(t);
+  if (t == 0 || t > kMaxLevels) return out;
+  // rank order: order[r] = level with the r-th largest mean.
+  std::vector<int> order(t);
+  std::iota(order.begin(), order.end(), 0);
+  std::stable_sort(order.begin(), order.end(), [&](int a, int b) { return means[a] > means[b]; });
+  std::vector<Column> significant(t);
+  for (int a = 0; a < t; ++a)
+    for (int b = a + 1; b < t; ++b) {
+      const int i = std::min(order[a], order[b]), j = std::max(order[a], order[b]);
+      if (differ(i, j)) { significant[a].set(b); significant[b].set(a); }
+    }
+  Column all;
+  for (int r = 0; r < t; ++r) all.set(r);
+  std::vector<Column> columns{all};
   // Insert: split every column that holds a significantly different pair.
-  for (int i = 0; i < t; ++i) {
-    for (int j = i + 1; j < t; ++j) {
-      if (!differ(i, j)) continue;
-      significant[i][j] = significant[j][i] = 1;
+  for (int a = 0; a < t; ++a) {
+    for (int b = a + 1; b < t; ++b) {
+      if (!significant[a][b]) continue;
       std::vector<Column> next;
+      bool split = false;
       for (const Column& c : columns) {
-        if (c[i] && c[j]) {
-          Column without_i = c, without_j = c;
-          without_i[i] = 0;
-          without_j[j] = 0;
-          next.push_back(std::move(without_i));
-          next.push_back(std::move(without_j));
+        if (c[a] && c[b]) {
+          Column without_a = c, without_b = c;
+          without_a.reset(a);
+          without_b.reset(b);
+          next.push_back(without_a);
+          next.push_back(without_b);
+          split = true;
         } else {
           next.push_back(c);
         }
       }
+      if (!split) continue;
       columns = std::move(next);
       absorb(&columns);
     }
   }
   // Sweep: drop a level from a column when every pair it would leave
   // uncovered is still covered by another column.
-  auto covered_elsewhere = [&](size_t skip, int a, int b) {
-    for (size_t k = 0; k < columns.size(); ++k)
-      if (k != skip && columns[k][a] && columns[k][b]) return true;
-    return false;
-  };
   for (size_t k = 0; k < columns.size(); ++k) {
-    for (int i = 0; i < t; ++i) {
-      if (!columns[k][i]) continue;
-      bool needed = false;
-      for (int j = 0; j < t && !needed; ++j)
-        if (j != i && columns[k][j] && !significant[i][j] && !covered_elsewhere(k, i, j)) needed = true;
-      // A level alone in its only column keeps it.
+    for (int a = 0; a < t; ++a) {
+      if (!columns[k][a]) continue;
       bool elsewhere = false;
-      for (size_t m = 0; m < columns.size(); ++m) if (m != k && columns[m][i]) elsewhere = true;
-      if (!needed && elsewhere) columns[k][i] = 0;
+      Column covered_elsewhere;
+      for (size_t m = 0; m < columns.size(); ++m) {
+        if (m == k || !columns[m][a]) continue;
+        elsewhere = true;
+        covered_elsewhere |= columns[m];
+      }
+      if (!elsewhere) continue;   // a level keeps at least one letter
+      Column partners = columns[k] & ~significant[a];
+      partners.reset(a);
+      if ((partners & ~covered_elsewhere).none()) columns[k].reset(a);
     }
   }
-  columns.erase(std::remove_if(columns.begin(), columns.end(),
-                               [](const Column& c) { return std::none_of(c.begin(), c.end(), [](char x) { return x; }); }),
+  columns.erase(std::remove_if(columns.begin(), columns.end(), [](const Column& c) { return c.none(); }),
                 columns.end());
-  // Letters in order of the best mean each column holds.
-  std::vector<int> rank(t);
-  std::vector<int> order(t);
-  std::iota(order.begin(), order.end(), 0);
-  std::stable_sort(order.begin(), order.end(), [&](int a, int b) { return means[a] > means[b]; });
-  for (int r = 0; r < t; ++r) rank[order[r]] = r;
   auto first_rank = [&](const Column& c) {
-    int best = t;
-    for (int i = 0; i < t; ++i) if (c[i]) best = std::min(best, rank[i]);
-    return best;
+    for (int r = 0; r < t; ++r) if (c[r]) return r;
+    return t;
   };
   std::stable_sort(columns.begin(), columns.end(),
                    [&](const Column& a, const Column& b) { return first_rank(a) < first_rank(b); });
-  std::vector<std::string> out(t);
   for (size_t k = 0; k < columns.size(); ++k)
-    for (int i = 0; i < t; ++i)
-      if (columns[k][i]) out[i] += letter_name(static_cast<int>(k));
+    for (int r = 0; r < t; ++r)
+      if (columns[k][r]) out[order[r]] += letter_name(static_cast<int>(k));
   return out;
 }
 

@@ -14,7 +14,7 @@ namespace furrow {
 // `means` orders the letters: the level with the largest mean gets "a".
 // `differ(i, j)` (i < j) says whether levels i and j differ significantly.
 // Returns one letter string per level (e.g. "ab"). Letters run a-z, then
-// A-Z, then a1, b1, ...
+// A-Z, then a1, b1, ... Up to 256 levels; beyond that every string is empty.
 std::vector<std::string> letter_groups(const std::vector<double>& means,
                                        const std::function<bool(int, int)>& differ);
 

@@ -241,8 +241,10 @@ LinearModel::Impl::Sequence LinearModel::Impl::make_sequence(const std::vector<i
   }
   for (size_t k = 0; k < order.size(); ++k) {
     const int t = order[k];
-    const MatrixXd x = indicator_columns(cells[t], n);
-    const double norm = max_column_norm(x);
+    const bool absorbed_here = static_cast<int>(k) == s.absorbed_position;
+    // The absorbed term's many indicator columns are never formed.
+    const MatrixXd x = absorbed_here ? MatrixXd() : indicator_columns(cells[t], n);
+    const double norm = absorbed_here ? 0.0 : max_column_norm(x);
     if (s.absorbed_position < 0) {
       s.df.push_back(s.raw.add(x, norm));
     } else if (static_cast<int>(k) < s.absorbed_position) {
@@ -308,7 +310,24 @@ Layout make_layout(const std::vector<int>& terms, const std::vector<TermCells>& 
 // Average design row over the reference grid for one cell of a means term.
 // Returns false when some hypothetical plot falls in a cell the data never
 // saw (the mean is then not estimable).
-bool grid_average_row(const CodedDesign& d, const std::vector<TermCells>& cells,
+// Look-up from a term's level key to its column in a layout.
+using ColumnIndex = std::vector<std::unordered_map<long long, int>>;
+
+ColumnIndex make_column_index(const CodedDesign& d, const std::vector<TermCells>& cells, const Layout& layout) {
+  ColumnIndex column_of(layout.terms.size());
+  for (size_t k = 0; k < layout.terms.size(); ++k) {
+    const TermCells& tc = cells[layout.terms[k]];
+    for (size_t c = 0; c < tc.levels.size(); ++c) {
+      long long key = 0;
+      for (size_t j = 0; j < tc.levels[c].size(); ++j)
+        key = key * (d.factors[d.terms[layout.terms[k]][j]].levels + 1) + tc.levels[c][j];
+      column_of[k][key] = layout.offset[k] + static_cast<int>(c);
+    }
+  }
+  return column_of;
+}
+
+bool grid_average_row(const CodedDesign& d, const ColumnIndex& column_of,
                       const std::vector<std::vector<std::vector<int>>>& group_combos,
                       const std::vector<int>& target_factors, const std::vector<int>& target_levels,
                       const Layout& layout, bool with_intercept, VectorXd* row) {
@@ -327,17 +346,6 @@ bool grid_average_row(const CodedDesign& d, const std::vector<TermCells>& cells,
       if (ok) choices[g].push_back(&combo);
     }
     if (choices[g].empty()) return false;
-  }
-  // Look-up from a term's level key to its column.
-  std::vector<std::unordered_map<long long, int>> column_of(layout.terms.size());
-  for (size_t k = 0; k < layout.terms.size(); ++k) {
-    const TermCells& tc = cells[layout.terms[k]];
-    for (size_t c = 0; c < tc.levels.size(); ++c) {
-      long long key = 0;
-      for (size_t j = 0; j < tc.levels[c].size(); ++j)
-        key = key * (d.factors[d.terms[layout.terms[k]][j]].levels + 1) + tc.levels[c][j];
-      column_of[k][key] = layout.offset[k] + static_cast<int>(c);
-    }
   }
   *row = VectorXd::Zero(layout.width);
   long long combos = 0;
@@ -492,10 +500,11 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
         x.middleCols(layout.offset[t], impl->cells[t].levels.size()) = indicator_columns(impl->cells[t], d.n);
       const MatrixXd q = impl->sequential.raw.stacked();
       const CoefficientMap map = coefficient_map(q.transpose() * x);
+      const ColumnIndex column_of = make_column_index(d, impl->cells, layout);
       plan.a = MatrixXd::Zero(ncell, q.cols());
       for (int c = 0; c < ncell; ++c) {
         VectorXd l, a;
-        if (!grid_average_row(d, impl->cells, combos, d.terms[m], tc.levels[c], layout, true, &l) ||
+        if (!grid_average_row(d, column_of, combos, d.terms[m], tc.levels[c], layout, true, &l) ||
             !apply_map(map, l, &a)) {
           plan.estimable[c] = 0;
           continue;
@@ -521,9 +530,10 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
         for (int i = 0; i < d.n; ++i) level_means.row(tc.cell_of[i]) += x.row(i);
         for (int c = 0; c < ncell; ++c) level_means.row(c) /= tc.count[c];
         const CoefficientMap map = coefficient_map(q.transpose() * impl->within_columns(x));
+        const ColumnIndex column_of = make_column_index(d, impl->cells, layout);
         for (int c = 0; c < ncell; ++c) {
           VectorXd g, a;
-          if (!grid_average_row(d, impl->cells, combos, d.terms[m], tc.levels[c], layout, false, &g) ||
+          if (!grid_average_row(d, column_of, combos, d.terms[m], tc.levels[c], layout, false, &g) ||
               !apply_map(map, g - level_means.row(c).transpose(), &a)) {
             plan.estimable[c] = 0;
             continue;

@@ -20,7 +20,10 @@ constexpr int kInnerPanels = 12;
 // The chi-based density of s is integrated between these tail probabilities,
 // split at its mode, each half in kOuterPanels panels.
 constexpr double kOuterTail = 1e-15;
-constexpr int kOuterPanels = 8;
+constexpr int kOuterPanels = 5;
+// Few degrees of freedom give a wide, skewed density of s: more panels.
+constexpr int kOuterPanelsFewDf = 10;
+constexpr double kFewDf = 10;
 
 using Rule = boost::math::quadrature::gauss<double, 20>;
 
@@ -81,19 +84,50 @@ double studentized_range_cdf(double q, int k, double df) {
   const double s_lo = std::sqrt(boost::math::quantile(chi, kOuterTail) / df);
   const double s_hi = std::sqrt(boost::math::quantile(boost::math::complement(chi, kOuterTail)) / df);
   const double mode = df > 1 ? std::clamp(std::sqrt((df - 1) / df), s_lo, s_hi) : 0.5 * (s_lo + s_hi);
-  const double total = composite(integrand, s_lo, mode, kOuterPanels) + composite(integrand, mode, s_hi, kOuterPanels);
+  const int panels = df < kFewDf ? kOuterPanelsFewDf : kOuterPanels;
+  const double total = composite(integrand, s_lo, mode, panels) + composite(integrand, mode, s_hi, panels);
   return std::min(1.0, total);
 }
 
+namespace {
+
+// Root of cdf(q) = p inside a bracket [lo, hi] where cdf(lo) < p <= cdf(hi).
+template <class Cdf>
+double solve(Cdf cdf, double p, double lo, double f_lo, double hi, double f_hi) {
+  std::uintmax_t iterations = 200;
+  auto f = [&](double q) { return cdf(q) - p; };
+  const auto range =
+      boost::math::tools::toms748_solve(f, lo, hi, f_lo, f_hi, boost::math::tools::eps_tolerance<double>(42), iterations);
+  return 0.5 * (range.first + range.second);
+}
+
+}  // namespace
+
 double studentized_range_quantile(double p, int k, double df) {
   assert(p > 0 && p < 1 && k >= 2 && df > 0);
-  auto f = [&](double q) { return studentized_range_cdf(q, k, df) - p; };
-  double lo = 0.0, f_lo = -p, hi = 4.0, f_hi = f(hi);
-  while (f_hi < 0) { lo = hi; f_lo = f_hi; hi *= 2; f_hi = f(hi); }
-  std::uintmax_t iterations = 200;
-  const auto range = boost::math::tools::toms748_solve(f, lo, hi, f_lo, f_hi,
-                                                       boost::math::tools::eps_tolerance<double>(42), iterations);
-  return 0.5 * (range.first + range.second);
+  // The df = infinity quantile costs little (one integral per evaluation)
+  // and bounds the finite-df one from below: start the search there.
+  auto cdf_inf = [k](double q) { return range_cdf(q, k); };
+  double lo = 0.0, f_lo = -p, hi = 4.0, f_hi = cdf_inf(hi) - p;
+  while (f_hi < 0) { lo = hi; f_lo = f_hi; hi *= 2; f_hi = cdf_inf(hi) - p; }
+  const double q_inf = solve(cdf_inf, p, lo, f_lo, hi, f_hi);
+  if (std::isinf(df)) return q_inf;
+  auto cdf = [k, df](double q) { return studentized_range_cdf(q, k, df); };
+  lo = q_inf;
+  f_lo = cdf(lo) - p;
+  if (f_lo >= 0) return q_inf;   // df so large that the difference is below resolution
+  // q(df) / q(inf) is about 1 + c / df; widen the step until the root is inside.
+  double step = std::max(1e-3, 3.0 / df);
+  hi = q_inf * (1 + step);
+  f_hi = cdf(hi) - p;
+  while (f_hi < 0) {
+    lo = hi;
+    f_lo = f_hi;
+    step *= 2;
+    hi = q_inf * (1 + step);
+    f_hi = cdf(hi) - p;
+  }
+  return solve(cdf, p, lo, f_lo, hi, f_hi);
 }
 
 }  // namespace furrow

@@ -10,7 +10,8 @@
 //   P_inf(w; k)      = k Int phi(z) [Phi(z + w) - Phi(z)]^(k-1) dz,
 //
 // with g_df the density of s = sqrt(chi2_df / df). df = +infinity gives
-// P_inf(q; k). Accuracy: about 1e-11 absolute in the cdf.
+// P_inf(q; k). Both integrals use composite 20-point Gauss-Legendre rules;
+// quantiles agree with scipy to about 1e-8 relative (tests/reference).
 
 namespace furrow {
 
@@ -18,7 +19,7 @@ namespace furrow {
 double studentized_range_cdf(double q, int k, double df);
 
 // The q with P(Q <= q) = p, 0 < p < 1, found by a bracketing root-finder
-// (TOMS 748) on the cdf to about 12 significant digits.
+// (TOMS 748) on the cdf, started from the df = infinity quantile.
 double studentized_range_quantile(double p, int k, double df);
 
 }  // namespace furrow
