@@ -2,7 +2,7 @@
 // The studentized range distribution: the range of k independent standard
 // normal means divided by an independent estimate of their standard
 // deviation on df degrees of freedom. Boost.Math has none, so it is computed
-// here by adaptive Gauss-Kronrod quadrature of the classical double integral
+// here by fixed composite Gauss-Legendre quadrature of the classical double integral
 // (Lund & Lund 1983, Applied Statistics 32, 204-210; Copenhaver & Holland
 // 1988, J. Statist. Comput. Simul. 30, 1-15):
 //
