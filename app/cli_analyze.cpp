@@ -59,7 +59,10 @@ int run_analyze(const AnalyzeRequest& q) {
   for (const auto& r : results) {
     if (!r) {
       const Problem& p = r.problem();
-      const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record] : 0;
+      // A problem with a column as a whole points at the header line.
+      const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record]
+                       : !p.column.empty()                                       ? read.csv.header_line
+                                                                                 : 0;
       return report(q.csv_path, line, p.column, p.message);
     }
     done.push_back(*r);

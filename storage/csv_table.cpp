@@ -111,6 +111,7 @@ CsvRead parse_csv_text(const std::string& input) {
     for (size_t c = 0; c < rows[r].size(); ++c) out.csv.table.columns[c].cells.push_back(rows[r][c]);
     out.csv.line_of_record.push_back(row_line[r]);
   }
+  out.csv.header_line = row_line[0];
   if (out.csv.line_of_record.empty()) return fail("the file has a header but no data lines", row_line[0]);
   out.ok = true;
   return out;

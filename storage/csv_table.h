@@ -15,6 +15,7 @@ namespace furrow {
 struct CsvTable {
   PlotTable table;
   std::vector<int> line_of_record;   // 1-based file line where each record starts
+  int header_line = 1;               // the line holding the column names
 };
 
 // Parses CSV text. Problems carry the 0-based record (or -1 for the header)

@@ -13,6 +13,7 @@ import pandas as pd
 from scipy import stats
 from statsmodels.formula.api import ols
 from statsmodels.stats.anova import anova_lm
+from statsmodels.stats.outliers_influence import OLSInfluence
 
 
 def full_analysis(df, trait, formula, treatment):
@@ -28,7 +29,13 @@ def full_analysis(df, trait, formula, treatment):
     mse = model.mse_resid
     r = d.groupby(treatment).size().mean()
     lsd = stats.t.ppf(0.975, model.df_resid) * np.sqrt(2 * mse / r)
-    student = model.get_influence().resid_studentized_external
+    # Externally studentized residuals from statsmodels' hat-matrix diagonal and
+    # the closed form (OLSInfluence.resid_studentized_external refits the model
+    # once per plot: over ten minutes per trait here, so it is not used).
+    h = OLSInfluence(model).hat_matrix_diag
+    e = model.resid.to_numpy()
+    s2_without = (model.ssr - e ** 2 / (1 - h)) / (model.df_resid - 1)
+    student = e / np.sqrt(s2_without * (1 - h))
     outliers = np.flatnonzero(np.abs(student) > 3)
     return table, means, lsd, outliers
 

@@ -103,7 +103,7 @@ with tempfile.TemporaryDirectory() as tmp:
     rcbd = ["--design", "rcbd", "--block", "block", "--treatment", "entry", "--response", "y"]
     good = b"block,entry,y\n1,A,5\n1,B,6\n2,A,5.5\n2,B,6.1\n3,A,5.2\n3,B,6.4\n"
     bad("missing_column.csv", good, ["--design", "rcbd", "--block", "block", "--treatment", "entry",
-                                     "--response", "yield"], ["missing_column.csv", "column 'yield'"])
+                                     "--response", "yield"], ["missing_column.csv:1:", "column 'yield'"])
     bad("text_in_number.csv", good.replace(b"2,B,6.1", b"2,B,6.1kg"), rcbd,
         ["text_in_number.csv:5:", "column 'y'", "6.1kg"])
     bad("one_level.csv", b"block,entry,y\n1,A,5\n1,B,6\n1,A,5.5\n1,B,6.1\n", rcbd,
