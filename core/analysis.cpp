@@ -229,6 +229,15 @@ struct QuantileCache {
   }
 };
 
+struct SplitPlotCells {
+  double ea = 0, eb = 0, df_a = 0, df_b = 0, b = 0;
+  int main_position = 0;   // which of the term's two factors is the main plot
+  // Weighted critical value for pairs that differ in the main plot.
+  double mixed(double crit_a, double crit_b) const {
+    return ((b - 1) * eb * crit_b + ea * crit_a) / ((b - 1) * eb + ea);
+  }
+};
+
 TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, const Analysis& a, double offset,
                      const AnalysisOptions& options, QuantileCache* cache) {
   TermMeans tm;
@@ -239,6 +248,30 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
   tm.error_term = err.label;
   tm.error_ms = err.ms.value_or(0.0);
   tm.error_df = err.df;
+  // Split-plot main x sub cell means mix both strata: a cell mean has variance
+  // ((b - 1) Eb + Ea) / (r b), two sub-plot levels under one main-plot level
+  // differ with the sub-plot error alone, other pairs with the mixture and a
+  // weighted critical value (Cochran & Cox 1957, ch. 7; Gomez & Gomez 1984,
+  // ch. 3: formulas recalled from memory, exact for balanced data).
+  std::optional<SplitPlotCells> split;
+  if (m.kind == DesignKind::split_plot && term.factors.size() == 2) {
+    const AnovaRow& ea = a.table[2];
+    const AnovaRow& eb = a.table[m.terms.size()];
+    if (ea.ms && eb.ms && ea.df > 0 && eb.df > 0) {
+      split = SplitPlotCells{};
+      split->ea = *ea.ms;
+      split->eb = *eb.ms;
+      split->df_a = ea.df;
+      split->df_b = eb.df;
+      split->b = g.coded.factors[m.treatment_factors[1]].levels;
+      split->main_position = term.factors[0] == m.treatment_factors[0] ? 0 : 1;
+      tm.error_term = "residual and " + m.terms[2].label;
+      tm.error_ms = ((split->b - 1) * split->eb + split->ea) / split->b;
+      tm.error_df = split->df_b;
+      tm.note = "cell means carry both errors: pairs under one main-plot level use the residual, other pairs "
+                "((b - 1) Eb + Ea) / b with a weighted critical value";
+    }
+  }
   const int k = static_cast<int>(cm.n.size());
   std::vector<int> usable;
   for (int c = 0; c < k; ++c) {
@@ -289,6 +322,14 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
   tm.lsd_min = std::numeric_limits<double>::infinity();
   tm.lsd_max = 0;
   const int u = static_cast<int>(usable.size());
+  double t_a = 0, t_b = 0, q_a = 0, q_b = 0;
+  if (split) {
+    t_a = t_quantile(1 - options.alpha / 2, split->df_a);
+    t_b = t_quantile(1 - options.alpha / 2, split->df_b);
+    q_a = cache->get(1 - options.alpha, u, split->df_a);
+    q_b = cache->get(1 - options.alpha, u, split->df_b);
+  }
+  double sum_lsd = 0, sum_hsd = 0;
   std::vector<std::vector<char>> lsd_differs(u, std::vector<char>(u, 0)), hsd_differs = lsd_differs;
   for (int i = 0; i < u; ++i) {
     for (int j = i + 1; j < u; ++j) {
@@ -296,15 +337,31 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
       pc.first = usable[i];
       pc.second = usable[j];
       pc.difference = tm.levels[pc.first].mean - tm.levels[pc.second].mean;
-      pc.se = std::sqrt(cm.difference_var_factor(pc.first, pc.second) * tm.error_ms);
-      pc.lsd = tm.t_critical * pc.se;
-      pc.hsd = tm.q_critical / std::sqrt(2.0) * pc.se;
+      const double dvf = cm.difference_var_factor(pc.first, pc.second);
+      if (split) {
+        const int mp = split->main_position;
+        const bool same_main = cm.cell_levels[pc.first][mp] == cm.cell_levels[pc.second][mp];
+        pc.se = std::sqrt(dvf * (same_main ? split->eb : tm.error_ms));
+        pc.lsd = (same_main ? t_b : split->mixed(t_a, t_b)) * pc.se;
+        pc.hsd = (same_main ? q_b : split->mixed(q_a, q_b)) / std::sqrt(2.0) * pc.se;
+      } else {
+        pc.se = std::sqrt(dvf * tm.error_ms);
+        pc.lsd = tm.t_critical * pc.se;
+        pc.hsd = tm.q_critical / std::sqrt(2.0) * pc.se;
+      }
+      sum_lsd += pc.lsd;
+      sum_hsd += pc.hsd;
       tm.lsd_min = std::min(tm.lsd_min, pc.lsd);
       tm.lsd_max = std::max(tm.lsd_max, pc.lsd);
       lsd_differs[i][j] = std::abs(pc.difference) > pc.lsd;
       hsd_differs[i][j] = std::abs(pc.difference) > pc.hsd;
       tm.pairs.push_back(pc);
     }
+  }
+  if (split && !tm.pairs.empty()) {
+    // Summaries for an average pair of cells.
+    tm.lsd = sum_lsd / static_cast<double>(tm.pairs.size());
+    tm.hsd = sum_hsd / static_cast<double>(tm.pairs.size());
   }
   std::vector<double> means;
   for (int c : usable) means.push_back(tm.levels[c].mean);

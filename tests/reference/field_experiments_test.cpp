@@ -121,6 +121,31 @@ TEST_CASE("Split-plot: Yates (1935), Complex experiments, JRSS Suppl. 2, 181-247
     // The main-plot means carry the main-plot error: SE = sqrt(601.330556 / 24).
     CHECK(a.means[0].term == "V");
     CHECK(a.means[0].levels[0].se == doctest::Approx(std::sqrt(601.330556 / 24)).epsilon(1e-8));
+    // Cell means of V x N mix both errors (split-plot standard errors as in
+    // Gomez & Gomez 1984, ch. 3, recalled from memory; mean squares from the
+    // published table): cell SE sqrt((3 Eb + Ea) / 24); two N levels under one
+    // V: SE sqrt(2 Eb / 6) with t(0.975; 45) = 2.014103; two V levels: SE
+    // sqrt(2 (3 Eb + Ea) / 24) with t' weighting t(0.975; 10) = 2.228139.
+    const double ea = 601.330556, eb = 177.083333;
+    const TermMeans& cells = a.means[2];
+    REQUIRE(cells.term == "V x N");
+    CHECK(cells.levels[0].se == doctest::Approx(std::sqrt((3 * eb + ea) / 24)).epsilon(1e-8));
+    int same = 0, other = 0;
+    for (const PairComparison& p : cells.pairs) {
+      const bool same_v = cells.levels[p.first].levels[0] == cells.levels[p.second].levels[0];
+      if (same_v) {
+        CHECK(p.se == doctest::Approx(std::sqrt(2 * eb / 6)).epsilon(1e-8));
+        CHECK(p.lsd == doctest::Approx(2.014103 * std::sqrt(2 * eb / 6)).epsilon(1e-6));
+        ++same;
+      } else {
+        const double t_mixed = (3 * eb * 2.014103 + ea * 2.228139) / (3 * eb + ea);
+        CHECK(p.se == doctest::Approx(std::sqrt(2 * (3 * eb + ea) / 24)).epsilon(1e-8));
+        CHECK(p.lsd == doctest::Approx(t_mixed * std::sqrt(2 * (3 * eb + ea) / 24)).epsilon(1e-6));
+        ++other;
+      }
+    }
+    CHECK(same == 3 * 6);
+    CHECK(other == 66 - 18);
   }
 }
 
