@@ -26,6 +26,16 @@ PlotTable load_csv(const std::string& path) {
   return r.csv.table;
 }
 
+PlotTable clewer() { return load_csv(reference_path("field-experiments/clewer-wheat-rcbd.csv")); }
+
+DesignRoles rcbd_roles() {
+  DesignRoles r;
+  r.kind = DesignKind::randomised_complete_block;
+  r.block = "block";
+  r.treatments = {"gen"};
+  return r;
+}
+
 const AnovaRow& row(const Analysis& a, const std::string& source) {
   for (const AnovaRow& r : a.table)
     if (r.source == source) return r;

@@ -26,6 +26,11 @@ inline bool close_rel(double x, double c, double rel, double abs_floor = 0.0) {
   return std::abs(x - c) <= std::max(rel * std::abs(c), abs_floor);
 }
 
+// The Clewer & Scarisbrick (2001) wheat RCBD (shared/reference/field-experiments)
+// and its roles: block, gen.
+PlotTable clewer();
+DesignRoles rcbd_roles();
+
 const AnovaRow& row(const Analysis& a, const std::string& source);   // fails the test when absent
 
 }  // namespace furrow::test

@@ -12,15 +12,8 @@
 namespace furrow {
 namespace {
 
-PlotTable clewer() { return test::load_csv(test::reference_path("field-experiments/clewer-wheat-rcbd.csv")); }
-
-DesignRoles rcbd_roles() {
-  DesignRoles r;
-  r.kind = DesignKind::randomised_complete_block;
-  r.block = "block";
-  r.treatments = {"gen"};
-  return r;
-}
+using test::clewer;
+using test::rcbd_roles;
 
 TEST_CASE("variance components for random entries in blocks (Falconer & Mackay 1996; Holland et al. 2003): "
           "Clewer & Scarisbrick Table 10.1 mean squares 2.21 and 0.40, r = 3") {

@@ -11,15 +11,8 @@
 namespace furrow {
 namespace {
 
-PlotTable clewer() { return test::load_csv(test::reference_path("field-experiments/clewer-wheat-rcbd.csv")); }
-
-DesignRoles rcbd_roles() {
-  DesignRoles r;
-  r.kind = DesignKind::randomised_complete_block;
-  r.block = "block";
-  r.treatments = {"gen"};
-  return r;
-}
+using test::clewer;
+using test::rcbd_roles;
 
 TEST_CASE("one missing plot: least squares equals Yates's missing-plot estimate (Yates 1933, Empire J. "
           "Exp. Agric. 1, 129-142): same residual SS, one error DF fewer") {
