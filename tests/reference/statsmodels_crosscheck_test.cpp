@@ -83,6 +83,31 @@ TEST_SUITE("statsmodels") {
       check_case(std::string(c) + "_unbalanced", FitMethod::absorbed);
     }
   }
+  TEST_CASE("several sites, random entries: variance components and entry-mean heritability from the "
+            "statsmodels mean squares (Holland, Nyquist & Cervantes-Martinez 2003, formulas in STATISTICS.md)") {
+    const std::string dir = test::generated_path("statsmodels/");
+    const std::string name = "multisite_random_balanced";
+    const auto j = nlohmann::json::parse(test::read_text(dir + "case_" + name + ".json"));
+    DesignRoles roles = roles_from(j["roles"]);
+    roles.treatments_random = true;
+    const auto r = analyse(test::load_csv(dir + "case_" + name + ".csv"), roles, "y");
+    REQUIRE(r.ok());
+    const auto& rows = j["sums"]["partial"];
+    const double ms_g = rows["entry"]["ms"], ms_ge = rows["site x entry"]["ms"], ms_e = rows["residual"]["ms"];
+    const double reps = 3, sites = 5;   // the generated design: 5 sites x 3 blocks
+    const double ge = (ms_ge - ms_e) / reps;
+    const double gv = (ms_g - ms_ge) / (reps * sites);
+    const VarianceComponents& vc = r->variance_components;
+    CHECK(vc.sites == sites);
+    CHECK(vc.replicates == doctest::Approx(reps).epsilon(1e-12));
+    if (ge > 0) CHECK(*vc.treatment_by_site == doctest::Approx(ge).epsilon(1e-9));
+    else CHECK(*vc.treatment_by_site == 0.0);
+    REQUIRE(gv > 0);
+    CHECK(*vc.treatment == doctest::Approx(gv).epsilon(1e-9));
+    const double h2 = gv / (gv + std::max(ge, 0.0) / sites + ms_e / (reps * sites));
+    CHECK(*vc.heritability == doctest::Approx(h2).epsilon(1e-9));
+  }
+
   TEST_CASE("the automatic method picks the fast paths") {
     const std::string dir = test::generated_path("statsmodels/");
     auto method_of = [&](const std::string& name) {
