@@ -25,6 +25,13 @@ std::string num(double v, int digits = 6) {
   return buf;
 }
 
+// A measured value as the crew typed it would look: shortest form, 6 digits.
+std::string value_text(double v) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.6g", v);
+  return buf;
+}
+
 std::string df_text(double df) {
   if (df == std::floor(df)) return std::to_string(static_cast<long long>(df));
   return num(df, 4);
@@ -110,8 +117,8 @@ std::string analysis_text(const Analysis& a, const std::vector<int>& lines) {
   else {
     o << a.outliers.size() << "\n";
     for (const OutlierPlot& p : a.outliers) {
-      o << "  line " << line_of(lines, p.record) << ": value " << num(p.value) << ", expected about "
-        << num(p.fitted) << ", studentized residual " << num(p.studentized_external, 3);
+      o << "  line " << line_of(lines, p.record) << ": value " << value_text(p.value) << ", the other plots predict "
+        << value_text(p.expected) << ", studentized residual " << num(p.studentized_external, 3);
       if (p.p_holm) o << ", adjusted P " << p_text(*p.p_holm);
       o << "\n";
     }
@@ -217,6 +224,7 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const std::vect
                                {"record", p.record + 1},
                                {"value", p.value},
                                {"fitted", p.fitted},
+                               {"expected", p.expected},
                                {"studentized", p.studentized_external},
                                {"studentized_internal", p.studentized},
                                {"p_holm", opt(p.p_holm)}});

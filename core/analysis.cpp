@@ -497,6 +497,7 @@ void find_outliers(const Group& g, const ResponseFit& fit, const std::vector<dou
     o.value = y[i] + offset;
     o.fitted = fit.fitted[i] + offset;
     o.residual = fit.residuals[i];
+    o.expected = o.value - fit.residuals[i] / (1.0 - fit.leverages[i]);
     o.studentized = c[k].t_int;
     o.studentized_external = c[k].t_ext;
     if (options.outlier_rule == OutlierRule::bonferroni_holm) o.p_holm = p_adj[k];

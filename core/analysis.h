@@ -121,6 +121,7 @@ struct VarianceComponents {
 struct OutlierPlot {
   int record = -1;                  // index into the input table
   double value = 0, fitted = 0, residual = 0;
+  double expected = 0;              // predicted from the other plots: value - residual / (1 - leverage)
   double studentized = 0;           // internally studentized
   double studentized_external = 0;  // externally studentized: the flagged statistic
   std::optional<double> p_holm;     // Bonferroni-Holm adjusted P (Holm rule only)

@@ -17,7 +17,7 @@ ENTRIES = ["Kestrel", "Basalt", "Tamarack", "Ridgeline", "Quillon", "Marten",
            "Caddis", "Wetherby", "Alder Gold", "Runnel", "Skerry", "Hobbit Hill",
            "Dunmore", "Farrowdale"]
 BLOCKS = 4
-SEED = 20260422
+SEED = 20260428
 
 
 def main(path):

@@ -83,6 +83,8 @@ TEST_CASE("a gross error is the one flagged plot, by threshold and by Bonferroni
     REQUIRE(a->outliers.size() == 1);
     CHECK(a->outliers[0].record == 2 * 10 + 5);
     CHECK(a->outliers[0].value == doctest::Approx(5.0));
+    // Entry 6 in block 3 would be about 50 + 6 + 3 (the generating means).
+    CHECK(std::abs(a->outliers[0].expected - 59.0) < 2.0);
     CHECK(a->outliers[0].studentized_external < -kOutlierStudentizedThreshold);
     if (rule == OutlierRule::bonferroni_holm) CHECK(*a->outliers[0].p_holm < 0.05);
   }
