@@ -6,6 +6,7 @@
 
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <sstream>
 
 #include "core/analysis.h"
@@ -97,6 +98,11 @@ void check_dataset(const std::string& name, FitMethod method) {
   CHECK(test::lre(a.r_squared, s.c.r_squared) >= kDigits);
   CHECK(test::lre(a.residual_sd, s.c.residual_sd) >= kDigits);
   if (method != FitMethod::automatic) CHECK(a.method == method);
+  const double fewest = std::min({test::lre(between.ss, s.c.between_ss), test::lre(*between.ms, s.c.between_ms),
+                                  test::lre(*between.f, s.c.f), test::lre(within.ss, s.c.within_ss),
+                                  test::lre(*within.ms, s.c.within_ms), test::lre(a.r_squared, s.c.r_squared),
+                                  test::lre(a.residual_sd, s.c.residual_sd)});
+  MESSAGE(name << " (" << std::string(fit_method_name(a.method)) << "): fewest correct digits " << fewest);
 }
 
 const char* kSets[] = {"SiRstv", "SmLs01", "SmLs02", "SmLs03", "AtmWtAg", "SmLs04",
