@@ -154,8 +154,8 @@ struct Basis {
     return r;
   }
 
-  MatrixXd stacked() const {
-    const Eigen::Index n = blocks.empty() ? 0 : blocks.front().rows();
+  // All blocks side by side: n x rank (n given, since the basis may be empty).
+  MatrixXd stacked(Eigen::Index n) const {
     MatrixXd all(n, rank());
     Eigen::Index col = 0;
     for (const MatrixXd& q : blocks) { all.middleCols(col, q.cols()) = q; col += q.cols(); }
@@ -498,7 +498,7 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
       x.col(0).setOnes();
       for (int t = 0; t < nt; ++t)
         x.middleCols(layout.offset[t], impl->cells[t].levels.size()) = indicator_columns(impl->cells[t], d.n);
-      const MatrixXd q = impl->sequential.raw.stacked();
+      const MatrixXd q = impl->sequential.raw.stacked(d.n);
       const CoefficientMap map = coefficient_map(q.transpose() * x);
       const ColumnIndex column_of = make_column_index(d, impl->cells, layout);
       plan.a = MatrixXd::Zero(ncell, q.cols());
@@ -519,7 +519,7 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
       for (int t = 0; t < nt; ++t) if (t != m) rest.push_back(t);
       const Layout layout = make_layout(rest, impl->cells, 0);
       for (int c = 0; c < ncell; ++c) plan.v[c] = 1.0 / tc.count[c];
-      const MatrixXd q = impl->sequential.within.stacked();
+      const MatrixXd q = impl->sequential.within.stacked(d.n);
       plan.a = MatrixXd::Zero(ncell, q.cols());
       if (layout.width > 0) {
         MatrixXd x(d.n, layout.width);
@@ -629,7 +629,7 @@ ResponseFit LinearModel::fit(const std::vector<double>& y_in) const {
     }
     if (m.method == FitMethod::absorbed) {
       for (int i = 0; i < n; ++i) out.leverages[i] += m.absorbed_inverse_count[i];
-      within_projection = basis.stacked().transpose() * yw;
+      within_projection = basis.stacked(d.n).transpose() * yw;
     }
   }
   out.residual_ss = e.squaredNorm();
@@ -641,7 +641,7 @@ ResponseFit LinearModel::fit(const std::vector<double>& y_in) const {
   VectorXd full_projection;
   if (m.method == FitMethod::dense) {
     VectorXd y = Eigen::Map<const VectorXd>(y_in.data(), n);
-    full_projection = m.sequential.raw.stacked().transpose() * y;
+    full_projection = m.sequential.raw.stacked(d.n).transpose() * y;
   }
   for (const Impl::MeansPlan& plan : m.means) {
     const TermCells& tc = m.cells[plan.term];
