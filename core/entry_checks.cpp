@@ -1,0 +1,212 @@
+#include "core/entry_checks.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <map>
+
+#include "core/exact_decimal.h"
+
+namespace furrow {
+
+const char* severity_key(Severity s) {
+  switch (s) {
+    case Severity::note: return "note";
+    case Severity::confirm: return "confirm";
+    case Severity::refuse: return "refuse";
+  }
+  return "?";
+}
+
+namespace {
+
+// Median absolute deviation to SD for normal data (Hampel 1974).
+constexpr double kMadToSd = 1.4826;
+// Longest text value kept.
+constexpr size_t kMaxTextLength = 500;
+
+std::string number_text(double v) {
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%.10g", v);
+  return buf;
+}
+
+double median(std::vector<double> v) {
+  std::sort(v.begin(), v.end());
+  const size_t n = v.size();
+  return n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+}
+
+// Days since 1970-01-01 for a valid YYYY-MM-DD date (civil calendar).
+std::optional<double> parse_date(const std::string& s) {
+  int y = 0, m = 0, d = 0;
+  char tail = 0;
+  if (s.size() != 10 || std::sscanf(s.c_str(), "%4d-%2d-%2d%c", &y, &m, &d, &tail) != 3) return std::nullopt;
+  if (m < 1 || m > 12 || d < 1) return std::nullopt;
+  static constexpr int kDays[] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
+  const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
+  if (d > kDays[m - 1] + (m == 2 && leap ? 1 : 0)) return std::nullopt;
+  // Days from civil (H. Hinnant's algorithm).
+  y -= m <= 2;
+  const int era = (y >= 0 ? y : y - 399) / 400;
+  const int yoe = y - era * 400;
+  const int doy = (153 * (m + (m > 2 ? -3 : 9)) + 2) / 5 + d - 1;
+  const int doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+  return static_cast<double>(era * 146097 + doe - 719468);
+}
+
+}  // namespace
+
+Result<ParsedValue> parse_trait_value(const Trait& trait, const std::string& raw) {
+  std::string text = raw;
+  while (!text.empty() && std::isspace(static_cast<unsigned char>(text.back()))) text.pop_back();
+  while (!text.empty() && std::isspace(static_cast<unsigned char>(text.front()))) text.erase(0, 1);
+  if (text.empty()) return make_problem("no value was entered");
+  ParsedValue out;
+  out.text = text;
+  switch (trait.kind) {
+    case TraitKind::text:
+      if (text.size() > kMaxTextLength) return make_problem("the text is longer than 500 characters");
+      return out;
+    case TraitKind::category:
+      if (std::find(trait.categories.begin(), trait.categories.end(), text) == trait.categories.end()) {
+        std::string list;
+        for (const auto& c : trait.categories) list += (list.empty() ? "" : ", ") + c;
+        return make_problem("'" + text + "' is not one of the categories of " + trait.name + ": " + list);
+      }
+      return out;
+    case TraitKind::date: {
+      const auto d = parse_date(text);
+      if (!d) return make_problem("'" + text + "' is not a date written as YYYY-MM-DD");
+      out.number = *d;
+      return out;
+    }
+    default: break;
+  }
+  const auto exact = parse_exact_decimal(text);
+  if (!exact) return make_problem("'" + text + "' is not a number");
+  const double v = std::strtod(text.c_str(), nullptr);
+  if (!std::isfinite(v)) return make_problem("'" + text + "' is out of range");
+  out.number = v;
+  const int decimals = std::max(0, exact->scale);
+  if (trait.kind == TraitKind::count || trait.kind == TraitKind::score) {
+    if (v != std::floor(v)) return make_problem("'" + text + "' is not a whole number; " + trait.name + " is a " +
+                                                (trait.kind == TraitKind::count ? "count" : "score"));
+    if (trait.kind == TraitKind::count && v < 0) return make_problem("a count cannot be negative");
+    if (trait.kind == TraitKind::score && (v < trait.scale_min || v > trait.scale_max))
+      return make_problem(text + " is not on the " + std::to_string(trait.scale_min) + "-" +
+                          std::to_string(trait.scale_max) + " scale of " + trait.name);
+    out.text = number_text(v);
+  } else {
+    if (trait.kind == TraitKind::percent && (v < 0 || v > 100)) return make_problem("a percent lies between 0 and 100");
+    if (decimals > trait.decimals)
+      return make_problem(trait.name + " is recorded to " + std::to_string(trait.decimals) +
+                          (trait.decimals == 1 ? " decimal" : " decimals") + "; '" + text + "' has " +
+                          std::to_string(decimals));
+  }
+  return out;
+}
+
+std::vector<Finding> check_entry(const Trait& trait, const std::string& text, const EntryContext& context) {
+  std::vector<Finding> out;
+  const auto parsed = parse_trait_value(trait, text);
+  if (!parsed) {
+    out.push_back({Severity::refuse, "value", parsed.problem().message});
+    return out;
+  }
+  const std::string unit = trait.unit.empty() ? "" : " " + trait.unit;
+  if (parsed->number) {
+    const double v = *parsed->number;
+    const std::string shown = parsed->text + unit;
+    if ((trait.hard_min && v < *trait.hard_min) || (trait.hard_max && v > *trait.hard_max)) {
+      out.push_back({Severity::refuse, "hard_limit",
+                     shown + " is outside the possible range of " + trait.name + " (" +
+                         (trait.hard_min ? number_text(*trait.hard_min) : "") + " to " +
+                         (trait.hard_max ? number_text(*trait.hard_max) : "") + unit + ")"});
+      return out;
+    }
+    if ((trait.soft_min && v < *trait.soft_min) || (trait.soft_max && v > *trait.soft_max))
+      out.push_back({Severity::confirm, "soft_limit",
+                     shown + " is outside the usual range of " + trait.name + " (" +
+                         (trait.soft_min ? number_text(*trait.soft_min) : "") + " to " +
+                         (trait.soft_max ? number_text(*trait.soft_max) : "") + unit + "): check and confirm"});
+    const bool numeric_kind = trait.kind == TraitKind::decimal || trait.kind == TraitKind::percent ||
+                              trait.kind == TraitKind::count;
+    if (numeric_kind && static_cast<int>(context.other_values.size()) >= kMinValuesForSlip && v != 0) {
+      const double med = median(context.other_values);
+      std::vector<double> dev;
+      for (double x : context.other_values) dev.push_back(std::abs(x - med));
+      const double sd = kMadToSd * median(dev);
+      if (sd > 0) {
+        const double z = std::abs(v - med) / sd;
+        const double z_times = std::abs(10 * v - med) / sd;
+        const double z_tenth = std::abs(v / 10 - med) / sd;
+        if (z > kSlipFarZ && std::min(z_times, z_tenth) < kSlipNearZ) {
+          const double meant = z_times < z_tenth ? 10 * v : v / 10;
+          out.push_back({Severity::confirm, "decimal_slip",
+                         shown + " looks like a decimal slip: the other plots are near " + number_text(med) + unit +
+                             ". Did you mean " + number_text(meant) + unit + "?"});
+        }
+      }
+    }
+    if (context.expectation && context.expectation->sd > 0) {
+      const PlotExpectation& e = *context.expectation;
+      const double z = std::abs(v - e.expected) / e.sd;
+      if (z > kUnlikelyZ) {
+        char range[96];
+        std::snprintf(range, sizeof range, "%.4g to %.4g", e.expected - 2 * e.sd, e.expected + 2 * e.sd);
+        out.push_back({Severity::confirm, "unlikely",
+                       shown + " is unlikely for this plot: its block and treatment suggest about " +
+                           number_text(std::round(e.expected * 100) / 100) + unit + " (usually " + range + unit +
+                           "). Re-measure or confirm"});
+      }
+    }
+  }
+  const auto& prev = context.previous_entries;
+  if (static_cast<int>(prev.size()) >= kRepeatRun - 1 &&
+      std::all_of(prev.end() - (kRepeatRun - 1), prev.end(), [&](const std::string& p) { return p == parsed->text; }))
+    out.push_back({Severity::note, "repeated",
+                   "the same value as the last " + std::to_string(kRepeatRun - 1) + " plots: was each one measured?"});
+  std::stable_sort(out.begin(), out.end(), [](const Finding& a, const Finding& b) { return a.severity > b.severity; });
+  return out;
+}
+
+std::optional<Severity> worst(const std::vector<Finding>& findings) {
+  std::optional<Severity> w;
+  for (const Finding& f : findings)
+    if (!w || f.severity > *w) w = f.severity;
+  return w;
+}
+
+std::optional<PlotExpectation> expect_from_means(const std::vector<double>& values, const std::vector<int>& block,
+                                                 const std::vector<int>& treatment, int target_block,
+                                                 int target_treatment) {
+  const size_t n = values.size();
+  std::map<int, std::pair<double, int>> bsum, tsum;
+  double grand = 0;
+  for (size_t i = 0; i < n; ++i) {
+    grand += values[i];
+    bsum[block[i]].first += values[i];
+    ++bsum[block[i]].second;
+    tsum[treatment[i]].first += values[i];
+    ++tsum[treatment[i]].second;
+  }
+  if (n == 0) return std::nullopt;
+  grand /= static_cast<double>(n);
+  const double df = static_cast<double>(n) - static_cast<double>(bsum.size()) - static_cast<double>(tsum.size()) + 1;
+  if (df < 10 || static_cast<double>(n) < 2.0 * static_cast<double>(tsum.size())) return std::nullopt;
+  if (!bsum.count(target_block) || !tsum.count(target_treatment)) return std::nullopt;
+  auto mean = [](const std::pair<double, int>& s) { return s.first / s.second; };
+  double rss = 0;
+  for (size_t i = 0; i < n; ++i) {
+    const double fit = mean(bsum[block[i]]) + mean(tsum[treatment[i]]) - grand;
+    rss += (values[i] - fit) * (values[i] - fit);
+  }
+  const double s2 = rss / df;
+  PlotExpectation e;
+  e.expected = mean(bsum[target_block]) + mean(tsum[target_treatment]) - grand;
+  e.sd = std::sqrt(s2 * (1 + 1.0 / tsum[target_treatment].second + 1.0 / bsum[target_block].second));
+  return e;
+}
+
+}  // namespace furrow
