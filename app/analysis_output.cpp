@@ -8,9 +8,6 @@
 namespace furrow {
 namespace {
 
-int line_of(const std::vector<int>& lines, int record) {
-  return record >= 0 && record < static_cast<int>(lines.size()) ? lines[record] : record + 1;
-}
 
 // Significant digits for a table cell, never scientific below 1e9.
 std::string num(double v, int digits = 6) {
@@ -53,7 +50,7 @@ nlohmann::json opt(const std::optional<double>& v) { return v ? nlohmann::json(*
 
 }  // namespace
 
-std::string analysis_text(const Analysis& a, const std::vector<int>& lines) {
+std::string analysis_text(const Analysis& a, const RecordNames& records) {
   std::ostringstream o;
   o << "== " << a.response << "  |  " << design_kind_title(a.design) << "  |  " << a.n << " plots analysed";
   if (a.n_missing) o << ", " << a.n_missing << " without a value";
@@ -117,7 +114,7 @@ std::string analysis_text(const Analysis& a, const std::vector<int>& lines) {
   else {
     o << a.outliers.size() << "\n";
     for (const OutlierPlot& p : a.outliers) {
-      o << "  line " << line_of(lines, p.record) << ": value " << value_text(p.value) << ", the other plots predict "
+      o << "  " << records.word << " " << records.name(p.record) << ": value " << value_text(p.value) << ", the other plots predict "
         << value_text(p.expected) << ", studentized residual " << num(p.studentized_external, 3);
       if (p.p_holm) o << ", adjusted P " << p_text(*p.p_holm);
       o << "\n";
@@ -129,7 +126,7 @@ std::string analysis_text(const Analysis& a, const std::vector<int>& lines) {
     o << a.missing_cells.size() << "\n";
     for (const MissingCell& c : a.missing_cells) {
       o << "  " << c.label;
-      for (int r : c.records) o << " (line " << line_of(lines, r) << ")";
+      for (int r : c.records) o << " (" << records.word << " " << records.name(r) << ")";
       o << "\n";
     }
   }
@@ -137,7 +134,7 @@ std::string analysis_text(const Analysis& a, const std::vector<int>& lines) {
   return o.str();
 }
 
-std::string analysis_json(const std::vector<Analysis>& analyses, const std::vector<int>& lines) {
+std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNames& records) {
   nlohmann::json all = nlohmann::json::array();
   for (const Analysis& a : analyses) {
     nlohmann::json j;
@@ -220,7 +217,8 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const std::vect
     j["outlier_rule"] = a.outlier_rule;
     j["outliers"] = nlohmann::json::array();
     for (const OutlierPlot& p : a.outliers)
-      j["outliers"].push_back({{"line", line_of(lines, p.record)},
+      j["outliers"].push_back({{records.word, records.word == "line" ? nlohmann::json(std::stoi(records.name(p.record)))
+                                                                     : nlohmann::json(records.name(p.record))},
                                {"record", p.record + 1},
                                {"value", p.value},
                                {"fitted", p.fitted},
@@ -231,8 +229,9 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const std::vect
     j["missing_cells"] = nlohmann::json::array();
     for (const MissingCell& c : a.missing_cells) {
       nlohmann::json ls = nlohmann::json::array();
-      for (int r : c.records) ls.push_back(line_of(lines, r));
-      j["missing_cells"].push_back({{"cell", c.label}, {"lines", ls}});
+      for (int r : c.records)
+        ls.push_back(records.word == "line" ? nlohmann::json(std::stoi(records.name(r))) : nlohmann::json(records.name(r)));
+      j["missing_cells"].push_back({{"cell", c.label}, {records.word + "s", ls}});
     }
     j["notes"] = a.notes;
     all.push_back(j);

@@ -1,7 +1,7 @@
 #pragma once
 // Rendering an Analysis for the command line: readable text tables or one
-// JSON object. `lines` maps input records to file lines for outliers and
-// missing cells (empty: records are numbered from 1).
+// JSON object. Records (outliers, missing cells) are named through
+// RecordNames: file lines for a CSV file, plot labels for a trial database.
 
 #include <string>
 #include <vector>
@@ -10,7 +10,15 @@
 
 namespace furrow {
 
-std::string analysis_text(const Analysis& a, const std::vector<int>& lines);
-std::string analysis_json(const std::vector<Analysis>& analyses, const std::vector<int>& lines);
+struct RecordNames {
+  std::string word = "line";          // "line" (a number in JSON) or "plot" (a label)
+  std::vector<std::string> names;     // per record
+  std::string name(int record) const {
+    return record >= 0 && record < static_cast<int>(names.size()) ? names[record] : std::to_string(record + 1);
+  }
+};
+
+std::string analysis_text(const Analysis& a, const RecordNames& records);
+std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNames& records);
 
 }  // namespace furrow

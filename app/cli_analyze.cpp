@@ -54,6 +54,8 @@ int run_analyze(const AnalyzeRequest& q) {
   const CsvRead read = read_csv_file(q.csv_path);
   if (!read.ok) return report(q.csv_path, read.problem.line, read.problem.column, read.problem.message);
   const std::vector<int>& lines = read.csv.line_of_record;
+  RecordNames names;
+  for (int l : lines) names.names.push_back(std::to_string(l));
   const auto results = analyse_all(read.csv.table, roles, q.responses, options);
   std::vector<Analysis> done;
   for (const auto& r : results) {
@@ -68,9 +70,9 @@ int run_analyze(const AnalyzeRequest& q) {
     done.push_back(*r);
   }
   if (q.json) {
-    std::cout << analysis_json(done, lines);
+    std::cout << analysis_json(done, names);
   } else {
-    for (size_t i = 0; i < done.size(); ++i) std::cout << (i ? "\n" : "") << analysis_text(done[i], lines);
+    for (size_t i = 0; i < done.size(); ++i) std::cout << (i ? "\n" : "") << analysis_text(done[i], names);
   }
   return 0;
 }

@@ -5,6 +5,7 @@
 #include <iostream>
 
 #include "app/cli_analyze.h"
+#include "app/cli_trial.h"
 
 int main(int argc, char** argv) {
   CLI::App app{"Furrow: plot-by-plot field trial data checks and interim analysis"};
@@ -13,10 +14,16 @@ int main(int argc, char** argv) {
   furrow::AnalyzeRequest q;
   std::string response_list;
   std::string treatment_list;
-  auto* analyze = app.add_subcommand("analyze", "Interim analysis of variance of a trait from a CSV file");
-  analyze->add_option("--csv", q.csv_path, "CSV file, one line per plot, first line column names")->required();
-  analyze->add_option("--design", q.design, "crd | rcbd | latin | factorial | split-plot | multi-site")->required();
-  analyze->add_option("--response", response_list, "trait column(s) to analyse, comma separated")->required();
+  auto* analyze = app.add_subcommand("analyze", "Interim analysis of variance of a trait (CSV file or trial database)");
+  std::string db_path, trait_code;
+  int occasion = 1;
+  auto* csv_opt = analyze->add_option("--csv", q.csv_path, "CSV file, one line per plot, first line column names");
+  auto* db_opt = analyze->add_option("--db", db_path, "trial database (analysed with its own design)");
+  csv_opt->excludes(db_opt);
+  analyze->add_option("--trait", trait_code, "trait code (with --db)");
+  analyze->add_option("--occasion", occasion, "occasion of a repeated trait (with --db, default 1)");
+  analyze->add_option("--design", q.design, "crd | rcbd | latin | factorial | split-plot | multi-site");
+  analyze->add_option("--response", response_list, "trait column(s) to analyse, comma separated");
   analyze->add_option("--treatment", treatment_list, "treatment column(s), comma separated");
   analyze->add_option("--block", q.block, "block (replicate) column");
   analyze->add_option("--row", q.row, "row column (Latin square)");
@@ -30,6 +37,39 @@ int main(int argc, char** argv) {
   analyze->add_option("--sums", q.sums, "sequential | partial (default partial)");
   analyze->add_option("--outliers", q.outliers, "threshold | holm (default threshold: |studentized residual| > 3)");
   analyze->add_flag("--json", q.json, "print one JSON object instead of tables");
+
+  // trial new / trial show
+  auto* trial = app.add_subcommand("trial", "Create or show a trial database");
+  trial->require_subcommand(1);
+  std::string plan_path, trial_db;
+  auto* trial_new = trial->add_subcommand("new", "Randomise a plan file into a new trial database");
+  trial_new->add_option("--plan", plan_path, "plan file (furrow-plan CSV)")->required();
+  trial_new->add_option("--db", trial_db, "trial database to create")->required();
+  auto* trial_show = trial->add_subcommand("show", "Show a trial's plan and progress");
+  trial_show->add_option("--db", trial_db, "trial database")->required();
+
+  furrow::RecordRequest rec;
+  auto* record = app.add_subcommand("record", "Check and save one value (exit 2 refused, 3 needs --confirm)");
+  record->add_option("--db", rec.db, "trial database")->required();
+  record->add_option("--plot", rec.plot, "plot label as on the stake")->required();
+  record->add_option("--trait", rec.trait, "trait code")->required();
+  record->add_option("--occasion", rec.occasion, "occasion of a repeated trait (default 1)");
+  record->add_option("--value", rec.value, "the value");
+  record->add_option("--missing", rec.missing, "no value, with the reason (damaged, plants missing, flooded, ...)");
+  record->add_option("--observer", rec.observer, "who measured")->required();
+  record->add_option("--note", rec.note, "a note for this plot");
+  record->add_flag("--confirm", rec.confirm, "save a value that needs confirmation");
+
+  std::string export_db, export_out;
+  bool long_table = false, wide_table = false, layout_table = false;
+  auto* exp = app.add_subcommand("export", "Write the layout or the data as CSV");
+  exp->add_option("--db", export_db, "trial database")->required();
+  auto* f_long = exp->add_flag("--long", long_table, "one line per observation");
+  auto* f_wide = exp->add_flag("--wide", wide_table, "one line per plot, one column per trait and occasion");
+  auto* f_layout = exp->add_flag("--layout", layout_table, "the field layout for maps and stake labels");
+  f_long->excludes(f_wide)->excludes(f_layout);
+  f_wide->excludes(f_layout);
+  exp->add_option("--out", export_out, "file to write (default: standard output)");
 
   try {
     app.parse(argc, argv);
@@ -50,6 +90,29 @@ int main(int argc, char** argv) {
   };
   q.responses = split(response_list);
   q.treatments = split(treatment_list);
-  if (analyze->parsed()) return furrow::run_analyze(q);
+  if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
+  if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
+  if (record->parsed()) return furrow::run_record(rec);
+  if (exp->parsed()) {
+    if (!long_table && !wide_table && !layout_table) {
+      std::cerr << "export: choose --long, --wide or --layout\n";
+      return 2;
+    }
+    return furrow::run_export(export_db, long_table ? "long" : wide_table ? "wide" : "layout", export_out);
+  }
+  if (analyze->parsed()) {
+    if (!db_path.empty()) {
+      if (trait_code.empty()) {
+        std::cerr << "analyze: --db needs --trait CODE\n";
+        return 2;
+      }
+      return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums);
+    }
+    if (q.csv_path.empty() || q.design.empty() || response_list.empty()) {
+      std::cerr << "analyze: give --db FILE --trait CODE, or --csv FILE --design KIND --response COL\n";
+      return 2;
+    }
+    return furrow::run_analyze(q);
+  }
   return 2;
 }

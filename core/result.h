@@ -36,6 +36,7 @@ class Result {
   const T* operator->() const { return &value(); }
   T* operator->() { return &value(); }
   const T& operator*() const& { return value(); }
+  T& operator*() & { return value(); }
 
   // Precondition: !ok().
   const Problem& problem() const { assert(!ok()); return std::get<Problem>(state_); }
@@ -48,4 +49,11 @@ inline Problem make_problem(std::string message, std::string column = {}, int re
   return Problem{std::move(message), std::move(column), record};
 }
 
+}  // namespace furrow
+
+namespace furrow {
+// The outcome of an operation that returns nothing but can fail.
+struct Done {};
+using Status = Result<Done>;
+inline Status ok_status() { return Done{}; }
 }  // namespace furrow

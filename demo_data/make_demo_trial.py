@@ -52,5 +52,39 @@ def main(path):
             f.write(",".join(f'"{c}"' if "," in c else c for c in r) + "\n")
 
 
+TRAITS = [
+    # code, name, unit, kind, decimals, hard_min, hard_max, soft_min, soft_max, required, occasions, choices
+    ("stand_count", "plants per plot", "plants", "count", "0", "0", "600", "150", "320", "yes", "1", ""),
+    ("height_cm", "plant height", "cm", "decimal", "0", "0", "250", "60", "140", "yes", "1", ""),
+    ("heading_days", "days to heading", "days", "count", "0", "30", "100", "45", "75", "yes", "1", ""),
+    ("lodging_score", "lodging", "", "score", "0", "", "", "", "", "yes", "1", "1-9"),
+    ("grain_yield_t_ha", "grain yield", "t/ha", "decimal", "2", "0", "15", "2", "9", "yes", "1", ""),
+]
+
+
+def write_plan(csv_path, plan_path):
+    """The plan file of the same trial, with its layout, in Furrow's plan format."""
+    with open(csv_path, encoding="utf-8") as f:
+        lines = [l.rstrip("\n").split(",") for l in f][1:]
+    with open(plan_path, "w", encoding="utf-8", newline="\n") as f:
+        f.write("furrow-plan,1\n")
+        f.write("setting,name,Harrow Ridge hulless oat variety trial 2026\n")
+        f.write("setting,site,Harrow Ridge Research Farm - field 7\n")
+        f.write("setting,season,2026\n")
+        f.write("setting,design,rcbd\n")
+        f.write(f"setting,replicates,{BLOCKS}\n")
+        f.write(f"setting,rows,{BLOCKS}\nsetting,columns,{len(ENTRIES)}\n")
+        f.write("setting,plot_length_m,6\nsetting,plot_width_m,1.5\n")
+        f.write("setting,block_shape,row-strips\nsetting,walk,serpentine-rows\n")
+        f.write(f"setting,seed,{SEED}\n")
+        f.write("factor,entry," + ",".join(ENTRIES) + "\n")
+        for t in TRAITS:
+            f.write("trait," + ",".join(t) + "\n")
+        for l in lines:
+            f.write(f"plot,{l[0]},{l[1]},{l[2]},{l[3]},{l[4]}\n")
+
+
 if __name__ == "__main__":
-    main(sys.argv[1] if len(sys.argv) > 1 else "harrow_ridge_oats_2026.csv")
+    out = sys.argv[1] if len(sys.argv) > 1 else "harrow_ridge_oats_2026.csv"
+    main(out)
+    write_plan(out, out.replace(".csv", ".plan.csv"))

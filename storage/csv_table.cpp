@@ -36,7 +36,12 @@ bool valid_utf8(const std::string& s, size_t* bad_at) {
 
 }  // namespace
 
-CsvRead parse_csv_text(const std::string& input) {
+CsvRecords parse_csv_records(const std::string& input) {
+  auto fail = [](std::string message, int line) {
+    CsvRecords r;
+    r.problem = {std::move(message), line, {}};
+    return r;
+  };
   std::string text = input;
   if (text.rfind("\xEF\xBB\xBF", 0) == 0) text.erase(0, 3);
   size_t bad = 0;
@@ -92,6 +97,22 @@ CsvRead parse_csv_text(const std::string& input) {
   if (in_quotes) return fail("a quoted field is never closed", quote_line);
   if (row_started) end_row();
   (void)field_started;
+  CsvRecords out;
+  out.ok = true;
+  for (size_t i = 0; i < rows.size(); ++i) out.rows.push_back({row_line[i], std::move(rows[i])});
+  return out;
+}
+
+CsvRead parse_csv_text(const std::string& input) {
+  CsvRecords records = parse_csv_records(input);
+  if (!records.ok) {
+    CsvRead r;
+    r.problem = records.problem;
+    return r;
+  }
+  std::vector<std::vector<std::string>> rows;
+  std::vector<int> row_line;
+  for (auto& r : records.rows) { rows.push_back(std::move(r.fields)); row_line.push_back(r.line); }
   if (rows.empty()) return fail("the file is empty: it needs a header line with column names", 1);
   CsvRead out;
   std::set<std::string> names;
@@ -115,6 +136,30 @@ CsvRead parse_csv_text(const std::string& input) {
   if (out.csv.line_of_record.empty()) return fail("the file has a header but no data lines", row_line[0]);
   out.ok = true;
   return out;
+}
+
+namespace {
+Result<std::string> read_whole(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return make_problem("cannot open the file");
+  in.seekg(0, std::ios::end);
+  const std::streamoff size = in.tellg();
+  if (size > kMaxFileBytes) return make_problem("the file is larger than 256 MB");
+  in.seekg(0);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+}  // namespace
+
+CsvRecords read_csv_records(const std::string& path) {
+  auto text = read_whole(path);
+  if (!text) {
+    CsvRecords r;
+    r.problem = {text.problem().message, 0, {}};
+    return r;
+  }
+  return parse_csv_records(*text);
 }
 
 CsvRead read_csv_file(const std::string& path) {

@@ -34,6 +34,21 @@ struct CsvRead {
 };
 
 CsvRead parse_csv_text(const std::string& text);
+
+// The rows of a CSV text with their 1-based starting lines, without the
+// equal-field-count rule (files whose lines are records of several kinds).
+struct CsvRecord {
+  int line = 0;
+  std::vector<std::string> fields;
+};
+struct CsvRecords {
+  bool ok = false;
+  std::vector<CsvRecord> rows;
+  CsvProblem problem;
+};
+CsvRecords parse_csv_records(const std::string& text);
+// Reads a whole file (at most 256 MB); problem.line 0 when it cannot be read.
+CsvRecords read_csv_records(const std::string& path);
 CsvRead read_csv_file(const std::string& path);
 
 }  // namespace furrow

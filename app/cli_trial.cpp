@@ -1,0 +1,272 @@
+#include "app/cli_trial.h"
+
+#include <fstream>
+#include <iostream>
+#include <map>
+#include <set>
+
+#include "app/analysis_output.h"
+#include "core/analysis.h"
+#include "core/entry_checks.h"
+#include "storage/plan_file.h"
+#include "storage/trial_store.h"
+
+namespace furrow {
+namespace {
+
+constexpr int kExitBadInput = 2;
+
+int fail(const std::string& where, const std::string& message) {
+  std::cerr << where << ": " << message << "\n";
+  return kExitBadInput;
+}
+
+const Trait* find_trait(const StoredTrial& t, const std::string& code, size_t* index) {
+  for (size_t i = 0; i < t.plan.traits.size(); ++i)
+    if (t.plan.traits[i].code == code) { *index = i; return &t.plan.traits[i]; }
+  return nullptr;
+}
+
+// Treatment combination index of a plot (for expectations and tables).
+int combination_index(const TrialPlan& p, const PlannedPlot& plot) {
+  int idx = 0;
+  for (size_t k = 0; k < plot.levels.size(); ++k) idx = idx * static_cast<int>(p.factors[k].levels.size()) + plot.levels[k];
+  return idx;
+}
+
+// The blocking code used for expectations: block, or field row for designs without blocks.
+int blocking_code(const TrialPlan& p, const PlannedPlot& plot) {
+  return p.design == DesignKind::completely_randomised ? 0 : p.design == DesignKind::latin_square ? plot.row : plot.block;
+}
+
+}  // namespace
+
+int run_trial_new(const std::string& plan_path, const std::string& db_path) {
+  auto plan = read_plan_file(plan_path);
+  if (!plan) {
+    const Problem& p = plan.problem();
+    std::cerr << plan_path;
+    if (p.record > 0) std::cerr << ":" << p.record;
+    std::cerr << ": ";
+    if (!p.column.empty()) std::cerr << "field '" << p.column << "': ";
+    std::cerr << p.message << "\n";
+    return kExitBadInput;
+  }
+  Layout layout;
+  if (plan->layout) {
+    layout = *plan->layout;
+    if (static_cast<int>(layout.plots.size()) != plan->plan.rows * plan->plan.columns)
+      return fail(plan_path, "the plan lists " + std::to_string(layout.plots.size()) + " plots but its grid has " +
+                                 std::to_string(plan->plan.rows * plan->plan.columns));
+  } else {
+    auto r = randomise(plan->plan);
+    if (!r) return fail(plan_path, "the design cannot be randomised: " + r.problem().message);
+    layout = std::move(r).value();
+  }
+  if (auto s = create_trial_database(db_path, plan->plan, layout); !s) return fail(db_path, s.problem().message);
+  std::cout << "created " << db_path << ": " << plan->plan.name << ", " << design_kind_title(plan->plan.design) << ", "
+            << layout.plots.size() << " plots, " << plan->plan.traits.size() << " traits"
+            << (plan->layout ? " (layout from the plan file)" : ", randomised with seed " + std::to_string(plan->plan.seed))
+            << "\n";
+  return 0;
+}
+
+int run_trial_show(const std::string& db_path) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path, open.problem().message);
+  const StoredTrial& t = open->trial;
+  auto live = live_observations(open->db, 0);
+  if (!live) return fail(db_path, live.problem().message);
+  std::map<std::int64_t, size_t> trait_of;
+  for (size_t i = 0; i < t.trait_ids.size(); ++i) trait_of[t.trait_ids[i]] = i;
+  std::map<size_t, std::set<std::pair<std::int64_t, int>>> filled;
+  for (const auto& o : *live)
+    if (o.value) filled[trait_of[o.trait_id]].insert({o.plot_id, o.occasion});
+  std::cout << t.plan.name << "\n  site " << t.plan.site << ", season " << t.plan.season << "\n  "
+            << design_kind_title(t.plan.design) << ", " << t.plan.replicates << " replicates, grid " << t.plan.rows
+            << " x " << t.plan.columns << ", " << t.layout.plots.size() << " plots, status " << t.status << "\n";
+  for (const auto& f : t.plan.factors) std::cout << "  factor " << f.name << ": " << f.levels.size() << " levels\n";
+  std::cout << "  traits (collected / plots x occasions):\n";
+  for (size_t i = 0; i < t.plan.traits.size(); ++i) {
+    const Trait& tr = t.plan.traits[i];
+    const size_t need = t.layout.plots.size() * static_cast<size_t>(tr.occasions);
+    std::cout << "    " << tr.code << "  " << tr.name << " (" << (tr.unit.empty() ? "-" : tr.unit) << ", "
+              << trait_kind_key(tr.kind) << (tr.required ? ", required" : "") << "): " << filled[i].size() << " / "
+              << need << "\n";
+  }
+  std::cout << "  device " << t.device_id << ", created " << t.created_at << "\n";
+  return 0;
+}
+
+int run_record(const RecordRequest& r) {
+  auto open = open_trial_database(r.db);
+  if (!open) return fail(r.db, open.problem().message);
+  const StoredTrial& t = open->trial;
+  size_t plot_index = t.layout.plots.size();
+  for (size_t i = 0; i < t.layout.plots.size(); ++i)
+    if (t.layout.plots[i].label == r.plot) plot_index = i;
+  if (plot_index == t.layout.plots.size()) return fail(r.db, "plot '" + r.plot + "' is not in the plan of this trial");
+  size_t trait_index = 0;
+  const Trait* trait = find_trait(t, r.trait, &trait_index);
+  if (!trait) return fail(r.db, "trait '" + r.trait + "' is not measured in this trial");
+  if (r.occasion < 1 || r.occasion > trait->occasions)
+    return fail(r.db, trait->code + " has " + std::to_string(trait->occasions) + " occasion(s); " +
+                          std::to_string(r.occasion) + " is not one of them");
+  if (r.observer.empty()) return fail(r.db, "say who measured: --observer NAME");
+  if (r.value.empty() == r.missing.empty()) return fail(r.db, "give either --value or --missing REASON");
+  const std::int64_t plot_id = t.plot_ids[plot_index];
+  const std::int64_t trait_id = t.trait_ids[trait_index];
+  auto live = live_observations(open->db, trait_id);
+  if (!live) return fail(r.db, live.problem().message);
+  NewObservation o;
+  o.plot_id = plot_id;
+  o.trait_id = trait_id;
+  o.occasion = r.occasion;
+  o.observer = r.observer;
+  o.note = r.note;
+  for (const auto& x : *live)
+    if (x.plot_id == plot_id && x.occasion == r.occasion && x.key.device_id == t.device_id) o.replaces.push_back(x.key);
+  if (!r.missing.empty()) {
+    o.missing_reason = r.missing;
+  } else {
+    EntryContext ctx;
+    std::map<std::int64_t, size_t> index_of;
+    for (size_t i = 0; i < t.plot_ids.size(); ++i) index_of[t.plot_ids[i]] = i;
+    std::vector<double> values;
+    std::vector<int> blocks, treatments;
+    for (const auto& x : *live) {
+      if (x.occasion != r.occasion) continue;
+      if (x.value && x.key.device_id == t.device_id) ctx.previous_entries.push_back(*x.value);
+      if (x.plot_id == plot_id || !x.number) continue;
+      const PlannedPlot& pp = t.layout.plots[index_of[x.plot_id]];
+      values.push_back(*x.number);
+      blocks.push_back(blocking_code(t.plan, pp));
+      treatments.push_back(combination_index(t.plan, pp));
+    }
+    ctx.other_values = values;
+    const PlannedPlot& target = t.layout.plots[plot_index];
+    if (trait->kind != TraitKind::text && trait->kind != TraitKind::category)
+      ctx.expectation = expect_from_means(values, blocks, treatments, blocking_code(t.plan, target),
+                                          combination_index(t.plan, target));
+    const auto findings = check_entry(*trait, r.value, ctx);
+    const auto w = worst(findings);
+    for (const Finding& f : findings) std::cerr << severity_key(f.severity) << ": " << f.message << "\n";
+    if (w == Severity::refuse) return kExitBadInput;
+    if (w == Severity::confirm && !r.confirm) {
+      std::cerr << "not saved: confirm with --confirm if the value is right\n";
+      return kExitNeedsConfirmation;
+    }
+    const auto parsed = parse_trait_value(*trait, r.value);
+    o.value = parsed->text;
+    o.number = parsed->number;
+  }
+  auto key = append_observation(open->db, t.device_id, o, utc_now());
+  if (!key) return fail(r.db, "not saved: " + key.problem().message);
+  std::cout << "saved " << r.plot << " " << trait->code << (trait->occasions > 1 ? " #" + std::to_string(r.occasion) : "")
+            << " = " << (o.value ? *o.value : "missing (" + *o.missing_reason + ")") << "  [" << key->device_id << ":"
+            << key->sequence << "]\n";
+  return 0;
+}
+
+int run_export(const std::string& db_path, const std::string& kind, const std::string& out) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path, open.problem().message);
+  std::string text;
+  if (kind == "layout") {
+    text = layout_csv(open->trial);
+  } else {
+    auto live = live_observations(open->db, 0);
+    if (!live) return fail(db_path, live.problem().message);
+    text = kind == "long" ? long_data_csv(open->trial, *live) : wide_data_csv(open->trial, *live);
+  }
+  if (out.empty()) {
+    std::cout << text;
+    return 0;
+  }
+  std::ofstream f(out, std::ios::binary);
+  if (!(f << text)) return fail(out, "cannot write the file");
+  return 0;
+}
+
+int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json, double alpha,
+                   const std::string& sums) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path, open.problem().message);
+  const StoredTrial& t = open->trial;
+  size_t trait_index = 0;
+  const Trait* trait = find_trait(t, trait_code, &trait_index);
+  if (!trait) return fail(db_path, "trait '" + trait_code + "' is not measured in this trial");
+  if (trait->kind == TraitKind::text || trait->kind == TraitKind::category)
+    return fail(db_path, trait->code + " is not numeric; it cannot be analysed");
+  auto live = live_observations(open->db, t.trait_ids[trait_index]);
+  if (!live) return fail(db_path, live.problem().message);
+  std::map<std::int64_t, std::set<std::string>> values;
+  std::map<std::int64_t, std::string> number_text;
+  for (const auto& x : *live) {
+    if (x.occasion != occasion) continue;
+    values[x.plot_id].insert(x.value.value_or(""));
+    if (x.number) {
+      char buf[40];
+      std::snprintf(buf, sizeof buf, "%.17g", *x.number);
+      number_text[x.plot_id] = x.value && trait->kind != TraitKind::date ? *x.value : buf;
+    }
+  }
+  PlotTable table;
+  table.columns.push_back({"plot", {}});
+  table.columns.push_back({"block", {}});
+  table.columns.push_back({"field_row", {}});
+  table.columns.push_back({"field_column", {}});
+  for (const auto& f : t.plan.factors) table.columns.push_back({f.name, {}});
+  table.columns.push_back({trait->code, {}});
+  for (size_t i = 0; i < t.layout.plots.size(); ++i) {
+    const PlannedPlot& p = t.layout.plots[i];
+    table.columns[0].cells.push_back(p.label);
+    table.columns[1].cells.push_back(std::to_string(p.block));
+    table.columns[2].cells.push_back(std::to_string(p.row));
+    table.columns[3].cells.push_back(std::to_string(p.column));
+    for (size_t k = 0; k < p.levels.size(); ++k) table.columns[4 + k].cells.push_back(t.plan.factors[k].levels[p.levels[k]]);
+    const auto it = values.find(t.plot_ids[i]);
+    // Conflicting cells are left out of the analysis until they are settled.
+    const bool usable = it != values.end() && it->second.size() == 1 && number_text.count(t.plot_ids[i]);
+    table.columns.back().cells.push_back(usable ? number_text[t.plot_ids[i]] : "");
+  }
+  DesignRoles roles;
+  roles.kind = t.plan.design;
+  for (const auto& f : t.plan.factors) roles.treatments.push_back(f.name);
+  switch (t.plan.design) {
+    case DesignKind::randomised_complete_block:
+    case DesignKind::factorial:
+      roles.block = "block";
+      break;
+    case DesignKind::latin_square:
+      roles.row = "field_row";
+      roles.column = "field_column";
+      break;
+    case DesignKind::split_plot:
+      roles.block = "block";
+      roles.main_plot = t.plan.factors[0].name;
+      roles.sub_plot = t.plan.factors[1].name;
+      roles.treatments.clear();
+      break;
+    default:
+      break;
+  }
+  AnalysisOptions options;
+  options.alpha = alpha;
+  options.sums = sums == "sequential" ? SumsKind::sequential : SumsKind::partial;
+  auto a = analyse(table, roles, trait->code, options);
+  if (!a) {
+    std::string where = db_path;
+    if (a.problem().record >= 0) where += ": plot " + t.layout.plots[a.problem().record].label;
+    return fail(where, a.problem().message);
+  }
+  // Records are plots in walking order: name them by label in the output.
+  RecordNames names;
+  names.word = "plot";
+  for (const PlannedPlot& p : t.layout.plots) names.names.push_back(p.label);
+  if (json) std::cout << analysis_json({*a}, names);
+  else std::cout << analysis_text(*a, names);
+  return 0;
+}
+
+}  // namespace furrow

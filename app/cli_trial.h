@@ -1,0 +1,29 @@
+#pragma once
+// Trial subcommands: `trial new`, `trial show`, `record`, `export`, and the
+// database form of `analyze`. Exit codes: 0 done; 2 bad input (nothing
+// saved or changed); 3 the value needs confirmation (nothing saved).
+
+#include <optional>
+#include <string>
+
+namespace furrow {
+
+inline constexpr int kExitNeedsConfirmation = 3;
+
+int run_trial_new(const std::string& plan_path, const std::string& db_path);
+int run_trial_show(const std::string& db_path);
+
+struct RecordRequest {
+  std::string db, plot, trait, value, observer, note, missing;
+  int occasion = 1;
+  bool confirm = false;
+};
+int run_record(const RecordRequest& r);
+
+// kind: "long", "wide" or "layout"; out empty: stdout.
+int run_export(const std::string& db_path, const std::string& kind, const std::string& out);
+
+int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json,
+                   double alpha, const std::string& sums);
+
+}  // namespace furrow

@@ -1,0 +1,104 @@
+#define SQLITE_ENABLE_SESSION
+#include "storage/sqlite_db.h"
+
+#include <sqlite3.h>
+
+namespace furrow {
+
+Statement::~Statement() {
+  if (stmt_) sqlite3_finalize(stmt_);
+}
+
+Statement& Statement::bind(int i, std::int64_t v) { sqlite3_bind_int64(stmt_, i, v); return *this; }
+Statement& Statement::bind(int i, double v) { sqlite3_bind_double(stmt_, i, v); return *this; }
+Statement& Statement::bind(int i, const std::string& v) {
+  sqlite3_bind_text(stmt_, i, v.data(), static_cast<int>(v.size()), SQLITE_TRANSIENT);
+  return *this;
+}
+Statement& Statement::bind(int i, const std::optional<std::string>& v) {
+  if (v) return bind(i, *v);
+  sqlite3_bind_null(stmt_, i);
+  return *this;
+}
+Statement& Statement::bind(int i, const std::optional<double>& v) {
+  if (v) return bind(i, *v);
+  sqlite3_bind_null(stmt_, i);
+  return *this;
+}
+
+bool Statement::step() {
+  const int rc = sqlite3_step(stmt_);
+  if (rc == SQLITE_ROW) return true;
+  if (rc != SQLITE_DONE && error_.empty()) error_ = sqlite3_errmsg(sqlite3_db_handle(stmt_));
+  return false;
+}
+
+Status Statement::run() {
+  while (step()) {
+  }
+  if (failed()) return make_problem(error_);
+  return ok_status();
+}
+
+void Statement::reset() {
+  sqlite3_reset(stmt_);
+  sqlite3_clear_bindings(stmt_);
+  error_.clear();
+}
+
+std::int64_t Statement::integer(int col) const { return sqlite3_column_int64(stmt_, col); }
+double Statement::real(int col) const { return sqlite3_column_double(stmt_, col); }
+std::string Statement::text(int col) const {
+  const auto* p = sqlite3_column_text(stmt_, col);
+  return p ? std::string(reinterpret_cast<const char*>(p), static_cast<size_t>(sqlite3_column_bytes(stmt_, col)))
+           : std::string();
+}
+bool Statement::is_null(int col) const { return sqlite3_column_type(stmt_, col) == SQLITE_NULL; }
+
+Database& Database::operator=(Database&& o) noexcept {
+  if (this != &o) {
+    if (db_) sqlite3_close_v2(db_);
+    db_ = o.db_;
+    o.db_ = nullptr;
+  }
+  return *this;
+}
+
+Database::~Database() {
+  if (db_) sqlite3_close_v2(db_);
+}
+
+Result<Database> Database::open(const std::string& path, bool create) {
+  Database d;
+  const int flags = SQLITE_OPEN_READWRITE | (create ? SQLITE_OPEN_CREATE : 0);
+  if (sqlite3_open_v2(path.c_str(), &d.db_, flags, nullptr) != SQLITE_OK) {
+    std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
+    return make_problem("cannot open " + path + ": " + msg);
+  }
+  sqlite3_busy_timeout(d.db_, 5000);
+  for (const char* pragma : {"PRAGMA foreign_keys = ON", "PRAGMA journal_mode = WAL", "PRAGMA synchronous = FULL"}) {
+    if (auto s = d.exec(pragma); !s) return make_problem(path + ": " + s.problem().message);
+  }
+  return d;
+}
+
+Status Database::exec(const std::string& sql) {
+  char* err = nullptr;
+  if (sqlite3_exec(db_, sql.c_str(), nullptr, nullptr, &err) != SQLITE_OK) {
+    std::string msg = err ? err : "unknown error";
+    sqlite3_free(err);
+    return make_problem(msg);
+  }
+  return ok_status();
+}
+
+Result<Statement> Database::prepare(const std::string& sql) {
+  sqlite3_stmt* s = nullptr;
+  if (sqlite3_prepare_v2(db_, sql.c_str(), static_cast<int>(sql.size()), &s, nullptr) != SQLITE_OK)
+    return make_problem(sqlite3_errmsg(db_));
+  return Statement(s);
+}
+
+std::int64_t Database::last_insert_rowid() const { return sqlite3_last_insert_rowid(db_); }
+
+}  // namespace furrow

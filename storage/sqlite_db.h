@@ -1,0 +1,91 @@
+#pragma once
+// A thin RAII layer over SQLite: an open database and prepared statements.
+// Errors come back as Problems carrying SQLite's message; nothing throws.
+
+#include <cstdint>
+#include <optional>
+#include <string>
+
+#include "core/result.h"
+
+struct sqlite3;
+struct sqlite3_stmt;
+
+namespace furrow {
+
+class Statement {
+ public:
+  Statement() = default;
+  Statement(const Statement&) = delete;
+  Statement& operator=(const Statement&) = delete;
+  Statement(Statement&& o) noexcept : stmt_(o.stmt_) { o.stmt_ = nullptr; }
+  ~Statement();
+
+  // Binding is 1-based like SQLite. A nullopt binds NULL.
+  Statement& bind(int i, std::int64_t v);
+  Statement& bind(int i, int v) { return bind(i, static_cast<std::int64_t>(v)); }
+  Statement& bind(int i, double v);
+  Statement& bind(int i, const std::string& v);
+  Statement& bind(int i, const char* v) { return bind(i, std::string(v)); }
+  Statement& bind(int i, const std::optional<std::string>& v);
+  Statement& bind(int i, const std::optional<double>& v);
+
+  // Steps once: true when a row is ready, false when done or on error (then
+  // `failed()` is true and `error()` holds SQLite's message).
+  bool step();
+  Status run();                      // steps to the end
+  void reset();
+
+  std::int64_t integer(int col) const;
+  double real(int col) const;
+  std::string text(int col) const;
+  bool is_null(int col) const;
+  bool failed() const { return !error_.empty(); }
+  const std::string& error() const { return error_; }
+
+ private:
+  friend class Database;
+  explicit Statement(sqlite3_stmt* s) : stmt_(s) {}
+  sqlite3_stmt* stmt_ = nullptr;
+  std::string error_;
+};
+
+class Database {
+ public:
+  Database() = default;
+  Database(const Database&) = delete;
+  Database& operator=(const Database&) = delete;
+  Database(Database&& o) noexcept : db_(o.db_) { o.db_ = nullptr; }
+  Database& operator=(Database&& o) noexcept;
+  ~Database();
+
+  // Opens (create = true: creates) the file with foreign keys on, WAL journal
+  // and synchronous=FULL: every commit is on disk when it returns.
+  static Result<Database> open(const std::string& path, bool create);
+
+  Status exec(const std::string& sql);
+  Result<Statement> prepare(const std::string& sql);
+  std::int64_t last_insert_rowid() const;
+  sqlite3* handle() const { return db_; }
+
+ private:
+  sqlite3* db_ = nullptr;
+};
+
+// Runs `body` inside BEGIN IMMEDIATE ... COMMIT; rolls back when it fails.
+template <class F>
+Status in_transaction(Database& db, F body) {
+  if (auto s = db.exec("BEGIN IMMEDIATE"); !s) return s;
+  Status result = body();
+  if (!result) {
+    db.exec("ROLLBACK");
+    return result;
+  }
+  if (auto s = db.exec("COMMIT"); !s) {
+    db.exec("ROLLBACK");
+    return s;
+  }
+  return result;
+}
+
+}  // namespace furrow

@@ -1,0 +1,452 @@
+// trial_store.cpp: schema, migrations, trial creation and the observation log.
+
+#include "storage/trial_store.h"
+
+#include <chrono>
+#include <cstdio>
+#include <ctime>
+#include <filesystem>
+#include <random>
+
+namespace furrow {
+namespace {
+
+// Version 1. STRICT tables; the log refuses UPDATE and DELETE.
+constexpr const char* kSchemaV1 = R"sql(
+CREATE TABLE trial (
+  id INTEGER PRIMARY KEY,
+  name TEXT NOT NULL, site TEXT NOT NULL, season TEXT NOT NULL,
+  design TEXT NOT NULL, replicates INTEGER NOT NULL,
+  grid_rows INTEGER NOT NULL, grid_columns INTEGER NOT NULL,
+  plot_length_m REAL NOT NULL, plot_width_m REAL NOT NULL,
+  block_shape TEXT NOT NULL, block_rows INTEGER NOT NULL, block_columns INTEGER NOT NULL,
+  walk TEXT NOT NULL, seed TEXT NOT NULL,
+  status TEXT NOT NULL CHECK (status IN ('planning', 'collecting', 'closed')),
+  created_at TEXT NOT NULL, closed_at TEXT
+) STRICT;
+CREATE TABLE factor (
+  id INTEGER PRIMARY KEY,
+  trial_id INTEGER NOT NULL REFERENCES trial(id),
+  name TEXT NOT NULL, position INTEGER NOT NULL,
+  UNIQUE (trial_id, name)
+) STRICT;
+CREATE TABLE level (
+  id INTEGER PRIMARY KEY,
+  factor_id INTEGER NOT NULL REFERENCES factor(id),
+  label TEXT NOT NULL, position INTEGER NOT NULL,
+  UNIQUE (factor_id, label)
+) STRICT;
+CREATE TABLE plot (
+  id INTEGER PRIMARY KEY,
+  trial_id INTEGER NOT NULL REFERENCES trial(id),
+  label TEXT NOT NULL, block INTEGER NOT NULL,
+  field_row INTEGER NOT NULL, field_column INTEGER NOT NULL, walk_order INTEGER NOT NULL,
+  UNIQUE (trial_id, label), UNIQUE (trial_id, field_row, field_column)
+) STRICT;
+CREATE TABLE plot_level (
+  plot_id INTEGER NOT NULL REFERENCES plot(id),
+  factor_id INTEGER NOT NULL REFERENCES factor(id),
+  level_id INTEGER NOT NULL REFERENCES level(id),
+  PRIMARY KEY (plot_id, factor_id)
+) STRICT;
+CREATE TABLE trait (
+  id INTEGER PRIMARY KEY,
+  trial_id INTEGER NOT NULL REFERENCES trial(id),
+  code TEXT NOT NULL, name TEXT NOT NULL, unit TEXT NOT NULL, kind TEXT NOT NULL,
+  decimals INTEGER NOT NULL,
+  hard_min REAL, hard_max REAL, soft_min REAL, soft_max REAL,
+  required INTEGER NOT NULL, occasions INTEGER NOT NULL,
+  scale_min INTEGER NOT NULL, scale_max INTEGER NOT NULL,
+  categories TEXT NOT NULL,
+  position INTEGER NOT NULL,
+  UNIQUE (trial_id, code)
+) STRICT;
+CREATE TABLE this_device (
+  only_row INTEGER PRIMARY KEY CHECK (only_row = 1),
+  device_id TEXT NOT NULL,
+  next_sequence INTEGER NOT NULL
+) STRICT;
+CREATE TABLE observation (
+  device_id TEXT NOT NULL,
+  sequence INTEGER NOT NULL,
+  plot_id INTEGER NOT NULL REFERENCES plot(id),
+  trait_id INTEGER NOT NULL REFERENCES trait(id),
+  occasion INTEGER NOT NULL CHECK (occasion >= 1),
+  value TEXT, number REAL, missing_reason TEXT,
+  note TEXT NOT NULL, observer TEXT NOT NULL, recorded_at TEXT NOT NULL,
+  PRIMARY KEY (device_id, sequence),
+  CHECK ((value IS NULL) <> (missing_reason IS NULL))
+) STRICT;
+CREATE TABLE replacement (
+  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
+  replaced_device_id TEXT NOT NULL, replaced_sequence INTEGER NOT NULL,
+  PRIMARY KEY (device_id, sequence, replaced_device_id, replaced_sequence),
+  FOREIGN KEY (device_id, sequence) REFERENCES observation(device_id, sequence),
+  FOREIGN KEY (replaced_device_id, replaced_sequence) REFERENCES observation(device_id, sequence)
+) STRICT;
+CREATE INDEX replacement_replaced ON replacement(replaced_device_id, replaced_sequence);
+CREATE INDEX observation_cell ON observation(trait_id, plot_id, occasion);
+CREATE TRIGGER observation_no_update BEFORE UPDATE ON observation
+  BEGIN SELECT RAISE(ABORT, 'the observation log is append-only'); END;
+CREATE TRIGGER observation_no_delete BEFORE DELETE ON observation
+  BEGIN SELECT RAISE(ABORT, 'the observation log is append-only'); END;
+CREATE TRIGGER replacement_no_update BEFORE UPDATE ON replacement
+  BEGIN SELECT RAISE(ABORT, 'the observation log is append-only'); END;
+CREATE TRIGGER replacement_no_delete BEFORE DELETE ON replacement
+  BEGIN SELECT RAISE(ABORT, 'the observation log is append-only'); END;
+CREATE VIEW live_observation AS
+  SELECT o.* FROM observation o
+  WHERE NOT EXISTS (SELECT 1 FROM replacement r
+                    WHERE r.replaced_device_id = o.device_id AND r.replaced_sequence = o.sequence);
+CREATE VIEW current_value AS
+  SELECT plot_id, trait_id, occasion, max(value) AS value, max(number) AS number,
+         max(missing_reason) AS missing_reason, count(*) AS live_rows
+  FROM live_observation GROUP BY plot_id, trait_id, occasion
+  HAVING count(DISTINCT coalesce(value, '') || char(31) || coalesce(missing_reason, '')) = 1;
+CREATE VIEW conflict AS
+  SELECT plot_id, trait_id, occasion, count(*) AS live_rows
+  FROM live_observation GROUP BY plot_id, trait_id, occasion
+  HAVING count(DISTINCT coalesce(value, '') || char(31) || coalesce(missing_reason, '')) > 1;
+)sql";
+
+std::string new_device_id() {
+  std::random_device rd;
+  const std::uint64_t v = (static_cast<std::uint64_t>(rd()) << 32) ^ rd();
+  char buf[24];
+  std::snprintf(buf, sizeof buf, "%016llx", static_cast<unsigned long long>(v));
+  return buf;
+}
+
+const char* block_shape_key(BlockShape s) {
+  return s == BlockShape::row_strips ? "row-strips" : s == BlockShape::column_strips ? "column-strips" : "rectangles";
+}
+BlockShape block_shape_from(const std::string& s) {
+  return s == "column-strips" ? BlockShape::column_strips : s == "rectangles" ? BlockShape::rectangles
+                                                                              : BlockShape::row_strips;
+}
+const char* walk_key(WalkOrder w) { return w == WalkOrder::serpentine_rows ? "serpentine-rows" : "serpentine-columns"; }
+
+std::string join_categories(const std::vector<std::string>& c) {
+  std::string s;
+  for (const auto& x : c) s += (s.empty() ? "" : "\x1f") + x;
+  return s;
+}
+std::vector<std::string> split_categories(const std::string& s) {
+  std::vector<std::string> out;
+  if (s.empty()) return out;
+  std::string cur;
+  for (char ch : s) {
+    if (ch == '\x1f') { out.push_back(cur); cur.clear(); } else cur += ch;
+  }
+  out.push_back(cur);
+  return out;
+}
+
+#define FURROW_TRY(expr)              \
+  do {                                \
+    auto furrow_status_ = (expr);     \
+    if (!furrow_status_) return furrow_status_.problem(); \
+  } while (0)
+
+Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout) {
+  auto st = db.prepare(
+      "INSERT INTO trial (name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
+      "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at) "
+      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?, 'collecting', ?)");
+  if (!st) return st.problem();
+  st->bind(1, p.name).bind(2, p.site).bind(3, p.season).bind(4, design_kind_key(p.design)).bind(5, p.replicates)
+      .bind(6, p.rows).bind(7, p.columns).bind(8, p.plot_length_m).bind(9, p.plot_width_m)
+      .bind(10, block_shape_key(p.block_shape)).bind(11, p.block_rows).bind(12, p.block_columns)
+      .bind(13, walk_key(p.walk)).bind(14, std::to_string(p.seed)).bind(15, utc_now());
+  FURROW_TRY(st->run());
+  const std::int64_t trial_id = db.last_insert_rowid();
+  std::vector<std::int64_t> factor_ids;
+  std::vector<std::vector<std::int64_t>> level_ids;
+  for (size_t f = 0; f < p.factors.size(); ++f) {
+    auto fs = db.prepare("INSERT INTO factor (trial_id, name, position) VALUES (?,?,?)");
+    if (!fs) return fs.problem();
+    fs->bind(1, trial_id).bind(2, p.factors[f].name).bind(3, static_cast<int>(f));
+    FURROW_TRY(fs->run());
+    factor_ids.push_back(db.last_insert_rowid());
+    level_ids.emplace_back();
+    auto ls = db.prepare("INSERT INTO level (factor_id, label, position) VALUES (?,?,?)");
+    if (!ls) return ls.problem();
+    for (size_t l = 0; l < p.factors[f].levels.size(); ++l) {
+      ls->reset();
+      ls->bind(1, factor_ids.back()).bind(2, p.factors[f].levels[l]).bind(3, static_cast<int>(l));
+      FURROW_TRY(ls->run());
+      level_ids.back().push_back(db.last_insert_rowid());
+    }
+  }
+  auto ps = db.prepare("INSERT INTO plot (trial_id, label, block, field_row, field_column, walk_order) VALUES (?,?,?,?,?,?)");
+  auto pl = db.prepare("INSERT INTO plot_level (plot_id, factor_id, level_id) VALUES (?,?,?)");
+  if (!ps) return ps.problem();
+  if (!pl) return pl.problem();
+  for (const PlannedPlot& plot : layout.plots) {
+    ps->reset();
+    ps->bind(1, trial_id).bind(2, plot.label).bind(3, plot.block).bind(4, plot.row).bind(5, plot.column)
+        .bind(6, plot.walk_order);
+    FURROW_TRY(ps->run());
+    const std::int64_t plot_id = db.last_insert_rowid();
+    for (size_t f = 0; f < plot.levels.size(); ++f) {
+      pl->reset();
+      pl->bind(1, plot_id).bind(2, factor_ids[f]).bind(3, level_ids[f][plot.levels[f]]);
+      FURROW_TRY(pl->run());
+    }
+  }
+  auto ts = db.prepare(
+      "INSERT INTO trait (trial_id, code, name, unit, kind, decimals, hard_min, hard_max, soft_min, soft_max, "
+      "required, occasions, scale_min, scale_max, categories, position) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)");
+  if (!ts) return ts.problem();
+  for (size_t k = 0; k < p.traits.size(); ++k) {
+    const Trait& t = p.traits[k];
+    ts->reset();
+    ts->bind(1, trial_id).bind(2, t.code).bind(3, t.name).bind(4, t.unit).bind(5, trait_kind_key(t.kind))
+        .bind(6, t.decimals).bind(7, t.hard_min).bind(8, t.hard_max).bind(9, t.soft_min).bind(10, t.soft_max)
+        .bind(11, t.required ? 1 : 0).bind(12, t.occasions).bind(13, t.scale_min).bind(14, t.scale_max)
+        .bind(15, join_categories(t.categories)).bind(16, static_cast<int>(k));
+    FURROW_TRY(ts->run());
+  }
+  auto ds = db.prepare("INSERT INTO this_device (only_row, device_id, next_sequence) VALUES (1, ?, 1)");
+  if (!ds) return ds.problem();
+  ds->bind(1, new_device_id());
+  return ds->run();
+}
+
+std::optional<double> opt_real(const Statement& s, int col) {
+  if (s.is_null(col)) return std::nullopt;
+  return s.real(col);
+}
+std::optional<std::string> opt_text(const Statement& s, int col) {
+  if (s.is_null(col)) return std::nullopt;
+  return s.text(col);
+}
+
+}  // namespace
+
+std::string utc_now() {
+  const auto now = std::chrono::system_clock::now();
+  const std::time_t t = std::chrono::system_clock::to_time_t(now);
+  const auto ms = std::chrono::duration_cast<std::chrono::milliseconds>(now.time_since_epoch()).count() % 1000;
+  std::tm tm{};
+  gmtime_r(&t, &tm);
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%04d-%02d-%02dT%02d:%02d:%02d.%03dZ", tm.tm_year + 1900, tm.tm_mon + 1, tm.tm_mday,
+                tm.tm_hour, tm.tm_min, tm.tm_sec, static_cast<int>(ms));
+  return buf;
+}
+
+Status migrate(Database& db) {
+  auto v = db.prepare("PRAGMA user_version");
+  if (!v) return v.problem();
+  v->step();
+  const std::int64_t version = v->integer(0);
+  if (version > kSchemaVersion)
+    return make_problem("this trial database was written by a newer Furrow (schema " + std::to_string(version) +
+                        ", this one knows " + std::to_string(kSchemaVersion) + ")");
+  if (version == kSchemaVersion) return ok_status();
+  return in_transaction(db, [&]() -> Status {
+    if (version < 1) {
+      FURROW_TRY(db.exec(kSchemaV1));
+      FURROW_TRY(db.exec("PRAGMA user_version = 1"));
+    }
+    return ok_status();
+  });
+}
+
+Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout) {
+  if (std::filesystem::exists(path)) return make_problem(path + " already exists; choose a new file name");
+  Status result = [&]() -> Status {
+    auto db = Database::open(path, true);
+    if (!db) return db.problem();
+    FURROW_TRY(migrate(*db));
+    return in_transaction(*db, [&]() { return insert_trial(*db, plan, layout); });
+  }();
+  if (!result) {
+    std::error_code ec;
+    for (const char* suffix : {"", "-wal", "-shm", "-journal"}) std::filesystem::remove(path + suffix, ec);
+  }
+  return result;
+}
+
+Result<OpenTrial> open_trial_database(const std::string& path) {
+  if (!std::filesystem::exists(path)) return make_problem(path + " does not exist");
+  auto db = Database::open(path, false);
+  if (!db) return db.problem();
+  OpenTrial out{std::move(db).value(), {}};
+  Database& d = out.db;
+  if (auto s = migrate(d); !s) return make_problem(path + ": " + s.problem().message);
+  StoredTrial& t = out.trial;
+  TrialPlan& p = t.plan;
+  {
+    auto s = d.prepare("SELECT id, name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
+                       "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at FROM trial");
+    if (!s) return s.problem();
+    if (!s->step()) return make_problem(path + " holds no trial");
+    t.id = s->integer(0);
+    p.name = s->text(1);
+    p.site = s->text(2);
+    p.season = s->text(3);
+    p.design = parse_design_kind(s->text(4)).value_or(DesignKind::randomised_complete_block);
+    p.replicates = static_cast<int>(s->integer(5));
+    p.rows = static_cast<int>(s->integer(6));
+    p.columns = static_cast<int>(s->integer(7));
+    p.plot_length_m = s->real(8);
+    p.plot_width_m = s->real(9);
+    p.block_shape = block_shape_from(s->text(10));
+    p.block_rows = static_cast<int>(s->integer(11));
+    p.block_columns = static_cast<int>(s->integer(12));
+    p.walk = s->text(13) == "serpentine-columns" ? WalkOrder::serpentine_columns : WalkOrder::serpentine_rows;
+    p.seed = std::stoull(s->text(14));
+    t.status = s->text(15);
+    t.created_at = s->text(16);
+  }
+  std::vector<std::int64_t> factor_ids;
+  std::vector<std::vector<std::int64_t>> level_ids;
+  {
+    auto s = d.prepare("SELECT id, name FROM factor WHERE trial_id = ? ORDER BY position");
+    if (!s) return s.problem();
+    s->bind(1, t.id);
+    while (s->step()) {
+      factor_ids.push_back(s->integer(0));
+      p.factors.push_back({s->text(1), {}});
+    }
+    for (size_t f = 0; f < factor_ids.size(); ++f) {
+      auto l = d.prepare("SELECT id, label FROM level WHERE factor_id = ? ORDER BY position");
+      if (!l) return l.problem();
+      l->bind(1, factor_ids[f]);
+      level_ids.emplace_back();
+      while (l->step()) {
+        level_ids.back().push_back(l->integer(0));
+        p.factors[f].levels.push_back(l->text(1));
+      }
+    }
+  }
+  {
+    auto s = d.prepare("SELECT id, label, block, field_row, field_column, walk_order FROM plot WHERE trial_id = ? "
+                       "ORDER BY walk_order");
+    auto lv = d.prepare("SELECT factor_id, level_id FROM plot_level WHERE plot_id = ?");
+    if (!s) return s.problem();
+    if (!lv) return lv.problem();
+    s->bind(1, t.id);
+    while (s->step()) {
+      PlannedPlot plot;
+      t.plot_ids.push_back(s->integer(0));
+      plot.label = s->text(1);
+      plot.block = static_cast<int>(s->integer(2));
+      plot.row = static_cast<int>(s->integer(3));
+      plot.column = static_cast<int>(s->integer(4));
+      plot.walk_order = static_cast<int>(s->integer(5));
+      plot.levels.assign(factor_ids.size(), 0);
+      lv->reset();
+      lv->bind(1, t.plot_ids.back());
+      while (lv->step()) {
+        for (size_t f = 0; f < factor_ids.size(); ++f)
+          if (factor_ids[f] == lv->integer(0))
+            for (size_t l = 0; l < level_ids[f].size(); ++l)
+              if (level_ids[f][l] == lv->integer(1)) plot.levels[f] = static_cast<int>(l);
+      }
+      t.layout.plots.push_back(std::move(plot));
+    }
+  }
+  {
+    auto s = d.prepare("SELECT id, code, name, unit, kind, decimals, hard_min, hard_max, soft_min, soft_max, required, "
+                       "occasions, scale_min, scale_max, categories FROM trait WHERE trial_id = ? ORDER BY position");
+    if (!s) return s.problem();
+    s->bind(1, t.id);
+    while (s->step()) {
+      Trait tr;
+      t.trait_ids.push_back(s->integer(0));
+      tr.code = s->text(1);
+      tr.name = s->text(2);
+      tr.unit = s->text(3);
+      tr.kind = parse_trait_kind(s->text(4)).value_or(TraitKind::text);
+      tr.decimals = static_cast<int>(s->integer(5));
+      tr.hard_min = opt_real(*s, 6);
+      tr.hard_max = opt_real(*s, 7);
+      tr.soft_min = opt_real(*s, 8);
+      tr.soft_max = opt_real(*s, 9);
+      tr.required = s->integer(10) != 0;
+      tr.occasions = static_cast<int>(s->integer(11));
+      tr.scale_min = static_cast<int>(s->integer(12));
+      tr.scale_max = static_cast<int>(s->integer(13));
+      tr.categories = split_categories(s->text(14));
+      p.traits.push_back(std::move(tr));
+    }
+  }
+  {
+    auto s = d.prepare("SELECT device_id FROM this_device");
+    if (!s) return s.problem();
+    if (s->step()) t.device_id = s->text(0);
+  }
+  return out;
+}
+
+Result<ObservationKey> append_observation(Database& db, const std::string& device_id, const NewObservation& o,
+                                          const std::string& recorded_at) {
+  ObservationKey key{device_id, 0};
+  auto status = in_transaction(db, [&]() -> Status {
+    auto seq = db.prepare("UPDATE this_device SET next_sequence = next_sequence + 1 RETURNING next_sequence - 1");
+    if (!seq) return seq.problem();
+    if (!seq->step()) return make_problem("this database has no device identity");
+    key.sequence = seq->integer(0);
+    FURROW_TRY(seq->run());
+    auto ins = db.prepare(
+        "INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, missing_reason, "
+        "note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?)");
+    if (!ins) return ins.problem();
+    ins->bind(1, device_id).bind(2, key.sequence).bind(3, o.plot_id).bind(4, o.trait_id).bind(5, o.occasion)
+        .bind(6, o.value).bind(7, o.number).bind(8, o.missing_reason).bind(9, o.note).bind(10, o.observer)
+        .bind(11, recorded_at);
+    FURROW_TRY(ins->run());
+    for (const ObservationKey& r : o.replaces) {
+      auto rs = db.prepare("INSERT INTO replacement VALUES (?,?,?,?)");
+      if (!rs) return rs.problem();
+      rs->bind(1, device_id).bind(2, key.sequence).bind(3, r.device_id).bind(4, r.sequence);
+      FURROW_TRY(rs->run());
+    }
+    return ok_status();
+  });
+  if (!status) return status.problem();
+  return key;
+}
+
+namespace {
+Result<std::vector<LiveObservation>> read_observations(Database& db, const std::string& sql, std::int64_t trait_id) {
+  auto s = db.prepare(sql);
+  if (!s) return s.problem();
+  if (trait_id) s->bind(1, trait_id);
+  std::vector<LiveObservation> out;
+  while (s->step()) {
+    LiveObservation o;
+    o.key = {s->text(0), s->integer(1)};
+    o.plot_id = s->integer(2);
+    o.trait_id = s->integer(3);
+    o.occasion = static_cast<int>(s->integer(4));
+    o.value = opt_text(*s, 5);
+    o.number = opt_real(*s, 6);
+    o.missing_reason = opt_text(*s, 7);
+    o.note = s->text(8);
+    o.observer = s->text(9);
+    o.recorded_at = s->text(10);
+    out.push_back(std::move(o));
+  }
+  if (s->failed()) return make_problem(s->error());
+  return out;
+}
+constexpr const char* kColumns =
+    "device_id, sequence, plot_id, trait_id, occasion, value, number, missing_reason, note, observer, recorded_at";
+}  // namespace
+
+Result<std::vector<LiveObservation>> live_observations(Database& db, std::int64_t trait_id) {
+  return read_observations(db,
+                           std::string("SELECT ") + kColumns + " FROM live_observation" +
+                               (trait_id ? " WHERE trait_id = ?" : "") + " ORDER BY recorded_at, device_id, sequence",
+                           trait_id);
+}
+
+Result<std::vector<LiveObservation>> all_observations(Database& db) {
+  return read_observations(db, std::string("SELECT ") + kColumns + " FROM observation ORDER BY device_id, sequence", 0);
+}
+
+}  // namespace furrow

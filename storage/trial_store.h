@@ -1,0 +1,90 @@
+#pragma once
+// A trial database: the plan, its layout and the append-only observation log
+// in one SQLite file (schema in trial_store.cpp, versioned by PRAGMA
+// user_version with forward migrations).
+//
+// The log: every record is a new row keyed by (device id, sequence number),
+// so that records from different devices never collide and merging is a
+// union. An edit, an undo or a settled conflict is a new row with links to
+// the rows it replaces; nothing is updated or deleted (triggers refuse it).
+// A cell (plot, trait, occasion) is live-valued by the rows nobody replaced;
+// two live rows that disagree are a conflict.
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "core/result.h"
+#include "core/trial_plan.h"
+#include "storage/sqlite_db.h"
+
+namespace furrow {
+
+inline constexpr int kSchemaVersion = 1;
+
+// Brings the schema to kSchemaVersion. A database from a newer Furrow is
+// refused (its user_version is higher than ours).
+Status migrate(Database& db);
+
+struct StoredTrial {
+  std::int64_t id = 0;
+  TrialPlan plan;
+  Layout layout;                          // plots in walking order
+  std::vector<std::int64_t> plot_ids;     // parallel to layout.plots
+  std::vector<std::int64_t> trait_ids;    // parallel to plan.traits
+  std::string status, created_at, device_id;
+};
+
+// Creates a new trial database file (which must not exist) holding the plan
+// and its layout. On failure the file is removed again.
+Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout);
+
+// Opens an existing trial database (migrating it) and reads its trial.
+struct OpenTrial {
+  Database db;
+  StoredTrial trial;
+};
+Result<OpenTrial> open_trial_database(const std::string& path);
+
+struct ObservationKey {
+  std::string device_id;
+  std::int64_t sequence = 0;
+};
+
+struct NewObservation {
+  std::int64_t plot_id = 0, trait_id = 0;
+  int occasion = 1;
+  std::optional<std::string> value;          // normalised text
+  std::optional<double> number;              // numeric value when the trait has one
+  std::optional<std::string> missing_reason; // instead of a value: damaged, flooded, withdrawn, ...
+  std::string note, observer;
+  std::vector<ObservationKey> replaces;      // rows this one supersedes
+};
+
+// Appends one observation in its own transaction and commits it durably
+// (WAL, synchronous=FULL). Returns its key once the commit has returned.
+Result<ObservationKey> append_observation(Database& db, const std::string& device_id, const NewObservation& o,
+                                          const std::string& recorded_at);
+
+struct LiveObservation {
+  ObservationKey key;
+  std::int64_t plot_id = 0, trait_id = 0;
+  int occasion = 1;
+  std::optional<std::string> value;
+  std::optional<double> number;
+  std::optional<std::string> missing_reason;
+  std::string note, observer, recorded_at;
+};
+
+// Rows nobody replaced, for one trait (all traits when trait_id is 0),
+// ordered by recorded time then key.
+Result<std::vector<LiveObservation>> live_observations(Database& db, std::int64_t trait_id);
+
+// Every row of the log in key order (for exports and audits).
+Result<std::vector<LiveObservation>> all_observations(Database& db);
+
+// Current time as ISO 8601 UTC with milliseconds.
+std::string utc_now();
+
+}  // namespace furrow
