@@ -1,0 +1,137 @@
+// The trial database: schema rules, the append-only log and its views.
+
+#include "storage/trial_store.h"
+
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <filesystem>
+
+#include "storage/plan_file.h"
+#include "tests/test_support.h"
+
+namespace furrow {
+namespace {
+
+std::string fresh_db(const std::string& name) {
+  const auto dir = std::filesystem::temp_directory_path() / "furrow_store_test";
+  std::filesystem::create_directories(dir);
+  const std::string path = (dir / name).string();
+  for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
+  auto plan = read_plan_file(std::string(FURROW_SOURCE_DIR) + "/demo_data/harrow_ridge_oats_2026.plan.csv");
+  REQUIRE_MESSAGE(plan.ok(), plan.problem().message);
+  REQUIRE(plan->layout.has_value());
+  REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
+  return path;
+}
+
+NewObservation value_for(const StoredTrial& t, size_t plot, size_t trait, const std::string& v) {
+  NewObservation o;
+  o.plot_id = t.plot_ids[plot];
+  o.trait_id = t.trait_ids[trait];
+  o.value = v;
+  o.number = std::stod(v);
+  o.observer = "Ana";
+  return o;
+}
+
+TEST_CASE("a created trial reads back with its plan, layout and a device identity") {
+  auto open = open_trial_database(fresh_db("readback.furrow"));
+  REQUIRE(open.ok());
+  const StoredTrial& t = open->trial;
+  CHECK(t.plan.name == "Harrow Ridge hulless oat variety trial 2026");
+  CHECK(t.layout.plots.size() == 80);
+  CHECK(t.plan.traits.size() == 5);
+  CHECK(t.plan.traits[3].scale_max == 9);
+  CHECK(t.device_id.size() == 16);
+  CHECK(t.layout.plots.front().walk_order == 1);
+  CHECK(t.layout.plots.front().label == "101");
+}
+
+TEST_CASE("appends get consecutive sequence numbers; an edit replaces, the log keeps both") {
+  auto open = open_trial_database(fresh_db("edit.furrow"));
+  REQUIRE(open.ok());
+  auto& [db, t] = *open;
+  const auto k1 = append_observation(db, t.device_id, value_for(t, 0, 1, "95"), utc_now());
+  REQUIRE(k1.ok());
+  CHECK(k1->sequence == 1);
+  NewObservation edit = value_for(t, 0, 1, "96");
+  edit.replaces = {*k1};
+  const auto k2 = append_observation(db, t.device_id, edit, utc_now());
+  REQUIRE(k2.ok());
+  CHECK(k2->sequence == 2);
+  const auto live = live_observations(db, t.trait_ids[1]);
+  REQUIRE(live.ok());
+  REQUIRE(live->size() == 1);
+  CHECK(*live->front().value == "96");
+  const auto all = all_observations(db);
+  CHECK(all->size() == 2);
+}
+
+TEST_CASE("the log refuses UPDATE and DELETE; STRICT tables refuse wrong types") {
+  auto open = open_trial_database(fresh_db("strict.furrow"));
+  REQUIRE(open.ok());
+  auto& [db, t] = *open;
+  REQUIRE(append_observation(db, t.device_id, value_for(t, 0, 1, "95"), utc_now()).ok());
+  CHECK_FALSE(db.exec("UPDATE observation SET value = '1'").ok());
+  CHECK_FALSE(db.exec("DELETE FROM observation").ok());
+  CHECK_FALSE(db.exec("INSERT INTO plot (trial_id, label, block, field_row, field_column, walk_order) "
+                      "VALUES (1, 'x', 'one', 1, 1, 1)").ok());
+  CHECK(all_observations(db)->size() == 1);
+}
+
+TEST_CASE("two devices with different live values for one cell are a conflict until settled") {
+  auto open = open_trial_database(fresh_db("conflict.furrow"));
+  REQUIRE(open.ok());
+  auto& [db, t] = *open;
+  const auto a = append_observation(db, t.device_id, value_for(t, 3, 4, "5.10"), utc_now());
+  const auto b = append_observation(db, "00000000000000b2", value_for(t, 3, 4, "5.70"), utc_now());
+  REQUIRE((a.ok() && b.ok()));
+  auto count = [&](const char* sql) {
+    auto s = db.prepare(sql);
+    REQUIRE(s.ok());
+    s->step();
+    return s->integer(0);
+  };
+  CHECK(count("SELECT count(*) FROM conflict") == 1);
+  CHECK(count("SELECT count(*) FROM current_value") == 0);
+  NewObservation settle = value_for(t, 3, 4, "5.70");
+  settle.replaces = {*a, *b};
+  REQUIRE(append_observation(db, t.device_id, settle, utc_now()).ok());
+  CHECK(count("SELECT count(*) FROM conflict") == 0);
+  CHECK(count("SELECT count(*) FROM current_value") == 1);
+  // Two devices agreeing is not a conflict.
+  REQUIRE(append_observation(db, t.device_id, value_for(t, 5, 4, "6.00"), utc_now()).ok());
+  REQUIRE(append_observation(db, "00000000000000b2", value_for(t, 5, 4, "6.00"), utc_now()).ok());
+  CHECK(count("SELECT count(*) FROM conflict") == 0);
+}
+
+TEST_CASE("a database from a newer schema is refused, not changed") {
+  const std::string path = fresh_db("newer.furrow");
+  {
+    auto db = Database::open(path, false);
+    REQUIRE(db.ok());
+    REQUIRE(db->exec("PRAGMA user_version = 99").ok());
+  }
+  const auto open = open_trial_database(path);
+  REQUIRE_FALSE(open.ok());
+  CHECK(open.problem().message.find("newer Furrow") != std::string::npos);
+}
+
+TEST_CASE("exports: layout in walking order, wide table marks conflicts") {
+  auto open = open_trial_database(fresh_db("export.furrow"));
+  REQUIRE(open.ok());
+  auto& [db, t] = *open;
+  const std::string layout = layout_csv(t);
+  CHECK(layout.rfind("label,block,field_row,field_column,walk_order,entry\n101,1,1,1,1,", 0) == 0);
+  REQUIRE(append_observation(db, t.device_id, value_for(t, 0, 1, "95"), utc_now()).ok());
+  REQUIRE(append_observation(db, "00000000000000b2", value_for(t, 0, 1, "97"), utc_now()).ok());
+  const auto live = live_observations(db, 0);
+  const std::string wide = wide_data_csv(t, *live);
+  CHECK(wide.find("\n101,1,1,1,Quillon,,,,CONFLICT,") != std::string::npos);
+  const std::string long_table = long_data_csv(t, *live);
+  CHECK(std::count(long_table.begin(), long_table.end(), '\n') == 3);
+}
+
+}  // namespace
+}  // namespace furrow
