@@ -55,7 +55,7 @@ def main(path):
 TRAITS = [
     # code, name, unit, kind, decimals, hard_min, hard_max, soft_min, soft_max, required, occasions, choices
     ("stand_count", "plants per plot", "plants", "count", "0", "0", "600", "150", "320", "yes", "1", ""),
-    ("height_cm", "plant height", "cm", "decimal", "0", "0", "250", "60", "140", "yes", "1", ""),
+    ("height_cm", "plant height", "cm", "decimal", "1", "0", "250", "60", "140", "yes", "1", ""),
     ("heading_days", "days to heading", "days", "count", "0", "30", "100", "45", "75", "yes", "1", ""),
     ("lodging_score", "lodging", "", "score", "0", "", "", "", "", "yes", "1", "1-9"),
     ("grain_yield_t_ha", "grain yield", "t/ha", "decimal", "2", "0", "15", "2", "9", "yes", "1", ""),

@@ -1,10 +1,16 @@
 #!/usr/bin/env bash
-# Quick start 1: install what is missing, build, and show the interim analysis
-# of the demo trial (every trait).
+# Quick start 1: install what is missing, build, build the demo trial database
+# with a partly collected day, and show its interim analysis.
 set -euo pipefail
 ROOT="$(cd "$(dirname "$0")/.." && pwd)"
 "$ROOT/platform/setup.sh"
 "$ROOT/platform/build.sh"
-exec "$ROOT/build/furrow" analyze --csv "$ROOT/demo_data/harrow_ridge_oats_2026.csv" \
-  --design rcbd --block block --treatment entry --treatments-random \
-  --response stand_count,height_cm,heading_days,lodging_score,grain_yield_t_ha
+DB="$ROOT/build/demo/harrow_ridge_oats_2026.furrow"
+mkdir -p "$ROOT/build/demo"
+/usr/bin/python3 "$ROOT/demo_data/load_demo_day.py" "$ROOT/build/furrow" \
+  "$ROOT/demo_data/harrow_ridge_oats_2026.plan.csv" "$ROOT/demo_data/harrow_ridge_oats_2026.csv" "$DB"
+"$ROOT/build/furrow" trial show --db "$DB"
+for trait in stand_count height_cm heading_days; do
+  echo
+  "$ROOT/build/furrow" analyze --db "$DB" --trait "$trait"
+done
