@@ -46,8 +46,11 @@ std::string csv_field(const std::string& s) {
   return q + "\"";
 }
 
-Result<PlanFile> read_plan_file(const std::string& path) {
-  const CsvRecords rec = read_csv_records(path);
+Result<PlanFile> read_plan_file(const std::string& path) { return plan_from_records(read_csv_records(path)); }
+
+Result<PlanFile> parse_plan_text(const std::string& text) { return plan_from_records(parse_csv_records(text)); }
+
+Result<PlanFile> plan_from_records(const CsvRecords& rec) {
   if (!rec.ok) return at(rec.problem.line, rec.problem.column, rec.problem.message);
   if (rec.rows.empty()) return at(1, "", "the plan file is empty");
   const auto& first = rec.rows.front();

@@ -23,6 +23,7 @@
 #include <string>
 
 #include "core/trial_plan.h"
+#include "storage/csv_table.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
@@ -35,6 +36,11 @@ struct PlanFile {
 // Reads and checks a plan file. Problems carry the file line and field name
 // (Problem::record holds the 1-based line, Problem::column the field).
 Result<PlanFile> read_plan_file(const std::string& path);
+// The same for plan text already in memory.
+Result<PlanFile> parse_plan_text(const std::string& text);
+
+// The same for CSV records already split.
+Result<PlanFile> plan_from_records(const CsvRecords& records);
 
 // The layout for printing a field map and stake labels: one line per plot in
 // walking order (label, block, row, column, walk order, treatment levels).
