@@ -32,9 +32,11 @@ std::string number_text(double v) {
 }
 
 double median(std::vector<double> v) {
-  std::sort(v.begin(), v.end());
   const size_t n = v.size();
-  return n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+  const auto mid = v.begin() + static_cast<long>(n / 2);
+  std::nth_element(v.begin(), mid, v.end());
+  if (n % 2) return *mid;
+  return 0.5 * (*std::max_element(v.begin(), mid) + *mid);
 }
 
 // Days since 1970-01-01 for a valid YYYY-MM-DD date (civil calendar).

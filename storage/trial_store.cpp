@@ -7,6 +7,7 @@
 #include <ctime>
 #include <filesystem>
 #include <random>
+#include <unordered_map>
 
 namespace furrow {
 namespace {
@@ -63,8 +64,7 @@ CREATE TABLE trait (
 ) STRICT;
 CREATE TABLE this_device (
   only_row INTEGER PRIMARY KEY CHECK (only_row = 1),
-  device_id TEXT NOT NULL,
-  next_sequence INTEGER NOT NULL
+  device_id TEXT NOT NULL
 ) STRICT;
 CREATE TABLE observation (
   device_id TEXT NOT NULL,
@@ -76,14 +76,14 @@ CREATE TABLE observation (
   note TEXT NOT NULL, observer TEXT NOT NULL, recorded_at TEXT NOT NULL,
   PRIMARY KEY (device_id, sequence),
   CHECK ((value IS NULL) <> (missing_reason IS NULL))
-) STRICT;
+) STRICT, WITHOUT ROWID;
 CREATE TABLE replacement (
   device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
   replaced_device_id TEXT NOT NULL, replaced_sequence INTEGER NOT NULL,
   PRIMARY KEY (device_id, sequence, replaced_device_id, replaced_sequence),
   FOREIGN KEY (device_id, sequence) REFERENCES observation(device_id, sequence),
   FOREIGN KEY (replaced_device_id, replaced_sequence) REFERENCES observation(device_id, sequence)
-) STRICT;
+) STRICT, WITHOUT ROWID;
 CREATE INDEX replacement_replaced ON replacement(replaced_device_id, replaced_sequence);
 CREATE INDEX observation_cell ON observation(trait_id, plot_id, occasion);
 CREATE TRIGGER observation_no_update BEFORE UPDATE ON observation
@@ -207,7 +207,7 @@ Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout) {
         .bind(15, join_categories(t.categories)).bind(16, static_cast<int>(k));
     FURROW_TRY(ts->run());
   }
-  auto ds = db.prepare("INSERT INTO this_device (only_row, device_id, next_sequence) VALUES (1, ?, 1)");
+  auto ds = db.prepare("INSERT INTO this_device (only_row, device_id) VALUES (1, ?)");
   if (!ds) return ds.problem();
   ds->bind(1, new_device_id());
   return ds->run();
@@ -328,6 +328,10 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
     auto lv = d.prepare("SELECT factor_id, level_id FROM plot_level WHERE plot_id = ?");
     if (!s) return s.problem();
     if (!lv) return lv.problem();
+    // level id -> (factor position, level position)
+    std::unordered_map<std::int64_t, std::pair<size_t, int>> level_position;
+    for (size_t f = 0; f < level_ids.size(); ++f)
+      for (size_t l = 0; l < level_ids[f].size(); ++l) level_position[level_ids[f][l]] = {f, static_cast<int>(l)};
     s->bind(1, t.id);
     while (s->step()) {
       PlannedPlot plot;
@@ -341,10 +345,8 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
       lv->reset();
       lv->bind(1, t.plot_ids.back());
       while (lv->step()) {
-        for (size_t f = 0; f < factor_ids.size(); ++f)
-          if (factor_ids[f] == lv->integer(0))
-            for (size_t l = 0; l < level_ids[f].size(); ++l)
-              if (level_ids[f][l] == lv->integer(1)) plot.levels[f] = static_cast<int>(l);
+        const auto it = level_position.find(lv->integer(1));
+        if (it != level_position.end()) plot.levels[it->second.first] = it->second.second;
       }
       t.layout.plots.push_back(std::move(plot));
     }
@@ -382,33 +384,46 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
   return out;
 }
 
-Result<ObservationKey> append_observation(Database& db, const std::string& device_id, const NewObservation& o,
-                                          const std::string& recorded_at) {
+Result<ObservationKey> ObservationWriter::append(const std::string& device_id, const NewObservation& o,
+                                                 const std::string& recorded_at) {
+  auto prepare = [&](std::optional<Statement>& slot, const char* sql) -> Status {
+    if (slot) { slot->reset(); return ok_status(); }
+    auto st = db_.prepare(sql);
+    if (!st) return st.problem();
+    slot.emplace(std::move(st).value());
+    return ok_status();
+  };
   ObservationKey key{device_id, 0};
-  auto status = in_transaction(db, [&]() -> Status {
-    auto seq = db.prepare("UPDATE this_device SET next_sequence = next_sequence + 1 RETURNING next_sequence - 1");
-    if (!seq) return seq.problem();
-    if (!seq->step()) return make_problem("this database has no device identity");
-    key.sequence = seq->integer(0);
-    FURROW_TRY(seq->run());
-    auto ins = db.prepare(
-        "INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, missing_reason, "
-        "note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?)");
-    if (!ins) return ins.problem();
-    ins->bind(1, device_id).bind(2, key.sequence).bind(3, o.plot_id).bind(4, o.trait_id).bind(5, o.occasion)
+  auto status = in_transaction(db_, [&]() -> Status {
+    FURROW_TRY(prepare(next_sequence_, "SELECT coalesce(max(sequence), 0) + 1 FROM observation WHERE device_id = ?"));
+    next_sequence_->bind(1, device_id);
+    if (!next_sequence_->step()) return make_problem(next_sequence_->error());
+    key.sequence = next_sequence_->integer(0);
+    FURROW_TRY(prepare(insert_,
+                       "INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, "
+                       "missing_reason, note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?)"));
+    insert_->bind(1, device_id).bind(2, key.sequence).bind(3, o.plot_id).bind(4, o.trait_id).bind(5, o.occasion)
         .bind(6, o.value).bind(7, o.number).bind(8, o.missing_reason).bind(9, o.note).bind(10, o.observer)
         .bind(11, recorded_at);
-    FURROW_TRY(ins->run());
+    FURROW_TRY(insert_->run());
     for (const ObservationKey& r : o.replaces) {
-      auto rs = db.prepare("INSERT INTO replacement VALUES (?,?,?,?)");
-      if (!rs) return rs.problem();
-      rs->bind(1, device_id).bind(2, key.sequence).bind(3, r.device_id).bind(4, r.sequence);
-      FURROW_TRY(rs->run());
+      FURROW_TRY(prepare(replace_, "INSERT INTO replacement VALUES (?,?,?,?)"));
+      replace_->bind(1, device_id).bind(2, key.sequence).bind(3, r.device_id).bind(4, r.sequence);
+      FURROW_TRY(replace_->run());
     }
     return ok_status();
   });
+  // Statements must not hold the database open between entries.
+  for (auto* st : {&next_sequence_, &insert_, &replace_})
+    if (*st) (*st)->reset();
   if (!status) return status.problem();
   return key;
+}
+
+Result<ObservationKey> append_observation(Database& db, const std::string& device_id, const NewObservation& o,
+                                          const std::string& recorded_at) {
+  ObservationWriter writer(db);
+  return writer.append(device_id, o, recorded_at);
 }
 
 namespace {

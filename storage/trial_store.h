@@ -62,8 +62,23 @@ struct NewObservation {
   std::vector<ObservationKey> replaces;      // rows this one supersedes
 };
 
-// Appends one observation in its own transaction and commits it durably
-// (WAL, synchronous=FULL). Returns its key once the commit has returned.
+// Appends observations, each in its own transaction, committed durably (WAL,
+// synchronous=FULL); holds its prepared statements so that a day of entries
+// costs one commit each and little more. The device's next sequence number
+// is one past its highest in the log, read inside the write transaction.
+// Not thread-safe; the Database must outlive the writer.
+class ObservationWriter {
+ public:
+  explicit ObservationWriter(Database& db) : db_(db) {}
+  // Returns the new row's key once its commit has returned.
+  Result<ObservationKey> append(const std::string& device_id, const NewObservation& o, const std::string& recorded_at);
+
+ private:
+  Database& db_;
+  std::optional<Statement> next_sequence_, insert_, replace_;
+};
+
+// One-off append (prepares its statements each time).
 Result<ObservationKey> append_observation(Database& db, const std::string& device_id, const NewObservation& o,
                                           const std::string& recorded_at);
 

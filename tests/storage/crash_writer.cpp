@@ -17,6 +17,7 @@ int main(int argc, char** argv) {
     return 2;
   }
   const auto& t = open->trial;
+  furrow::ObservationWriter writer(open->db);
   for (long i = 0;; ++i) {
     furrow::NewObservation o;
     o.plot_id = t.plot_ids[static_cast<size_t>(i) % t.plot_ids.size()];
@@ -24,7 +25,7 @@ int main(int argc, char** argv) {
     o.value = std::to_string(50 + i % 40);
     o.number = 50.0 + static_cast<double>(i % 40);
     o.observer = "crash test";
-    auto key = furrow::append_observation(open->db, t.device_id, o, furrow::utc_now());
+    auto key = writer.append(t.device_id, o, furrow::utc_now());
     if (!key) {
       std::fprintf(stderr, "%s\n", key.problem().message.c_str());
       return 1;
