@@ -36,7 +36,10 @@ int combination_index(const TrialPlan& p, const PlannedPlot& plot) {
 
 // The blocking code used for expectations: block, or field row for designs without blocks.
 int blocking_code(const TrialPlan& p, const PlannedPlot& plot) {
-  return p.design == DesignKind::completely_randomised ? 0 : p.design == DesignKind::latin_square ? plot.row : plot.block;
+  constexpr int kBlocksPerSite = 100000;
+  return p.design == DesignKind::completely_randomised ? 0
+         : p.design == DesignKind::latin_square       ? plot.row
+                                                      : plot.site * kBlocksPerSite + plot.block;
 }
 
 }  // namespace
@@ -213,6 +216,7 @@ int run_analyze_db(const std::string& db_path, const std::string& trait_code, in
   }
   PlotTable table;
   table.columns.push_back({"plot", {}});
+  table.columns.push_back({"site", {}});
   table.columns.push_back({"block", {}});
   table.columns.push_back({"field_row", {}});
   table.columns.push_back({"field_column", {}});
@@ -221,10 +225,11 @@ int run_analyze_db(const std::string& db_path, const std::string& trait_code, in
   for (size_t i = 0; i < t.layout.plots.size(); ++i) {
     const PlannedPlot& p = t.layout.plots[i];
     table.columns[0].cells.push_back(p.label);
-    table.columns[1].cells.push_back(std::to_string(p.block));
-    table.columns[2].cells.push_back(std::to_string(p.row));
-    table.columns[3].cells.push_back(std::to_string(p.column));
-    for (size_t k = 0; k < p.levels.size(); ++k) table.columns[4 + k].cells.push_back(t.plan.factors[k].levels[p.levels[k]]);
+    table.columns[1].cells.push_back(t.plan.sites.empty() ? std::string() : t.plan.sites[p.site]);
+    table.columns[2].cells.push_back(std::to_string(p.block));
+    table.columns[3].cells.push_back(std::to_string(p.row));
+    table.columns[4].cells.push_back(std::to_string(p.column));
+    for (size_t k = 0; k < p.levels.size(); ++k) table.columns[5 + k].cells.push_back(t.plan.factors[k].levels[p.levels[k]]);
     const auto it = values.find(t.plot_ids[i]);
     // Conflicting cells are left out of the analysis until they are settled.
     const bool usable = it != values.end() && it->second.size() == 1 && number_text.count(t.plot_ids[i]);
@@ -247,6 +252,10 @@ int run_analyze_db(const std::string& db_path, const std::string& trait_code, in
       roles.main_plot = t.plan.factors[0].name;
       roles.sub_plot = t.plan.factors[1].name;
       roles.treatments.clear();
+      break;
+    case DesignKind::multi_site:
+      roles.site = "site";
+      roles.block = "block";
       break;
     default:
       break;

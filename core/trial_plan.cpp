@@ -101,7 +101,41 @@ int walk_position(const TrialPlan& p, int row, int column) {
 
 }  // namespace
 
+namespace {
+Result<Layout> randomise_one_site(const TrialPlan& p, RandomStream& rng);
+}  // namespace
+
 Result<Layout> randomise(const TrialPlan& p) {
+  RandomStream rng(p.seed);
+  if (p.design != DesignKind::multi_site) return randomise_one_site(p, rng);
+  if (p.sites.size() < 2) return make_problem("a several-sites plan needs at least two sites");
+  std::set<std::string> seen;
+  for (const std::string& s : p.sites)
+    if (s.empty() || !seen.insert(s).second) return make_problem("site '" + s + "' is empty or repeated");
+  TrialPlan one = p;
+  one.design = DesignKind::randomised_complete_block;
+  Layout all;
+  const int grid = p.rows * p.columns;
+  const int site_width = static_cast<int>(std::to_string(p.sites.size()).size());
+  for (size_t s = 0; s < p.sites.size(); ++s) {
+    // Each site is randomised independently, from its own stream.
+    RandomStream site_rng(p.seed + 0x9E3779B97F4A7C15ULL * (s + 1));
+    auto layout = randomise_one_site(one, site_rng);
+    if (!layout) return layout.problem();
+    char prefix[16];
+    std::snprintf(prefix, sizeof prefix, "%0*d", site_width, static_cast<int>(s + 1));
+    for (PlannedPlot& plot : layout->plots) {
+      plot.site = static_cast<int>(s);
+      plot.walk_order += static_cast<int>(s) * grid;
+      plot.label = prefix + plot.label;
+      all.plots.push_back(std::move(plot));
+    }
+  }
+  return all;
+}
+
+namespace {
+Result<Layout> randomise_one_site(const TrialPlan& p, RandomStream& rng) {
   if (p.factors.empty()) return make_problem("the plan has no treatment factor");
   std::set<std::string> names;
   for (const TreatmentFactor& f : p.factors) {
@@ -119,7 +153,6 @@ Result<Layout> randomise(const TrialPlan& p) {
   const auto combos = treatment_combinations(p);
   const int t = static_cast<int>(combos.size());
   const int grid = p.rows * p.columns;
-  RandomStream rng(p.seed);
   Layout layout;
   auto add = [&](const Cell& cell, int block, const std::vector<int>& levels) {
     PlannedPlot plot;
@@ -209,8 +242,7 @@ Result<Layout> randomise(const TrialPlan& p) {
       break;
     }
     case DesignKind::multi_site:
-      return make_problem("a trial is planned at one site; plan each site as its own trial and combine them "
-                          "in the several-sites analysis");
+      return make_problem("several sites are randomised site by site");
   }
   // Walking order and stake labels: block digit(s) + plot number in the walk.
   std::sort(layout.plots.begin(), layout.plots.end(),
@@ -228,5 +260,6 @@ Result<Layout> randomise(const TrialPlan& p) {
   }
   return layout;
 }
+}  // namespace
 
 }  // namespace furrow

@@ -46,8 +46,9 @@ struct TrialPlan {
   std::string name, site, season;
   DesignKind design = DesignKind::randomised_complete_block;
   std::vector<TreatmentFactor> factors;   // split-plot: main plot first, then sub-plot
-  int replicates = 1;                     // blocks (crd: replicates per treatment)
-  int rows = 0, columns = 0;              // field grid in plots
+  std::vector<std::string> sites;         // several sites: a randomised complete block trial at each
+  int replicates = 1;                     // blocks (crd: replicates per treatment); per site
+  int rows = 0, columns = 0;              // field grid in plots (per site)
   double plot_length_m = 0, plot_width_m = 0;
   BlockShape block_shape = BlockShape::row_strips;
   int block_rows = 0, block_columns = 0;  // rectangles only
@@ -58,9 +59,10 @@ struct TrialPlan {
 
 struct PlannedPlot {
   std::string label;        // stake label, unique in the trial
+  int site = 0;             // index into TrialPlan::sites (0 for a one-site trial)
   int block = 0;            // 1-based; 0 when the design has none (crd)
   int row = 0, column = 0;  // 1-based field position
-  int walk_order = 0;       // 1-based position on the crew's walk
+  int walk_order = 0;       // 1-based position on the crew's walk (site after site)
   std::vector<int> levels;  // level index per treatment factor
 };
 

@@ -102,6 +102,20 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
           return at(r.line, key, "block_size is ROWSxCOLUMNS, for example 2x10");
         p.block_rows = static_cast<int>(a);
         p.block_columns = static_cast<int>(b);
+      } else if (key == "sites") {
+        std::string cur;
+        std::set<std::string> seen;
+        for (size_t c = 0; c <= v.size(); ++c) {
+          if (c == v.size() || v[c] == '|') {
+            const std::string item = trim(cur);
+            if (item.empty() || !seen.insert(item).second)
+              return at(r.line, key, "site names must be distinct and not empty, separated by |");
+            p.sites.push_back(item);
+            cur.clear();
+          } else {
+            cur += v[c];
+          }
+        }
       } else if (key == "walk") {
         if (v == "serpentine-rows") p.walk = WalkOrder::serpentine_rows;
         else if (v == "serpentine-columns") p.walk = WalkOrder::serpentine_columns;
@@ -199,6 +213,9 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
   if (p.name.empty()) return at(last_line, "name", "the plan has no 'setting,name,...' line");
   if (p.factors.empty()) return at(last_line, "factor", "the plan has no treatment factor");
   if (p.traits.empty()) return at(last_line, "trait", "the plan has no trait");
+  if ((p.design == DesignKind::multi_site) != !p.sites.empty())
+    return at(last_line, "sites", p.sites.empty() ? "a several-sites plan needs 'setting,sites,A|B|...'"
+                                                  : "only a several-sites plan (design multi-site) lists sites");
   if (!plot_rows.empty()) {
     Layout layout;
     std::set<std::string> labels;
@@ -206,11 +223,19 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
     for (const CsvRecord& r : plot_rows) {
       std::vector<std::string> f;
       for (const auto& x : r.fields) f.push_back(trim(x));
-      if (f.size() != 5 + p.factors.size())
-        return at(r.line, "plot", "a plot line has label, block, row, column and one level per factor (" +
+      const size_t site_field = p.sites.empty() ? 0 : 1;
+      if (f.size() != 5 + site_field + p.factors.size())
+        return at(r.line, "plot", std::string("a plot line has label, ") + (site_field ? "site, " : "") +
+                                      "block, row, column and one level per factor (" +
                                       std::to_string(p.factors.size()) + ")");
       PlannedPlot plot;
       plot.label = f[1];
+      if (site_field) {
+        const auto it = std::find(p.sites.begin(), p.sites.end(), f[2]);
+        if (it == p.sites.end()) return at(r.line, "site", "'" + f[2] + "' is not one of the plan's sites");
+        plot.site = static_cast<int>(it - p.sites.begin());
+        f.erase(f.begin() + 2);
+      }
       if (plot.label.empty()) return at(r.line, "label", "the plot has no label");
       if (!labels.insert(plot.label).second) return at(r.line, "label", "plot label '" + plot.label + "' is used twice");
       long long b = 0, row = 0, col = 0;
@@ -218,7 +243,7 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
       if (!parse_int(f[3], 1, p.rows, &row)) return at(r.line, "row", "row must lie in the grid's 1-" + std::to_string(p.rows));
       if (!parse_int(f[4], 1, p.columns, &col))
         return at(r.line, "column", "column must lie in the grid's 1-" + std::to_string(p.columns));
-      if (!cells.insert({static_cast<int>(row), static_cast<int>(col)}).second)
+      if (!cells.insert({plot.site * 100000 + static_cast<int>(row), static_cast<int>(col)}).second)
         return at(r.line, "row", "two plots are at row " + f[3] + ", column " + f[4]);
       plot.block = static_cast<int>(b);
       plot.row = static_cast<int>(row);
@@ -238,6 +263,7 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
         plot.walk_order = (plot.row - 1) * p.columns + (plot.row % 2 ? plot.column : p.columns - plot.column + 1);
       else
         plot.walk_order = (plot.column - 1) * p.rows + (plot.column % 2 ? plot.row : p.rows - plot.row + 1);
+      plot.walk_order += plot.site * p.rows * p.columns;
     }
     std::sort(layout.plots.begin(), layout.plots.end(),
               [](const PlannedPlot& a, const PlannedPlot& b) { return a.walk_order < b.walk_order; });
@@ -246,13 +272,18 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
   return out;
 }
 
+std::string site_of(const StoredTrial& t, const PlannedPlot& p) {
+  return t.plan.sites.empty() ? std::string() : t.plan.sites[p.site];
+}
+
 std::string layout_csv(const StoredTrial& t) {
   std::ostringstream o;
-  o << "label,block,field_row,field_column,walk_order";
+  o << "label,site,block,field_row,field_column,walk_order";
   for (const auto& f : t.plan.factors) o << "," << csv_field(f.name);
   o << "\n";
   for (const PlannedPlot& p : t.layout.plots) {
-    o << csv_field(p.label) << "," << p.block << "," << p.row << "," << p.column << "," << p.walk_order;
+    o << csv_field(p.label) << "," << csv_field(site_of(t, p)) << "," << p.block << "," << p.row << "," << p.column
+      << "," << p.walk_order;
     for (size_t k = 0; k < p.levels.size(); ++k) o << "," << csv_field(t.plan.factors[k].levels[p.levels[k]]);
     o << "\n";
   }
@@ -273,12 +304,12 @@ struct Index {
 std::string long_data_csv(const StoredTrial& t, const std::vector<LiveObservation>& live) {
   const Index ix(t);
   std::ostringstream o;
-  o << "label,block,field_row,field_column";
+  o << "label,site,block,field_row,field_column";
   for (const auto& f : t.plan.factors) o << "," << csv_field(f.name);
   o << ",trait,occasion,value,missing_reason,note,observer,recorded_at,device,sequence\n";
   for (const LiveObservation& x : live) {
     const PlannedPlot& p = t.layout.plots[ix.plot.at(x.plot_id)];
-    o << csv_field(p.label) << "," << p.block << "," << p.row << "," << p.column;
+    o << csv_field(p.label) << "," << csv_field(site_of(t, p)) << "," << p.block << "," << p.row << "," << p.column;
     for (size_t k = 0; k < p.levels.size(); ++k) o << "," << csv_field(t.plan.factors[k].levels[p.levels[k]]);
     o << "," << csv_field(t.plan.traits[ix.trait.at(x.trait_id)].code) << "," << x.occasion << ","
       << csv_field(x.value.value_or("")) << "," << csv_field(x.missing_reason.value_or("")) << "," << csv_field(x.note)
@@ -295,7 +326,7 @@ std::string wide_data_csv(const StoredTrial& t, const std::vector<LiveObservatio
     cells[{ix.plot.at(x.plot_id), ix.trait.at(x.trait_id), x.occasion}].insert(
         {x.value.value_or(""), x.missing_reason.value_or("")});
   std::ostringstream o;
-  o << "label,block,field_row,field_column";
+  o << "label,site,block,field_row,field_column";
   for (const auto& f : t.plan.factors) o << "," << csv_field(f.name);
   for (const Trait& tr : t.plan.traits)
     for (int occ = 1; occ <= tr.occasions; ++occ) {
@@ -305,7 +336,7 @@ std::string wide_data_csv(const StoredTrial& t, const std::vector<LiveObservatio
   o << "\n";
   for (size_t i = 0; i < t.layout.plots.size(); ++i) {
     const PlannedPlot& p = t.layout.plots[i];
-    o << csv_field(p.label) << "," << p.block << "," << p.row << "," << p.column;
+    o << csv_field(p.label) << "," << csv_field(site_of(t, p)) << "," << p.block << "," << p.row << "," << p.column;
     for (size_t k = 0; k < p.levels.size(); ++k) o << "," << csv_field(t.plan.factors[k].levels[p.levels[k]]);
     for (size_t tr = 0; tr < t.plan.traits.size(); ++tr)
       for (int occ = 1; occ <= t.plan.traits[tr].occasions; ++occ) {

@@ -11,14 +11,17 @@
 //                                               block_shape (row-strips | column-strips |
 //                                               rectangles), block_size (RxC, rectangles),
 //                                               walk (serpentine-rows | serpentine-columns),
-//                                               seed (0 .. 2^64-1)
+//                                               seed (0 .. 2^64-1), sites (A|B|C: design
+//                                               multi-site, an RCBD randomised at each site)
 //   factor,NAME,LEVEL,LEVEL,...                 a treatment factor (split-plot: main plot first)
 //   trait,CODE,NAME,UNIT,KIND,DECIMALS,HARD_MIN,HARD_MAX,SOFT_MIN,SOFT_MAX,REQUIRED,OCCASIONS,CHOICES
 //                                               KIND: decimal | count | score | category |
 //                                               percent | date | text; limits may be empty;
 //                                               REQUIRED yes | no; CHOICES: "1-9" for a score,
 //                                               "a|b|c" for a category
-//   plot,LABEL,BLOCK,ROW,COLUMN,LEVEL[,LEVEL]   optional ready layout (then no randomisation)
+//   plot,LABEL,[SITE,]BLOCK,ROW,COLUMN,LEVEL[,LEVEL]
+//                                               optional ready layout (then no randomisation);
+//                                               SITE only in several-sites plans
 
 #include <string>
 

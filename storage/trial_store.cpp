@@ -22,6 +22,7 @@ CREATE TABLE trial (
   plot_length_m REAL NOT NULL, plot_width_m REAL NOT NULL,
   block_shape TEXT NOT NULL, block_rows INTEGER NOT NULL, block_columns INTEGER NOT NULL,
   walk TEXT NOT NULL, seed TEXT NOT NULL,
+  sites TEXT NOT NULL,
   status TEXT NOT NULL CHECK (status IN ('planning', 'collecting', 'closed')),
   created_at TEXT NOT NULL, closed_at TEXT
 ) STRICT;
@@ -40,9 +41,9 @@ CREATE TABLE level (
 CREATE TABLE plot (
   id INTEGER PRIMARY KEY,
   trial_id INTEGER NOT NULL REFERENCES trial(id),
-  label TEXT NOT NULL, block INTEGER NOT NULL,
+  label TEXT NOT NULL, site TEXT NOT NULL, block INTEGER NOT NULL,
   field_row INTEGER NOT NULL, field_column INTEGER NOT NULL, walk_order INTEGER NOT NULL,
-  UNIQUE (trial_id, label), UNIQUE (trial_id, field_row, field_column)
+  UNIQUE (trial_id, label), UNIQUE (trial_id, site, field_row, field_column)
 ) STRICT;
 CREATE TABLE plot_level (
   plot_id INTEGER NOT NULL REFERENCES plot(id),
@@ -151,13 +152,14 @@ std::vector<std::string> split_categories(const std::string& s) {
 Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout) {
   auto st = db.prepare(
       "INSERT INTO trial (name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
-      "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at) "
-      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?, 'collecting', ?)");
+      "plot_width_m, block_shape, block_rows, block_columns, walk, seed, sites, status, created_at) "
+      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?, 'collecting', ?)");
   if (!st) return st.problem();
   st->bind(1, p.name).bind(2, p.site).bind(3, p.season).bind(4, design_kind_key(p.design)).bind(5, p.replicates)
       .bind(6, p.rows).bind(7, p.columns).bind(8, p.plot_length_m).bind(9, p.plot_width_m)
       .bind(10, block_shape_key(p.block_shape)).bind(11, p.block_rows).bind(12, p.block_columns)
-      .bind(13, walk_key(p.walk)).bind(14, std::to_string(p.seed)).bind(15, utc_now());
+      .bind(13, walk_key(p.walk)).bind(14, std::to_string(p.seed)).bind(15, join_categories(p.sites))
+      .bind(16, utc_now());
   FURROW_TRY(st->run());
   const std::int64_t trial_id = db.last_insert_rowid();
   std::vector<std::int64_t> factor_ids;
@@ -178,14 +180,15 @@ Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout) {
       level_ids.back().push_back(db.last_insert_rowid());
     }
   }
-  auto ps = db.prepare("INSERT INTO plot (trial_id, label, block, field_row, field_column, walk_order) VALUES (?,?,?,?,?,?)");
+  auto ps = db.prepare(
+      "INSERT INTO plot (trial_id, label, site, block, field_row, field_column, walk_order) VALUES (?,?,?,?,?,?,?)");
   auto pl = db.prepare("INSERT INTO plot_level (plot_id, factor_id, level_id) VALUES (?,?,?)");
   if (!ps) return ps.problem();
   if (!pl) return pl.problem();
   for (const PlannedPlot& plot : layout.plots) {
     ps->reset();
-    ps->bind(1, trial_id).bind(2, plot.label).bind(3, plot.block).bind(4, plot.row).bind(5, plot.column)
-        .bind(6, plot.walk_order);
+    ps->bind(1, trial_id).bind(2, plot.label).bind(3, p.sites.empty() ? std::string() : p.sites[plot.site])
+        .bind(4, plot.block).bind(5, plot.row).bind(6, plot.column).bind(7, plot.walk_order);
     FURROW_TRY(ps->run());
     const std::int64_t plot_id = db.last_insert_rowid();
     for (size_t f = 0; f < plot.levels.size(); ++f) {
@@ -280,7 +283,7 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
   TrialPlan& p = t.plan;
   {
     auto s = d.prepare("SELECT id, name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
-                       "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at FROM trial");
+                       "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at, sites FROM trial");
     if (!s) return s.problem();
     if (!s->step()) return make_problem(path + " holds no trial");
     t.id = s->integer(0);
@@ -300,6 +303,7 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
     p.seed = std::stoull(s->text(14));
     t.status = s->text(15);
     t.created_at = s->text(16);
+    p.sites = split_categories(s->text(17));
   }
   std::vector<std::int64_t> factor_ids;
   std::vector<std::vector<std::int64_t>> level_ids;
@@ -323,8 +327,8 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
     }
   }
   {
-    auto s = d.prepare("SELECT id, label, block, field_row, field_column, walk_order FROM plot WHERE trial_id = ? "
-                       "ORDER BY walk_order");
+    auto s = d.prepare("SELECT id, label, block, field_row, field_column, walk_order, site FROM plot "
+                       "WHERE trial_id = ? ORDER BY walk_order");
     auto lv = d.prepare("SELECT factor_id, level_id FROM plot_level WHERE plot_id = ?");
     if (!s) return s.problem();
     if (!lv) return lv.problem();
@@ -341,6 +345,9 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
       plot.row = static_cast<int>(s->integer(3));
       plot.column = static_cast<int>(s->integer(4));
       plot.walk_order = static_cast<int>(s->integer(5));
+      const std::string site = s->text(6);
+      for (size_t k = 0; k < p.sites.size(); ++k)
+        if (p.sites[k] == site) plot.site = static_cast<int>(k);
       plot.levels.assign(factor_ids.size(), 0);
       lv->reset();
       lv->bind(1, t.plot_ids.back());

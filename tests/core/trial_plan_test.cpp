@@ -163,3 +163,34 @@ TEST_CASE("plans that cannot be laid out are refused in plain words") {
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("several sites: a randomised complete block trial at each site, independent, labels unique") {
+  TrialPlan p = plan_of(DesignKind::multi_site, {factor("E", 6)}, 3, 3, 6);
+  p.sites = {"Ridge North", "Ridge South", "Lowland"};
+  const auto l = randomise(p);
+  REQUIRE(l.ok());
+  CHECK(l->plots.size() == 3 * 18);
+  std::set<std::string> labels;
+  std::set<int> walk;
+  std::map<std::pair<int, int>, std::set<int>> per_block;
+  std::map<int, std::vector<int>> order_by_site;
+  for (const PlannedPlot& plot : l->plots) {
+    CHECK(labels.insert(plot.label).second);
+    CHECK(walk.insert(plot.walk_order).second);
+    CHECK(per_block[{plot.site, plot.block}].insert(plot.levels[0]).second);
+    CHECK(plot.label[0] == static_cast<char>('1' + plot.site));
+    order_by_site[plot.site].push_back(plot.levels[0]);
+  }
+  CHECK(per_block.size() == 9);
+  CHECK(order_by_site[0] != order_by_site[1]);   // sites are randomised independently
+  const auto again = randomise(p);
+  for (size_t i = 0; i < l->plots.size(); ++i) CHECK(again->plots[i].levels == l->plots[i].levels);
+  p.sites = {"only one"};
+  CHECK_FALSE(randomise(p).ok());
+}
+
+}  // namespace
+}  // namespace furrow

@@ -123,12 +123,12 @@ TEST_CASE("exports: layout in walking order, wide table marks conflicts") {
   REQUIRE(open.ok());
   auto& [db, t] = *open;
   const std::string layout = layout_csv(t);
-  CHECK(layout.rfind("label,block,field_row,field_column,walk_order,entry\n101,1,1,1,1,", 0) == 0);
+  CHECK(layout.rfind("label,site,block,field_row,field_column,walk_order,entry\n101,,1,1,1,1,", 0) == 0);
   REQUIRE(append_observation(db, t.device_id, value_for(t, 0, 1, "95"), utc_now()).ok());
   REQUIRE(append_observation(db, "00000000000000b2", value_for(t, 0, 1, "97"), utc_now()).ok());
   const auto live = live_observations(db, 0);
   const std::string wide = wide_data_csv(t, *live);
-  CHECK(wide.find("\n101,1,1,1,Quillon,,,,CONFLICT,") != std::string::npos);
+  CHECK(wide.find("\n101,,1,1,1,Quillon,,,,CONFLICT,") != std::string::npos);
   const std::string long_table = long_data_csv(t, *live);
   CHECK(std::count(long_table.begin(), long_table.end(), '\n') == 3);
 }
