@@ -406,6 +406,7 @@ Result<ObservationKey> ObservationWriter::append(const std::string& device_id, c
     next_sequence_->bind(1, device_id);
     if (!next_sequence_->step()) return make_problem(next_sequence_->error());
     key.sequence = next_sequence_->integer(0);
+    next_sequence_->reset();   // finish the read before writing
     FURROW_TRY(prepare(insert_,
                        "INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, "
                        "missing_reason, note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?)"));
