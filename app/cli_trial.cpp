@@ -6,6 +6,7 @@
 #include <set>
 
 #include "app/analysis_output.h"
+#include "app/entry_context.h"
 #include "core/analysis.h"
 #include "core/entry_checks.h"
 #include "storage/plan_file.h"
@@ -25,21 +26,6 @@ const Trait* find_trait(const StoredTrial& t, const std::string& code, size_t* i
   for (size_t i = 0; i < t.plan.traits.size(); ++i)
     if (t.plan.traits[i].code == code) { *index = i; return &t.plan.traits[i]; }
   return nullptr;
-}
-
-// Treatment combination index of a plot (for expectations and tables).
-int combination_index(const TrialPlan& p, const PlannedPlot& plot) {
-  int idx = 0;
-  for (size_t k = 0; k < plot.levels.size(); ++k) idx = idx * static_cast<int>(p.factors[k].levels.size()) + plot.levels[k];
-  return idx;
-}
-
-// The blocking code used for expectations: block, or field row for designs without blocks.
-int blocking_code(const TrialPlan& p, const PlannedPlot& plot) {
-  constexpr int kBlocksPerSite = 100000;
-  return p.design == DesignKind::completely_randomised ? 0
-         : p.design == DesignKind::latin_square       ? plot.row
-                                                      : plot.site * kBlocksPerSite + plot.block;
 }
 
 }  // namespace
@@ -132,25 +118,7 @@ int run_record(const RecordRequest& r) {
   if (!r.missing.empty()) {
     o.missing_reason = r.missing;
   } else {
-    EntryContext ctx;
-    std::map<std::int64_t, size_t> index_of;
-    for (size_t i = 0; i < t.plot_ids.size(); ++i) index_of[t.plot_ids[i]] = i;
-    std::vector<double> values;
-    std::vector<int> blocks, treatments;
-    for (const auto& x : *live) {
-      if (x.occasion != r.occasion) continue;
-      if (x.value && x.key.device_id == t.device_id) ctx.previous_entries.push_back(*x.value);
-      if (x.plot_id == plot_id || !x.number) continue;
-      const PlannedPlot& pp = t.layout.plots[index_of[x.plot_id]];
-      values.push_back(*x.number);
-      blocks.push_back(blocking_code(t.plan, pp));
-      treatments.push_back(combination_index(t.plan, pp));
-    }
-    ctx.other_values = values;
-    const PlannedPlot& target = t.layout.plots[plot_index];
-    if (trait->kind != TraitKind::text && trait->kind != TraitKind::category)
-      ctx.expectation = expect_from_means(values, blocks, treatments, blocking_code(t.plan, target),
-                                          combination_index(t.plan, target));
+    const EntryContext ctx = entry_context_for(t, *live, plot_index, trait_index, r.occasion);
     const auto findings = check_entry(*trait, r.value, ctx);
     const auto w = worst(findings);
     for (const Finding& f : findings) std::cerr << severity_key(f.severity) << ": " << f.message << "\n";

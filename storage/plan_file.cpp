@@ -31,6 +31,23 @@ bool parse_int(const std::string& s, long long lo, long long hi, long long* out)
   return *out >= lo && *out <= hi;
 }
 
+// "a|b|c" into distinct, non-empty items; false when an item is empty or repeated.
+bool split_choices(const std::string& text, std::vector<std::string>* out) {
+  std::string cur;
+  std::set<std::string> seen;
+  for (size_t c = 0; c <= text.size(); ++c) {
+    if (c == text.size() || text[c] == '|') {
+      const std::string item = trim(cur);
+      if (item.empty() || !seen.insert(item).second) return false;
+      out->push_back(item);
+      cur.clear();
+    } else {
+      cur += text[c];
+    }
+  }
+  return true;
+}
+
 bool parse_number(const std::string& s, double* out) {
   if (!parse_exact_decimal(s).ok()) return false;
   *out = std::strtod(s.c_str(), nullptr);
@@ -103,19 +120,8 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
         p.block_rows = static_cast<int>(a);
         p.block_columns = static_cast<int>(b);
       } else if (key == "sites") {
-        std::string cur;
-        std::set<std::string> seen;
-        for (size_t c = 0; c <= v.size(); ++c) {
-          if (c == v.size() || v[c] == '|') {
-            const std::string item = trim(cur);
-            if (item.empty() || !seen.insert(item).second)
-              return at(r.line, key, "site names must be distinct and not empty, separated by |");
-            p.sites.push_back(item);
-            cur.clear();
-          } else {
-            cur += v[c];
-          }
-        }
+        if (!split_choices(v, &p.sites))
+          return at(r.line, key, "site names must be distinct and not empty, separated by |");
       } else if (key == "walk") {
         if (v == "serpentine-rows") p.walk = WalkOrder::serpentine_rows;
         else if (v == "serpentine-columns") p.walk = WalkOrder::serpentine_columns;
@@ -184,19 +190,8 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
         t.scale_min = static_cast<int>(lo);
         t.scale_max = static_cast<int>(hi);
       } else if (t.kind == TraitKind::category) {
-        std::string cur;
-        std::set<std::string> seen;
-        for (size_t c = 0; c <= choices.size(); ++c) {
-          if (c == choices.size() || choices[c] == '|') {
-            const std::string item = trim(cur);
-            if (item.empty() || !seen.insert(item).second)
-              return at(r.line, "choices", "categories must be distinct and not empty, separated by |");
-            t.categories.push_back(item);
-            cur.clear();
-          } else {
-            cur += choices[c];
-          }
-        }
+        if (!split_choices(choices, &t.categories))
+          return at(r.line, "choices", "categories must be distinct and not empty, separated by |");
         if (t.categories.size() < 2) return at(r.line, "choices", "a category trait needs at least two categories");
       }
       p.traits.push_back(std::move(t));

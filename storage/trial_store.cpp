@@ -435,10 +435,11 @@ Result<ObservationKey> append_observation(Database& db, const std::string& devic
 }
 
 namespace {
-Result<std::vector<LiveObservation>> read_observations(Database& db, const std::string& sql, std::int64_t trait_id) {
+template <class Bind>
+Result<std::vector<LiveObservation>> read_observations(Database& db, const std::string& sql, Bind bind) {
   auto s = db.prepare(sql);
   if (!s) return s.problem();
-  if (trait_id) s->bind(1, trait_id);
+  bind(*s);
   std::vector<LiveObservation> out;
   while (s->step()) {
     LiveObservation o;
@@ -465,11 +466,23 @@ Result<std::vector<LiveObservation>> live_observations(Database& db, std::int64_
   return read_observations(db,
                            std::string("SELECT ") + kColumns + " FROM live_observation" +
                                (trait_id ? " WHERE trait_id = ?" : "") + " ORDER BY recorded_at, device_id, sequence",
-                           trait_id);
+                           [&](Statement& st) {
+                             if (trait_id) st.bind(1, trait_id);
+                           });
+}
+
+Result<std::vector<LiveObservation>> replaced_by(Database& db, const ObservationKey& key) {
+  return read_observations(db,
+                           std::string("SELECT ") + kColumns +
+                               " FROM observation WHERE (device_id, sequence) IN (SELECT replaced_device_id, "
+                               "replaced_sequence FROM replacement WHERE device_id = ? AND sequence = ?) "
+                               "ORDER BY recorded_at, device_id, sequence",
+                           [&](Statement& st) { st.bind(1, key.device_id).bind(2, key.sequence); });
 }
 
 Result<std::vector<LiveObservation>> all_observations(Database& db) {
-  return read_observations(db, std::string("SELECT ") + kColumns + " FROM observation ORDER BY device_id, sequence", 0);
+  return read_observations(db, std::string("SELECT ") + kColumns + " FROM observation ORDER BY device_id, sequence",
+                           [](Statement&) {});
 }
 
 }  // namespace furrow

@@ -96,6 +96,9 @@ struct LiveObservation {
 // ordered by recorded time then key.
 Result<std::vector<LiveObservation>> live_observations(Database& db, std::int64_t trait_id);
 
+// The rows that `key` replaced (empty when it replaced none).
+Result<std::vector<LiveObservation>> replaced_by(Database& db, const ObservationKey& key);
+
 // Every row of the log in key order (for exports and audits).
 Result<std::vector<LiveObservation>> all_observations(Database& db);
 

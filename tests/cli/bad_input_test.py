@@ -11,19 +11,13 @@ import shutil
 import subprocess
 import sys
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from checks import Checks  # noqa: E402
+
 furrow, demo_plan, work = sys.argv[1:4]
 shutil.rmtree(work, ignore_errors=True)
 os.makedirs(work)
-failures, passed = [], 0
-
-
-def check(cond, what):
-    global passed
-    if cond:
-        passed += 1
-    else:
-        failures.append(what)
-        print("FAILED:", what)
+check = Checks()
 
 
 def run(*args):
@@ -164,5 +158,4 @@ p = run("trial", "new", "--plan", demo_plan, "--db", db)
 check(p.returncode == 2 and digest(db) == before, "trial new refuses to overwrite an existing database")
 
 print(f"{len(plan_cases) + 1} plan files and {len(record_cases) + 5} record/trial commands checked")
-print(f"{passed} passed, {len(failures)} failed")
-sys.exit(1 if failures else 0)
+check.finish()

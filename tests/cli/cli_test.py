@@ -9,21 +9,14 @@ import json
 import os
 import subprocess
 import sys
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from checks import Checks  # noqa: E402
 import tempfile
 
 FURROW, SRC, REF = sys.argv[1:4]
 DEMO = os.path.join(SRC, "demo_data", "harrow_ridge_oats_2026.csv")
-failures = []
-passed = 0
-
-
-def check(cond, what):
-    global passed
-    if cond:
-        passed += 1
-    else:
-        failures.append(what)
-        print("FAILED:", what)
+check = Checks()
 
 
 def run(*args):
@@ -122,5 +115,4 @@ with tempfile.TemporaryDirectory() as tmp:
         ["no degrees of freedom for error"])
     bad("bad_sums.csv", good, rcbd + ["--sums", "type3"], ["--sums must be sequential or partial"])
 
-print(f"{passed} passed, {len(failures)} failed")
-sys.exit(1 if failures else 0)
+check.finish()

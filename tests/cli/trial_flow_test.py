@@ -15,19 +15,13 @@ import shutil
 import subprocess
 import sys
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from checks import Checks  # noqa: E402
+
 furrow, work = sys.argv[1:3]
 shutil.rmtree(work, ignore_errors=True)
 os.makedirs(work)
-failures, passed = [], 0
-
-
-def check(cond, what):
-    global passed
-    if cond:
-        passed += 1
-    else:
-        failures.append(what)
-        print("FAILED:", what)
+check = Checks()
 
 
 def run(*args):
@@ -68,5 +62,4 @@ check(from_db["n"] == 54 and from_csv["n"] == 54, "54 plots analysed both ways")
 for a, b in zip(from_db["table"], from_csv["table"]):
     check(a["source"] == b["source"] and abs(a["ss"] - b["ss"]) <= 1e-9 * max(1, abs(b["ss"])),
           f"row {a['source']} equal from the database and from the export")
-print(f"{passed} passed, {len(failures)} failed")
-sys.exit(1 if failures else 0)
+check.finish()
