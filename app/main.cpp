@@ -2,10 +2,12 @@
 // arguments and hand over to core/ and storage/.
 
 #include <CLI/CLI.hpp>
+#include <cstdio>
 #include <iostream>
 
 #include "app/cli_analyze.h"
 #include "app/cli_trial.h"
+#include "app/field_app.h"
 
 int main(int argc, char** argv) {
   CLI::App app{"Furrow: plot-by-plot field trial data checks and interim analysis"};
@@ -71,6 +73,14 @@ int main(int argc, char** argv) {
   f_wide->excludes(f_layout);
   exp->add_option("--out", export_out, "file to write (default: standard output)");
 
+  furrow::FieldAppOptions field_options;
+  std::string field_size;
+  auto* field = app.add_subcommand("field", "Open the touch app on a trial database (Record screen)");
+  field->add_option("--db", field_options.db, "trial database")->required();
+  field->add_option("--observer", field_options.observer, "who is measuring (else the saved setting)");
+  field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
+  field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -90,6 +100,14 @@ int main(int argc, char** argv) {
   };
   q.responses = split(response_list);
   q.treatments = split(treatment_list);
+  if (field->parsed()) {
+    if (!field_size.empty() &&
+        std::sscanf(field_size.c_str(), "%dx%d", &field_options.width, &field_options.height) != 2) {
+      std::cerr << "field: --size is WIDTHxHEIGHT, for example 800x1280\n";
+      return 2;
+    }
+    return furrow::run_field_app(field_options);
+  }
   if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
   if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
   if (record->parsed()) return furrow::run_record(rec);

@@ -1,0 +1,161 @@
+#include "app/screens/record_screen.h"
+
+#include <imgui.h>
+
+namespace furrow {
+namespace {
+
+ImVec4 colour(const Rgb& c) { return ImVec4(c.r, c.g, c.b, 1.0f); }
+
+// Keypad keys are larger than the minimum: gloves and one free hand.
+constexpr float kKeyPx = 72.0f;
+
+bool big_button(const char* label, float width, float height, const Rgb& bg, const Rgb& fg) {
+  ImGui::PushStyleColor(ImGuiCol_Button, colour(bg));
+  ImGui::PushStyleColor(ImGuiCol_ButtonHovered, colour(bg));
+  ImGui::PushStyleColor(ImGuiCol_ButtonActive, colour(bg));
+  ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
+  const bool pressed = ImGui::Button(label, ImVec2(width, height));
+  ImGui::PopStyleColor(4);
+  return pressed;
+}
+
+}  // namespace
+
+void show_outcome(const EntryOutcome& outcome, RecordScreenState* state) {
+  state->banner = outcome.message;
+  switch (outcome.kind) {
+    case EntryOutcome::Kind::saved: state->tone = RecordScreenState::Tone::saved; state->typed.clear(); break;
+    case EntryOutcome::Kind::needs_confirmation: state->tone = RecordScreenState::Tone::confirm; break;
+    case EntryOutcome::Kind::refused: state->tone = RecordScreenState::Tone::refuse; break;
+  }
+}
+
+std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& theme, float scale,
+                                              RecordScreenState* st) {
+  std::vector<RecordCommand> out;
+  const ImGuiViewport* vp = ImGui::GetMainViewport();
+  ImGui::SetNextWindowPos(vp->WorkPos);
+  ImGui::SetNextWindowSize(vp->WorkSize);
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, colour(theme.background));
+  ImGui::PushStyleColor(ImGuiCol_Text, colour(theme.text));
+  ImGui::PushStyleColor(ImGuiCol_FrameBg, colour(theme.panel));
+  ImGui::PushStyleColor(ImGuiCol_FrameBgActive, colour(theme.panel));
+  ImGui::PushStyleColor(ImGuiCol_FrameBgHovered, colour(theme.panel));
+  ImGui::PushStyleColor(ImGuiCol_Border, colour(theme.text));
+  ImGui::Begin("Record", nullptr,
+               ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings);
+  const float target = kTouchTargetPx * scale;
+  const float key = kKeyPx * scale;
+  const float width = ImGui::GetContentRegionAvail().x;
+  const bool portrait = vp->WorkSize.y > vp->WorkSize.x;
+
+  // Where we are.
+  ImGuiIO& io = ImGui::GetIO();
+  ImFont* large = io.Fonts->Fonts.Size > 2 ? io.Fonts->Fonts[1] : ImGui::GetFont();
+  ImFont* huge = io.Fonts->Fonts.Size > 2 ? io.Fonts->Fonts[2] : ImGui::GetFont();
+  ImGui::PushFont(huge);
+  ImGui::Text("Plot %s", v.plot_label.c_str());
+  ImGui::PopFont();
+  ImGui::PushStyleColor(ImGuiCol_Text, colour(theme.muted_text));
+  ImGui::Text("%s%sblock %d   row %d   column %d   %s   (%d of %d)", v.site.c_str(), v.site.empty() ? "" : "   ",
+              v.block, v.row, v.column, v.treatment.c_str(), v.position, v.plots);
+  ImGui::PopStyleColor();
+  ImGui::Separator();
+  ImGui::PushFont(large);
+  ImGui::Text("%s%s%s%s", v.trait_name.c_str(), v.unit.empty() ? "" : " (", v.unit.c_str(), v.unit.empty() ? "" : ")");
+  ImGui::PopFont();
+  if (!v.limits.empty()) ImGui::Text("%s", v.limits.c_str());
+  ImGui::Text("Recorded: %s", v.current ? v.current->c_str() : "nothing yet");
+  ImGui::Text("Done %d of %d required values", v.cells_done, v.cells_required);
+
+  // Banner with what the checks said.
+  if (st->tone != RecordScreenState::Tone::none) {
+    const Rgb bg = st->tone == RecordScreenState::Tone::saved     ? theme.saved
+                   : st->tone == RecordScreenState::Tone::confirm ? theme.confirm
+                                                                  : theme.refuse;
+    const Rgb fg = st->tone == RecordScreenState::Tone::saved     ? theme.saved_text
+                   : st->tone == RecordScreenState::Tone::confirm ? theme.confirm_text
+                                                                  : theme.refuse_text;
+    ImGui::PushStyleColor(ImGuiCol_ChildBg, colour(bg));
+    ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
+    ImGui::BeginChild("banner", ImVec2(width, 2.2f * target), false, ImGuiWindowFlags_NoScrollbar);
+    ImGui::PushTextWrapPos(width - (st->tone == RecordScreenState::Tone::confirm ? 6 * target : 0));
+    ImGui::TextUnformatted(st->banner.c_str());
+    ImGui::PopTextWrapPos();
+    if (st->tone == RecordScreenState::Tone::confirm && v.has_pending) {
+      ImGui::SameLine(width - 5.5f * target);
+      if (big_button("Confirm value", 5 * target, 1.5f * target, theme.button, theme.button_text))
+        out.push_back({RecordCommand::Kind::confirm, {}});
+    }
+    ImGui::EndChild();
+    ImGui::PopStyleColor(2);
+  }
+
+  // The value being typed and the keypad.
+  ImGui::PushFont(huge);
+  ImGui::Text("Value: %s_", st->typed.c_str());
+  ImGui::PopFont();
+  static const char* kKeys[4][3] = {{"7", "8", "9"}, {"4", "5", "6"}, {"1", "2", "3"}, {".", "0", "Del"}};
+  const float pad_width = 3 * key + 2 * ImGui::GetStyle().ItemSpacing.x;
+  ImGui::BeginGroup();
+  for (auto& row : kKeys) {
+    for (int c = 0; c < 3; ++c) {
+      if (c) ImGui::SameLine();
+      if (big_button(row[c], key, key, theme.button, theme.button_text)) {
+        if (std::string(row[c]) == "Del") {
+          if (!st->typed.empty()) st->typed.pop_back();
+        } else {
+          st->typed += row[c];
+        }
+      }
+    }
+  }
+  if (big_button("Save", pad_width, key, theme.accent, theme.accent_text) && !st->typed.empty())
+    out.push_back({RecordCommand::Kind::enter, st->typed});
+  ImGui::EndGroup();
+
+  // Moving along and other commands.
+  if (!portrait) ImGui::SameLine(0, 2 * target);
+  ImGui::BeginGroup();
+  const float cmd = 4.5f * target;
+  if (big_button("Previous plot", cmd, target * 1.3f, theme.button, theme.button_text))
+    out.push_back({RecordCommand::Kind::previous, {}});
+  ImGui::SameLine();
+  if (big_button("Next plot", cmd, target * 1.3f, theme.button, theme.button_text))
+    out.push_back({RecordCommand::Kind::next, {}});
+  if (big_button("Undo last entry", cmd, target * 1.3f, theme.button, theme.button_text))
+    out.push_back({RecordCommand::Kind::undo, {}});
+  ImGui::SameLine();
+  if (big_button("Skip plot...", cmd, target * 1.3f, theme.button, theme.button_text))
+    st->choosing_skip_reason = !st->choosing_skip_reason;
+  if (st->choosing_skip_reason) {
+    for (const std::string& reason : kSkipReasons) {
+      if (reason == "other") continue;   // needs a note: typed on the keyboard screen later
+      if (big_button(reason.c_str(), cmd, target, theme.panel, theme.text)) {
+        out.push_back({RecordCommand::Kind::skip, reason});
+        st->choosing_skip_reason = false;
+      }
+    }
+  }
+  ImGui::Text("Go to plot (type or scan the stake):");
+  ImGui::SetNextItemWidth(cmd);
+  ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
+  ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, (target - ImGui::GetFontSize()) / 2));
+  if (ImGui::InputText("##jump", st->jump_label, sizeof st->jump_label, ImGuiInputTextFlags_EnterReturnsTrue)) {
+    out.push_back({RecordCommand::Kind::jump, st->jump_label});
+    st->jump_label[0] = 0;
+  }
+  ImGui::PopStyleVar(2);
+  ImGui::SameLine();
+  if (big_button("Go", 2 * target, target, theme.button, theme.button_text) && st->jump_label[0]) {
+    out.push_back({RecordCommand::Kind::jump, st->jump_label});
+    st->jump_label[0] = 0;
+  }
+  ImGui::EndGroup();
+  ImGui::End();
+  ImGui::PopStyleColor(6);
+  return out;
+}
+
+}  // namespace furrow

@@ -1,0 +1,38 @@
+#pragma once
+// The Record screen: one plot at a time, a large keypad, the checks' banner.
+// Draws from a read-only RecordView and returns what the crew asked for as
+// commands; the caller applies them to the RecordSession.
+
+#include <string>
+#include <vector>
+
+#include "app/record_session.h"
+#include "app/theme.h"
+
+namespace furrow {
+
+struct RecordCommand {
+  enum class Kind { enter, confirm, skip, next, previous, jump, undo } kind = Kind::next;
+  std::string text;   // the value, the skip reason or the plot label
+};
+
+// What the screen itself keeps between frames (typed text, banner).
+struct RecordScreenState {
+  std::string typed;
+  std::string banner;
+  enum class Tone { none, saved, confirm, refuse } tone = Tone::none;
+  bool choosing_skip_reason = false;
+  char jump_label[64] = {};
+};
+
+// Minimum size of anything a finger taps, in pixels at scale 1 (Material
+// Design touch-target guideline: 48 dp; WCAG 2.1 SC 2.5.5 asks for 44 px).
+inline constexpr float kTouchTargetPx = 48.0f;
+
+std::vector<RecordCommand> draw_record_screen(const RecordView& view, const Theme& theme, float scale,
+                                              RecordScreenState* state);
+
+// Shows a command's outcome in the banner.
+void show_outcome(const EntryOutcome& outcome, RecordScreenState* state);
+
+}  // namespace furrow

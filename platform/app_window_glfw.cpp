@@ -1,0 +1,112 @@
+#include <GLFW/glfw3.h>
+#include <imgui.h>
+#include <imgui_impl_glfw.h>
+#include <imgui_impl_opengl3.h>
+
+#include <vector>
+
+#include "platform/app_window.h"
+
+#define STB_IMAGE_WRITE_IMPLEMENTATION
+#include <stb_image_write.h>
+
+extern "C" const unsigned char furrow_font_ttf_begin[];
+extern "C" const unsigned char furrow_font_ttf_end[];
+
+namespace furrow {
+
+// Base font size in pixels at scale 1: large enough to read at arm's length
+// in sunlight (common practice for outdoor tablets; our choice).
+constexpr float kBaseFontPx = 24.0f;
+
+struct AppWindow::Impl {
+  GLFWwindow* window = nullptr;
+  int width = 0, height = 0;
+  float clear[3] = {1, 1, 1};
+};
+
+Result<std::unique_ptr<AppWindow>> AppWindow::create(const std::string& title, int width, int height, float ui_scale) {
+  if (!glfwInit()) return make_problem("cannot start the window system (no display?)");
+  glfwWindowHint(GLFW_CONTEXT_VERSION_MAJOR, 3);
+  glfwWindowHint(GLFW_CONTEXT_VERSION_MINOR, 3);
+  glfwWindowHint(GLFW_OPENGL_PROFILE, GLFW_OPENGL_CORE_PROFILE);
+  GLFWwindow* w = glfwCreateWindow(width, height, title.c_str(), nullptr, nullptr);
+  if (!w) {
+    glfwTerminate();
+    return make_problem("cannot open a window with OpenGL 3.3");
+  }
+  glfwMakeContextCurrent(w);
+  glfwSwapInterval(1);
+  std::unique_ptr<AppWindow> out(new AppWindow());
+  out->impl_ = std::make_unique<Impl>();
+  out->impl_->window = w;
+  float sx = 1, sy = 1;
+  glfwGetWindowContentScale(w, &sx, &sy);
+  out->scale_ = sx * ui_scale;
+  IMGUI_CHECKVERSION();
+  ImGui::CreateContext();
+  ImGuiIO& io = ImGui::GetIO();
+  io.IniFilename = nullptr;
+  ImFontConfig config;
+  config.FontDataOwnedByAtlas = false;
+  for (float size : {1.0f, 1.5f, 2.2f})
+    io.Fonts->AddFontFromMemoryTTF(const_cast<unsigned char*>(furrow_font_ttf_begin),
+                                   static_cast<int>(furrow_font_ttf_end - furrow_font_ttf_begin),
+                                   kBaseFontPx * size * out->scale_, &config);
+  ImGui::GetStyle().ScaleAllSizes(out->scale_);
+  ImGui_ImplGlfw_InitForOpenGL(w, true);
+  ImGui_ImplOpenGL3_Init("#version 330");
+  return out;
+}
+
+AppWindow::~AppWindow() {
+  if (!impl_) return;
+  ImGui_ImplOpenGL3_Shutdown();
+  ImGui_ImplGlfw_Shutdown();
+  ImGui::DestroyContext();
+  glfwDestroyWindow(impl_->window);
+  glfwTerminate();
+}
+
+bool AppWindow::should_close() const { return glfwWindowShouldClose(impl_->window); }
+
+void AppWindow::begin_frame(double timeout_s) {
+  if (timeout_s > 0) glfwWaitEventsTimeout(timeout_s);
+  else glfwPollEvents();
+  ImGui_ImplOpenGL3_NewFrame();
+  ImGui_ImplGlfw_NewFrame();
+  ImGui::NewFrame();
+}
+
+void AppWindow::end_frame(float r, float g, float b) {
+  ImGui::Render();
+  glfwGetFramebufferSize(impl_->window, &impl_->width, &impl_->height);
+  glViewport(0, 0, impl_->width, impl_->height);
+  impl_->clear[0] = r;
+  impl_->clear[1] = g;
+  impl_->clear[2] = b;
+  glClearColor(r, g, b, 1.0f);
+  glClear(GL_COLOR_BUFFER_BIT);
+  ImGui_ImplOpenGL3_RenderDrawData(ImGui::GetDrawData());
+  glfwSwapBuffers(impl_->window);
+}
+
+Status AppWindow::save_screenshot(const std::string& path) const {
+  const int w = impl_->width, h = impl_->height;
+  std::vector<unsigned char> pixels(static_cast<size_t>(w) * h * 4);
+  // The front buffer is not readable everywhere (Xvfb, Mesa): draw the last
+  // frame's lists again into the back buffer and read that.
+  glViewport(0, 0, w, h);
+  glClearColor(impl_->clear[0], impl_->clear[1], impl_->clear[2], 1.0f);
+  glClear(GL_COLOR_BUFFER_BIT);
+  ImGui_ImplOpenGL3_RenderDrawData(ImGui::GetDrawData());
+  glFinish();
+  glReadBuffer(GL_BACK);
+  glPixelStorei(GL_PACK_ALIGNMENT, 1);
+  glReadPixels(0, 0, w, h, GL_RGBA, GL_UNSIGNED_BYTE, pixels.data());
+  stbi_flip_vertically_on_write(1);
+  if (!stbi_write_png(path.c_str(), w, h, 4, pixels.data(), w * 4)) return make_problem("cannot write " + path);
+  return ok_status();
+}
+
+}  // namespace furrow

@@ -1,0 +1,90 @@
+#!/usr/bin/python3
+"""Under Xvfb with Mesa: start the real field app on the demo trial in a
+landscape (1280x800) and a portrait (800x1280) window, take a screenshot of
+the Record screen, and check that each is drawn: not one flat colour, with
+dark text on the light daylight background.
+
+usage: screenshot_test.py FURROW SOURCE_DIR WORK_DIR
+"""
+import os
+import shutil
+import struct
+import subprocess
+import sys
+import zlib
+
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "cli"))
+from checks import Checks  # noqa: E402
+
+furrow, src, work = sys.argv[1:4]
+shutil.rmtree(work, ignore_errors=True)
+os.makedirs(work)
+check = Checks()
+
+
+def read_png(path):
+    """RGBA pixels of an 8-bit, non-interlaced PNG (as the app writes them)."""
+    with open(path, "rb") as f:
+        data = f.read()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    pos, idat, width, height = 8, b"", 0, 0
+    while pos < len(data):
+        length, kind = struct.unpack(">I4s", data[pos:pos + 8])
+        body = data[pos + 8:pos + 8 + length]
+        if kind == b"IHDR":
+            width, height, depth, colour = struct.unpack(">IIBB", body[:10])
+            assert depth == 8 and colour == 6
+        elif kind == b"IDAT":
+            idat += body
+        pos += 12 + length
+    raw = zlib.decompress(idat)
+    stride, rows, prev = width * 4, [], bytearray(width * 4)
+    for y in range(height):
+        filt = raw[y * (stride + 1)]
+        line = bytearray(raw[y * (stride + 1) + 1:(y + 1) * (stride + 1)])
+        for i in range(stride):
+            a = line[i - 4] if i >= 4 else 0
+            b = prev[i]
+            c = prev[i - 4] if i >= 4 else 0
+            if filt == 1:
+                line[i] = (line[i] + a) & 0xFF
+            elif filt == 2:
+                line[i] = (line[i] + b) & 0xFF
+            elif filt == 3:
+                line[i] = (line[i] + (a + b) // 2) & 0xFF
+            elif filt == 4:
+                p = a + b - c
+                pa, pb, pc = abs(p - a), abs(p - b), abs(p - c)
+                line[i] = (line[i] + (a if pa <= pb and pa <= pc else b if pb <= pc else c)) & 0xFF
+        rows.append(bytes(line))
+        prev = line
+    return width, height, rows
+
+
+db = os.path.join(work, "demo.furrow")
+subprocess.run(["/usr/bin/python3", os.path.join(src, "demo_data", "load_demo_day.py"), furrow,
+                os.path.join(src, "demo_data", "harrow_ridge_oats_2026.plan.csv"),
+                os.path.join(src, "demo_data", "harrow_ridge_oats_2026.csv"), db], check=True, capture_output=True)
+env = dict(os.environ, FURROW_DATA_DIR=os.path.join(work, "data"))
+for name, size, screen in (("landscape", "1280x800", "1280x800x24"), ("portrait", "800x1280", "800x1280x24")):
+    png = os.path.join(work, f"record_{name}.png")
+    p = subprocess.run(["xvfb-run", "-a", "-s", f"-screen 0 {screen} -noreset", furrow, "field", "--db", db,
+                        "--observer", "Check", "--size", size, "--screenshot", png], capture_output=True, env=env,
+                       timeout=120)
+    check(p.returncode == 0 and os.path.exists(png), f"{name}: the app drew and saved a screenshot ({p.stderr[-300:]!r})")
+    if not os.path.exists(png):
+        continue
+    w, h, rows = read_png(png)
+    check(f"{w}x{h}" == size, f"{name}: the window is {size} (got {w}x{h})")
+    colours, dark = set(), 0
+    for y in range(0, h, 2):
+        row = rows[y]
+        for x in range(0, w * 4, 8):
+            px = row[x:x + 3]
+            colours.add(px)
+            dark += sum(px) < 150
+    sampled = (h // 2) * (w // 2)
+    check(len(colours) > 20, f"{name}: not blank ({len(colours)} colours)")
+    check(0.02 < dark / sampled < 0.6, f"{name}: dark text and keys on a light background ({dark / sampled:.3f})")
+    print(f"{name}: {png}")
+check.finish()
