@@ -17,22 +17,6 @@ constexpr double kIdleWaitSeconds = 10.0;
 // Frames drawn before a screenshot, so that fonts and layout have settled.
 constexpr int kScreenshotFrames = 3;
 
-void apply(const RecordCommand& c, RecordSession& s, RecordScreenState& ui) {
-  auto show_status = [&](const Status& st, const std::string& done) {
-    ui.banner = st ? done : st.problem().message;
-    ui.tone = st ? RecordScreenState::Tone::saved : RecordScreenState::Tone::refuse;
-  };
-  switch (c.kind) {
-    case RecordCommand::Kind::enter: show_outcome(s.enter(c.text), &ui); break;
-    case RecordCommand::Kind::confirm: show_outcome(s.confirm(), &ui); break;
-    case RecordCommand::Kind::skip: show_status(s.skip(c.text, ""), "skipped: " + c.text); break;
-    case RecordCommand::Kind::next: s.next(); ui.tone = RecordScreenState::Tone::none; break;
-    case RecordCommand::Kind::previous: s.previous(); ui.tone = RecordScreenState::Tone::none; break;
-    case RecordCommand::Kind::jump: show_status(s.jump_to(c.text), "plot " + c.text); break;
-    case RecordCommand::Kind::undo: show_status(s.undo(), "the last entry was undone (a new log row)"); break;
-  }
-}
-
 }  // namespace
 
 int run_field_app(const FieldAppOptions& o) {
@@ -63,7 +47,7 @@ int run_field_app(const FieldAppOptions& o) {
   while (!(*window)->should_close()) {
     (*window)->begin_frame(o.screenshot.empty() && frames > 1 ? kIdleWaitSeconds : 0.0);
     for (const RecordCommand& c : draw_record_screen(session->view(), theme, (*window)->scale(), &ui))
-      apply(c, *session, ui);
+      apply_record_command(c, *session, &ui);
     (*window)->end_frame(theme.background.r, theme.background.g, theme.background.b);
     if (!o.screenshot.empty() && ++frames >= kScreenshotFrames) {
       if (auto s = (*window)->save_screenshot(o.screenshot); !s) {

@@ -10,13 +10,19 @@ ImVec4 colour(const Rgb& c) { return ImVec4(c.r, c.g, c.b, 1.0f); }
 // Keypad keys are larger than the minimum: gloves and one free hand.
 constexpr float kKeyPx = 72.0f;
 
-bool big_button(const char* label, float width, float height, const Rgb& bg, const Rgb& fg) {
+void note_target(const char* label, RecordScreenState* st) {
+  const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
+  st->targets.push_back({label, a.x, a.y, b.x, b.y});
+}
+
+bool big_button(const char* label, float width, float height, const Rgb& bg, const Rgb& fg, RecordScreenState* st) {
   ImGui::PushStyleColor(ImGuiCol_Button, colour(bg));
   ImGui::PushStyleColor(ImGuiCol_ButtonHovered, colour(bg));
   ImGui::PushStyleColor(ImGuiCol_ButtonActive, colour(bg));
   ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
   const bool pressed = ImGui::Button(label, ImVec2(width, height));
   ImGui::PopStyleColor(4);
+  note_target(label, st);
   return pressed;
 }
 
@@ -31,9 +37,26 @@ void show_outcome(const EntryOutcome& outcome, RecordScreenState* state) {
   }
 }
 
+void apply_record_command(const RecordCommand& c, RecordSession& s, RecordScreenState* ui) {
+  auto show_status = [&](const Status& st, const std::string& done) {
+    ui->banner = st ? done : st.problem().message;
+    ui->tone = st ? RecordScreenState::Tone::saved : RecordScreenState::Tone::refuse;
+  };
+  switch (c.kind) {
+    case RecordCommand::Kind::enter: show_outcome(s.enter(c.text), ui); break;
+    case RecordCommand::Kind::confirm: show_outcome(s.confirm(), ui); break;
+    case RecordCommand::Kind::skip: show_status(s.skip(c.text, ""), "skipped: " + c.text); break;
+    case RecordCommand::Kind::next: s.next(); ui->tone = RecordScreenState::Tone::none; break;
+    case RecordCommand::Kind::previous: s.previous(); ui->tone = RecordScreenState::Tone::none; break;
+    case RecordCommand::Kind::jump: show_status(s.jump_to(c.text), "plot " + c.text); break;
+    case RecordCommand::Kind::undo: show_status(s.undo(), "the last entry was undone (a new log row)"); break;
+  }
+}
+
 std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& theme, float scale,
                                               RecordScreenState* st) {
   std::vector<RecordCommand> out;
+  st->targets.clear();
   const ImGuiViewport* vp = ImGui::GetMainViewport();
   ImGui::SetNextWindowPos(vp->WorkPos);
   ImGui::SetNextWindowSize(vp->WorkSize);
@@ -85,7 +108,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
     ImGui::PopTextWrapPos();
     if (st->tone == RecordScreenState::Tone::confirm && v.has_pending) {
       ImGui::SameLine(width - 5.5f * target);
-      if (big_button("Confirm value", 5 * target, 1.5f * target, theme.button, theme.button_text))
+      if (big_button("Confirm value", 5 * target, 1.5f * target, theme.button, theme.button_text, st))
         out.push_back({RecordCommand::Kind::confirm, {}});
     }
     ImGui::EndChild();
@@ -102,7 +125,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   for (auto& row : kKeys) {
     for (int c = 0; c < 3; ++c) {
       if (c) ImGui::SameLine();
-      if (big_button(row[c], key, key, theme.button, theme.button_text)) {
+      if (big_button(row[c], key, key, theme.button, theme.button_text, st)) {
         if (std::string(row[c]) == "Del") {
           if (!st->typed.empty()) st->typed.pop_back();
         } else {
@@ -111,7 +134,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
       }
     }
   }
-  if (big_button("Save", pad_width, key, theme.accent, theme.accent_text) && !st->typed.empty())
+  if (big_button("Save", pad_width, key, theme.accent, theme.accent_text, st) && !st->typed.empty())
     out.push_back({RecordCommand::Kind::enter, st->typed});
   ImGui::EndGroup();
 
@@ -119,20 +142,20 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   if (!portrait) ImGui::SameLine(0, 2 * target);
   ImGui::BeginGroup();
   const float cmd = 4.5f * target;
-  if (big_button("Previous plot", cmd, target * 1.3f, theme.button, theme.button_text))
+  if (big_button("Previous plot", cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::previous, {}});
   ImGui::SameLine();
-  if (big_button("Next plot", cmd, target * 1.3f, theme.button, theme.button_text))
+  if (big_button("Next plot", cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::next, {}});
-  if (big_button("Undo last entry", cmd, target * 1.3f, theme.button, theme.button_text))
+  if (big_button("Undo last entry", cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::undo, {}});
   ImGui::SameLine();
-  if (big_button("Skip plot...", cmd, target * 1.3f, theme.button, theme.button_text))
+  if (big_button("Skip plot...", cmd, target * 1.3f, theme.button, theme.button_text, st))
     st->choosing_skip_reason = !st->choosing_skip_reason;
   if (st->choosing_skip_reason) {
     for (const std::string& reason : kSkipReasons) {
       if (reason == "other") continue;   // needs a note: typed on the keyboard screen later
-      if (big_button(reason.c_str(), cmd, target, theme.panel, theme.text)) {
+      if (big_button(reason.c_str(), cmd, target, theme.panel, theme.text, st)) {
         out.push_back({RecordCommand::Kind::skip, reason});
         st->choosing_skip_reason = false;
       }
@@ -142,13 +165,16 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   ImGui::SetNextItemWidth(cmd);
   ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
   ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, (target - ImGui::GetFontSize()) / 2));
-  if (ImGui::InputText("##jump", st->jump_label, sizeof st->jump_label, ImGuiInputTextFlags_EnterReturnsTrue)) {
+  const bool jump_entered =
+      ImGui::InputText("##jump", st->jump_label, sizeof st->jump_label, ImGuiInputTextFlags_EnterReturnsTrue);
+  note_target("plot label", st);
+  if (jump_entered) {
     out.push_back({RecordCommand::Kind::jump, st->jump_label});
     st->jump_label[0] = 0;
   }
   ImGui::PopStyleVar(2);
   ImGui::SameLine();
-  if (big_button("Go", 2 * target, target, theme.button, theme.button_text) && st->jump_label[0]) {
+  if (big_button("Go", 2 * target, target, theme.button, theme.button_text, st) && st->jump_label[0]) {
     out.push_back({RecordCommand::Kind::jump, st->jump_label});
     st->jump_label[0] = 0;
   }

@@ -17,12 +17,20 @@ struct RecordCommand {
 };
 
 // What the screen itself keeps between frames (typed text, banner).
+// Where each tappable item was drawn in the last frame (screen pixels), so
+// that tests can tap them and measure their size.
+struct TapTarget {
+  std::string label;
+  float x0 = 0, y0 = 0, x1 = 0, y1 = 0;
+};
+
 struct RecordScreenState {
   std::string typed;
   std::string banner;
   enum class Tone { none, saved, confirm, refuse } tone = Tone::none;
   bool choosing_skip_reason = false;
   char jump_label[64] = {};
+  std::vector<TapTarget> targets;   // rebuilt every frame
 };
 
 // Minimum size of anything a finger taps, in pixels at scale 1 (Material
@@ -34,5 +42,8 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& view, const Them
 
 // Shows a command's outcome in the banner.
 void show_outcome(const EntryOutcome& outcome, RecordScreenState* state);
+
+// Carries out one command on the session and shows its outcome.
+void apply_record_command(const RecordCommand& command, RecordSession& session, RecordScreenState* state);
 
 }  // namespace furrow
