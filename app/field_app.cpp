@@ -4,6 +4,9 @@
 
 #include "app/record_session.h"
 #include "app/screens/record_screen.h"
+#include "app/screens/settings_screen.h"
+
+#include <imgui.h>
 #include "app/settings.h"
 #include "platform/app_window.h"
 #include "platform/data_folder.h"
@@ -29,6 +32,7 @@ int run_field_app(const FieldAppOptions& o) {
     else std::cerr << loaded.problem().message << " (using the defaults)\n";
   }
   const std::string observer = o.observer.empty() ? settings.observer : o.observer;
+  if (settings.observer.empty()) settings.observer = observer;
   auto session = RecordSession::open(o.db, observer);
   if (!session) {
     std::cerr << o.db << ": " << session.problem().message << "\n";
@@ -41,14 +45,54 @@ int run_field_app(const FieldAppOptions& o) {
     std::cerr << window.problem().message << "\n";
     return 1;
   }
-  const Theme theme = make_theme(settings.theme);
-  RecordScreenState ui;
+  Theme theme = make_theme(settings.theme);
+  RecordScreenState record_ui;
+  SettingsScreenState settings_ui;
+  enum class Screen { record, settings } screen = o.start_on_settings ? Screen::settings : Screen::record;
   int frames = 0;
   while (!(*window)->should_close()) {
     (*window)->begin_frame(o.screenshot.empty() && frames > 1 ? kIdleWaitSeconds : 0.0);
-    for (const RecordCommand& c : draw_record_screen(session->view(), theme, (*window)->scale(), &ui))
-      apply_record_command(c, *session, &ui);
+    const float scale = (*window)->scale();
+    const float bar = kTouchTargetPx * scale * 1.4f;
+    // Navigation bar: one tap to each screen.
+    const ImGuiViewport* vp = ImGui::GetMainViewport();
+    ImGui::SetNextWindowPos(vp->WorkPos);
+    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, bar + 2 * ImGui::GetStyle().WindowPadding.y));
+    ImGui::PushStyleColor(ImGuiCol_WindowBg, ImVec4(theme.panel.r, theme.panel.g, theme.panel.b, 1));
+    ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove);
+    const struct { const char* label; Screen s; } tabs[] = {{"Record", Screen::record}, {"Settings", Screen::settings}};
+    for (size_t i = 0; i < 2; ++i) {
+      if (i) ImGui::SameLine();
+      const Rgb bg = screen == tabs[i].s ? theme.accent : theme.background;
+      const Rgb fg = screen == tabs[i].s ? theme.accent_text : theme.text;
+      ImGui::PushStyleColor(ImGuiCol_Button, ImVec4(bg.r, bg.g, bg.b, 1));
+      ImGui::PushStyleColor(ImGuiCol_ButtonHovered, ImVec4(bg.r, bg.g, bg.b, 1));
+      ImGui::PushStyleColor(ImGuiCol_ButtonActive, ImVec4(bg.r, bg.g, bg.b, 1));
+      ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(fg.r, fg.g, fg.b, 1));
+      if (ImGui::Button(tabs[i].label, ImVec2(4 * kTouchTargetPx * scale, bar))) screen = tabs[i].s;
+      ImGui::PopStyleColor(4);
+    }
+    ImGui::End();
+    ImGui::PopStyleColor();
+    const float top = bar + 2 * ImGui::GetStyle().WindowPadding.y;
+    std::optional<Settings> changed;
+    if (screen == Screen::record) {
+      for (const RecordCommand& c : draw_record_screen(session->view(), theme, scale, &record_ui, top))
+        apply_record_command(c, *session, &record_ui);
+    } else {
+      changed = draw_settings_screen(settings, theme, scale, top, &settings_ui);
+    }
     (*window)->end_frame(theme.background.r, theme.background.g, theme.background.b);
+    if (changed) {
+      const bool rescale = changed->ui_scale != settings.ui_scale;
+      settings = *changed;
+      theme = make_theme(settings.theme);
+      session->set_blind(settings.blind_scoring);
+      if (!settings.observer.empty()) session->set_observer(settings.observer);
+      if (!settings_path.empty())
+        if (auto s = save_settings(settings_path, settings); !s) std::cerr << s.problem().message << "\n";
+      if (rescale) (*window)->set_ui_scale(static_cast<float>(settings.ui_scale));
+    }
     if (!o.screenshot.empty() && ++frames >= kScreenshotFrames) {
       if (auto s = (*window)->save_screenshot(o.screenshot); !s) {
         std::cerr << s.problem().message << "\n";

@@ -10,6 +10,7 @@ struct FieldAppOptions {
   std::string observer;         // overrides the saved setting
   std::string screenshot;       // when set: draw a few frames, write this PNG, exit
   int width = 1280, height = 800;
+  bool start_on_settings = false;   // for screenshots of the Settings screen
 };
 
 int run_field_app(const FieldAppOptions& options);

@@ -61,6 +61,8 @@ class RecordSession {
   void set_trait(size_t index);
   void set_walk(WalkMode mode) { walk_ = mode; }
   void set_blind(bool blind) { blind_ = blind; }
+  // Who is measuring from now on. Precondition: not empty.
+  void set_observer(const std::string& observer) { observer_ = observer; }
 
   RecordSession(RecordSession&&) = default;
 

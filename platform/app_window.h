@@ -26,6 +26,8 @@ class AppWindow {
   // Writes the last rendered frame as PNG (call after end_frame).
   Status save_screenshot(const std::string& path) const;
   float scale() const { return scale_; }
+  // Rebuilds fonts and sizes for a new UI scale. Call between frames.
+  void set_ui_scale(float ui_scale);
   // Fonts in the atlas: 0 normal, 1 large (1.5x), 2 huge (2.2x), rendered at
   // their own sizes so that large text stays sharp.
   static constexpr int kFontNormal = 0, kFontLarge = 1, kFontHuge = 2;
@@ -35,6 +37,7 @@ class AppWindow {
   struct Impl;
   std::unique_ptr<Impl> impl_;
   float scale_ = 1.0f;
+  float content_scale_ = 1.0f;
 };
 
 }  // namespace furrow

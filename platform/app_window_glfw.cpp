@@ -42,21 +42,32 @@ Result<std::unique_ptr<AppWindow>> AppWindow::create(const std::string& title, i
   out->impl_->window = w;
   float sx = 1, sy = 1;
   glfwGetWindowContentScale(w, &sx, &sy);
-  out->scale_ = sx * ui_scale;
+  out->content_scale_ = sx;
   IMGUI_CHECKVERSION();
   ImGui::CreateContext();
+  ImGui::GetIO().IniFilename = nullptr;
+  out->set_ui_scale(ui_scale);
+  ImGui_ImplGlfw_InitForOpenGL(w, true);
+  ImGui_ImplOpenGL3_Init("#version 330");
+  return out;
+}
+
+void AppWindow::set_ui_scale(float ui_scale) {
+  scale_ = content_scale_ * ui_scale;
   ImGuiIO& io = ImGui::GetIO();
-  io.IniFilename = nullptr;
+  io.Fonts->Clear();
   ImFontConfig config;
   config.FontDataOwnedByAtlas = false;
   for (float size : {1.0f, 1.5f, 2.2f})
     io.Fonts->AddFontFromMemoryTTF(const_cast<unsigned char*>(furrow_font_ttf_begin),
                                    static_cast<int>(furrow_font_ttf_end - furrow_font_ttf_begin),
-                                   kBaseFontPx * size * out->scale_, &config);
-  ImGui::GetStyle().ScaleAllSizes(out->scale_);
-  ImGui_ImplGlfw_InitForOpenGL(w, true);
-  ImGui_ImplOpenGL3_Init("#version 330");
-  return out;
+                                   kBaseFontPx * size * scale_, &config);
+  ImGui::GetStyle() = ImGuiStyle();
+  ImGui::GetStyle().ScaleAllSizes(scale_);
+  if (ImGui::GetIO().BackendRendererUserData) {
+    ImGui_ImplOpenGL3_DestroyFontsTexture();
+    ImGui_ImplOpenGL3_CreateFontsTexture();
+  }
 }
 
 AppWindow::~AppWindow() {

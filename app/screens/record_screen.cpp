@@ -54,12 +54,12 @@ void apply_record_command(const RecordCommand& c, RecordSession& s, RecordScreen
 }
 
 std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& theme, float scale,
-                                              RecordScreenState* st) {
+                                              RecordScreenState* st, float top_px) {
   std::vector<RecordCommand> out;
   st->targets.clear();
   const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(vp->WorkPos);
-  ImGui::SetNextWindowSize(vp->WorkSize);
+  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
+  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
   ImGui::PushStyleColor(ImGuiCol_WindowBg, colour(theme.background));
   ImGui::PushStyleColor(ImGuiCol_Text, colour(theme.text));
   ImGui::PushStyleColor(ImGuiCol_FrameBg, colour(theme.panel));

@@ -37,8 +37,9 @@ struct RecordScreenState {
 // Design touch-target guideline: 48 dp; WCAG 2.1 SC 2.5.5 asks for 44 px).
 inline constexpr float kTouchTargetPx = 48.0f;
 
+// `top_px`: where the screen starts below the navigation bar.
 std::vector<RecordCommand> draw_record_screen(const RecordView& view, const Theme& theme, float scale,
-                                              RecordScreenState* state);
+                                              RecordScreenState* state, float top_px = 0.0f);
 
 // Shows a command's outcome in the banner.
 void show_outcome(const EntryOutcome& outcome, RecordScreenState* state);

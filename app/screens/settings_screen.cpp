@@ -1,0 +1,114 @@
+#include "app/screens/settings_screen.h"
+
+#include <imgui.h>
+
+#include <cmath>
+#include <cstdio>
+#include <cstring>
+
+namespace furrow {
+namespace {
+
+ImVec4 colour(const Rgb& c) { return ImVec4(c.r, c.g, c.b, 1.0f); }
+
+// A button that shows whether its choice is the current one.
+bool choice(const char* label, bool selected, float width, float height, const Theme& t, SettingsScreenState* st) {
+  const Rgb bg = selected ? t.accent : t.panel;
+  const Rgb fg = selected ? t.accent_text : t.text;
+  ImGui::PushStyleColor(ImGuiCol_Button, colour(bg));
+  ImGui::PushStyleColor(ImGuiCol_ButtonHovered, colour(bg));
+  ImGui::PushStyleColor(ImGuiCol_ButtonActive, colour(bg));
+  ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
+  ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f);
+  ImGui::PushStyleColor(ImGuiCol_Border, colour(t.text));
+  const bool pressed = ImGui::Button(label, ImVec2(width, height));
+  ImGui::PopStyleColor(5);
+  ImGui::PopStyleVar();
+  const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
+  st->targets.push_back({label, a.x, a.y, b.x, b.y});
+  return pressed;
+}
+
+// UI scale steps offered (a quarter step is visible, finer is not).
+constexpr double kScaleStep = 0.25;
+
+}  // namespace
+
+std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t, float scale, float top_px,
+                                             SettingsScreenState* st) {
+  st->targets.clear();
+  std::optional<Settings> changed;
+  Settings next = cur;
+  if (!st->observer_loaded) {
+    std::snprintf(st->observer, sizeof st->observer, "%s", cur.observer.c_str());
+    st->observer_loaded = true;
+  }
+  const ImGuiViewport* vp = ImGui::GetMainViewport();
+  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
+  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, colour(t.background));
+  ImGui::PushStyleColor(ImGuiCol_Text, colour(t.text));
+  ImGui::PushStyleColor(ImGuiCol_FrameBg, colour(t.panel));
+  ImGui::Begin("Settings", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
+                                        ImGuiWindowFlags_NoSavedSettings);
+  const float h = kTouchTargetPx * scale * 1.3f;
+  const float w = 4.5f * kTouchTargetPx * scale;
+
+  ImGui::Text("Observer (recorded with every value)");
+  ImGui::SetNextItemWidth(2 * w);
+  ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
+  ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, (h - ImGui::GetFontSize()) / 2));
+  ImGui::PushStyleColor(ImGuiCol_Border, colour(t.text));
+  if (ImGui::InputText("##observer", st->observer, sizeof st->observer)) {
+    next.observer = st->observer;
+    changed = next;
+  }
+  const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
+  st->targets.push_back({"observer", a.x, a.y, b.x, b.y});
+  ImGui::PopStyleColor();
+  ImGui::PopStyleVar(2);
+
+  ImGui::Text("Theme");
+  if (choice("Daylight", cur.theme == ThemeKind::daylight, w, h, t, st)) {
+    next.theme = ThemeKind::daylight;
+    changed = next;
+  }
+  ImGui::SameLine();
+  if (choice("Dark", cur.theme == ThemeKind::dark, w, h, t, st)) {
+    next.theme = ThemeKind::dark;
+    changed = next;
+  }
+
+  ImGui::Text("Size of text and buttons: %.0f %%", cur.ui_scale * 100);
+  if (choice("Smaller", false, w, h, t, st) && cur.ui_scale - kScaleStep >= kMinUiScale - 1e-9) {
+    next.ui_scale = cur.ui_scale - kScaleStep;
+    changed = next;
+  }
+  ImGui::SameLine();
+  if (choice("Larger", false, w, h, t, st) && cur.ui_scale + kScaleStep <= kMaxUiScale + 1e-9) {
+    next.ui_scale = cur.ui_scale + kScaleStep;
+    changed = next;
+  }
+
+  ImGui::Text("Significance level for LSD, HSD and letters");
+  for (double alpha : {0.10, 0.05, 0.01}) {
+    char label[16];
+    std::snprintf(label, sizeof label, "%.2f", alpha);
+    if (alpha != 0.10) ImGui::SameLine();
+    if (choice(label, std::abs(cur.alpha - alpha) < 1e-12, w * 0.6f, h, t, st)) {
+      next.alpha = alpha;
+      changed = next;
+    }
+  }
+
+  ImGui::Text("Blind scoring (treatment names hidden while collecting)");
+  if (choice(cur.blind_scoring ? "Blind scoring is on" : "Blind scoring is off", cur.blind_scoring, w, h, t, st)) {
+    next.blind_scoring = !cur.blind_scoring;
+    changed = next;
+  }
+  ImGui::End();
+  ImGui::PopStyleColor(3);
+  return changed;
+}
+
+}  // namespace furrow
