@@ -7,6 +7,7 @@
 
 #include "app/analysis_output.h"
 #include "app/entry_context.h"
+#include "app/trial_analysis.h"
 #include "core/analysis.h"
 #include "core/entry_checks.h"
 #include "storage/plan_file.h"
@@ -167,71 +168,12 @@ int run_analyze_db(const std::string& db_path, const std::string& trait_code, in
   size_t trait_index = 0;
   const Trait* trait = find_trait(t, trait_code, &trait_index);
   if (!trait) return fail(db_path, "trait '" + trait_code + "' is not measured in this trial");
-  if (trait->kind == TraitKind::text || trait->kind == TraitKind::category)
-    return fail(db_path, trait->code + " is not numeric; it cannot be analysed");
   auto live = live_observations(open->db, t.trait_ids[trait_index]);
   if (!live) return fail(db_path, live.problem().message);
-  std::map<std::int64_t, std::set<std::string>> values;
-  std::map<std::int64_t, std::string> number_text;
-  for (const auto& x : *live) {
-    if (x.occasion != occasion) continue;
-    values[x.plot_id].insert(x.value.value_or(""));
-    if (x.number) {
-      char buf[40];
-      std::snprintf(buf, sizeof buf, "%.17g", *x.number);
-      number_text[x.plot_id] = x.value && trait->kind != TraitKind::date ? *x.value : buf;
-    }
-  }
-  PlotTable table;
-  table.columns.push_back({"plot", {}});
-  table.columns.push_back({"site", {}});
-  table.columns.push_back({"block", {}});
-  table.columns.push_back({"field_row", {}});
-  table.columns.push_back({"field_column", {}});
-  for (const auto& f : t.plan.factors) table.columns.push_back({f.name, {}});
-  table.columns.push_back({trait->code, {}});
-  for (size_t i = 0; i < t.layout.plots.size(); ++i) {
-    const PlannedPlot& p = t.layout.plots[i];
-    table.columns[0].cells.push_back(p.label);
-    table.columns[1].cells.push_back(t.plan.sites.empty() ? std::string() : t.plan.sites[p.site]);
-    table.columns[2].cells.push_back(std::to_string(p.block));
-    table.columns[3].cells.push_back(std::to_string(p.row));
-    table.columns[4].cells.push_back(std::to_string(p.column));
-    for (size_t k = 0; k < p.levels.size(); ++k) table.columns[5 + k].cells.push_back(t.plan.factors[k].levels[p.levels[k]]);
-    const auto it = values.find(t.plot_ids[i]);
-    // Conflicting cells are left out of the analysis until they are settled.
-    const bool usable = it != values.end() && it->second.size() == 1 && number_text.count(t.plot_ids[i]);
-    table.columns.back().cells.push_back(usable ? number_text[t.plot_ids[i]] : "");
-  }
-  DesignRoles roles;
-  roles.kind = t.plan.design;
-  for (const auto& f : t.plan.factors) roles.treatments.push_back(f.name);
-  switch (t.plan.design) {
-    case DesignKind::randomised_complete_block:
-    case DesignKind::factorial:
-      roles.block = "block";
-      break;
-    case DesignKind::latin_square:
-      roles.row = "field_row";
-      roles.column = "field_column";
-      break;
-    case DesignKind::split_plot:
-      roles.block = "block";
-      roles.main_plot = t.plan.factors[0].name;
-      roles.sub_plot = t.plan.factors[1].name;
-      roles.treatments.clear();
-      break;
-    case DesignKind::multi_site:
-      roles.site = "site";
-      roles.block = "block";
-      break;
-    default:
-      break;
-  }
   AnalysisOptions options;
   options.alpha = alpha;
   options.sums = sums == "sequential" ? SumsKind::sequential : SumsKind::partial;
-  auto a = analyse(table, roles, trait->code, options);
+  auto a = analyse_trial_trait(t, *live, trait_index, occasion, options);
   if (!a) {
     std::string where = db_path;
     if (a.problem().record >= 0) where += ": plot " + t.layout.plots[a.problem().record].label;

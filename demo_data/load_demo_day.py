@@ -4,7 +4,7 @@
 Creates DB from the plan file, then records, through `furrow record` as a crew
 would, the first day's walk: stand count and plant height on every plot and
 days to heading on blocks 1 and 2. Plot 214 (flooded) is recorded as missing;
-the hurried crew confirmed the height 9.8 on plot 307 (a decimal slip the
+the hurried crew confirmed the height 8.3 (for 83 cm) on plot 307 (a decimal slip the
 analysis then lists as an outlier plot).
 
 usage: load_demo_day.py FURROW PLAN_FILE DATA_CSV DB

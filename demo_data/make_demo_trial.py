@@ -6,7 +6,7 @@ sown 2026-04-22; 20 entries in 4 randomised complete blocks laid as field rows
 of 20 plots; plot labels are block digit + plot number (101-420). Values are
 drawn from a fixed seed, then two realistic problems are planted:
   - plot 214 was flooded: no values were recorded for it;
-  - plot 307 has height 9.8, a decimal slip for 98 cm.
+  - plot 307's height was typed as a tenth of its value (a decimal slip).
 Run it again to get the same file byte for byte.
 """
 import random
@@ -44,7 +44,7 @@ def main(path):
             r[5:10] = ["", "", "", "", ""]
             r[10] = "flooded after storm 2026-06-03"
         if r[0] == "307":
-            r[6] = "9.8"
+            r[6] = f"{int(r[6]) / 10:.1f}"   # the decimal slip: a tenth of the measured height
     with open(path, "w", encoding="utf-8", newline="\n") as f:
         f.write("plot,block,field_row,field_column,entry,stand_count,height_cm,heading_days,"
                 "lodging_score,grain_yield_t_ha,note\n")

@@ -30,7 +30,7 @@ DEMO_ARGS = ["--csv", DEMO, "--design", "rcbd", "--block", "block", "--treatment
 code, out, err = run(*DEMO_ARGS, "--response", "height_cm,grain_yield_t_ha")
 check(code == 0, f"demo analysis exits 0 (got {code}: {err})")
 check("Interim analysis" in out, "the interim caution is printed")
-check("line 48: value 9.8" in out, "the decimal slip on plot 307 (file line 48) is an outlier")
+check("line 48: value 8.3" in out, "the decimal slip on plot 307 (file line 48) is an outlier")
 check("block 2 x entry Dunmore (line 35)" in out, "the flooded plot 214 is a missing cell")
 
 # 2. The JSON contract.
