@@ -5,6 +5,7 @@
 #include "app/record_session.h"
 #include "app/screens/record_screen.h"
 #include "app/screens/settings_screen.h"
+#include "app/screens/leaving_screen.h"
 
 #include <imgui.h>
 #include "app/settings.h"
@@ -48,7 +49,11 @@ int run_field_app(const FieldAppOptions& o) {
   Theme theme = make_theme(settings.theme);
   RecordScreenState record_ui;
   SettingsScreenState settings_ui;
-  enum class Screen { record, settings } screen = o.start_on_settings ? Screen::settings : Screen::record;
+  LeavingScreenState leaving_ui;
+  enum class Screen { record, leaving, settings } screen = o.start_screen == "settings" ? Screen::settings
+                                                           : o.start_screen == "leaving" ? Screen::leaving
+                                                                                        : Screen::record;
+  std::optional<BeforeLeaving> leaving;   // computed when the screen is opened
   int frames = 0;
   while (!(*window)->should_close()) {
     (*window)->begin_frame(o.screenshot.empty() && frames > 1 ? kIdleWaitSeconds : 0.0);
@@ -60,8 +65,9 @@ int run_field_app(const FieldAppOptions& o) {
     ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, bar + 2 * ImGui::GetStyle().WindowPadding.y));
     ImGui::PushStyleColor(ImGuiCol_WindowBg, ImVec4(theme.panel.r, theme.panel.g, theme.panel.b, 1));
     ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove);
-    const struct { const char* label; Screen s; } tabs[] = {{"Record", Screen::record}, {"Settings", Screen::settings}};
-    for (size_t i = 0; i < 2; ++i) {
+    const struct { const char* label; Screen s; } tabs[] = {
+        {"Record", Screen::record}, {"Before leaving", Screen::leaving}, {"Settings", Screen::settings}};
+    for (size_t i = 0; i < 3; ++i) {
       if (i) ImGui::SameLine();
       const Rgb bg = screen == tabs[i].s ? theme.accent : theme.background;
       const Rgb fg = screen == tabs[i].s ? theme.accent_text : theme.text;
@@ -69,7 +75,10 @@ int run_field_app(const FieldAppOptions& o) {
       ImGui::PushStyleColor(ImGuiCol_ButtonHovered, ImVec4(bg.r, bg.g, bg.b, 1));
       ImGui::PushStyleColor(ImGuiCol_ButtonActive, ImVec4(bg.r, bg.g, bg.b, 1));
       ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(fg.r, fg.g, fg.b, 1));
-      if (ImGui::Button(tabs[i].label, ImVec2(4 * kTouchTargetPx * scale, bar))) screen = tabs[i].s;
+      if (ImGui::Button(tabs[i].label, ImVec2(4 * kTouchTargetPx * scale, bar))) {
+        screen = tabs[i].s;
+        leaving.reset();
+      }
       ImGui::PopStyleColor(4);
     }
     ImGui::End();
@@ -79,6 +88,13 @@ int run_field_app(const FieldAppOptions& o) {
     if (screen == Screen::record) {
       for (const RecordCommand& c : draw_record_screen(session->view(), theme, scale, &record_ui, top))
         apply_record_command(c, *session, &record_ui);
+    } else if (screen == Screen::leaving) {
+      if (!leaving) leaving = session->before_leaving(settings.alpha);
+      if (auto item = draw_leaving_screen(*leaving, session->trial(), theme, scale, top, &leaving_ui)) {
+        session->set_trait(item->trait_index);
+        (void)session->jump_to(session->trial().layout.plots[item->plot_index].label);
+        screen = Screen::record;
+      }
     } else {
       changed = draw_settings_screen(settings, theme, scale, top, &settings_ui);
     }

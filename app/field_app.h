@@ -10,7 +10,7 @@ struct FieldAppOptions {
   std::string observer;         // overrides the saved setting
   std::string screenshot;       // when set: draw a few frames, write this PNG, exit
   int width = 1280, height = 800;
-  bool start_on_settings = false;   // for screenshots of the Settings screen
+  std::string start_screen = "record";   // record, leaving or settings (for screenshots)
 };
 
 int run_field_app(const FieldAppOptions& options);

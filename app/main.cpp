@@ -81,7 +81,7 @@ int main(int argc, char** argv) {
   field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
   field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
   std::string field_screen;
-  field->add_option("--screen", field_screen, "screen to open: record (default) or settings");
+  field->add_option("--screen", field_screen, "screen to open: record (default), leaving or settings");
 
   try {
     app.parse(argc, argv);
@@ -108,7 +108,7 @@ int main(int argc, char** argv) {
       std::cerr << "field: --size is WIDTHxHEIGHT, for example 800x1280\n";
       return 2;
     }
-    field_options.start_on_settings = field_screen == "settings";
+    if (!field_screen.empty()) field_options.start_screen = field_screen;
     return furrow::run_field_app(field_options);
   }
   if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);

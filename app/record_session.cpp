@@ -104,6 +104,10 @@ RecordView RecordSession::view() const {
   return v;
 }
 
+BeforeLeaving RecordSession::before_leaving(double alpha) const {
+  return furrow::before_leaving(open_.trial, live_, alpha);
+}
+
 EntryOutcome RecordSession::enter(const std::string& text) {
   pending_.reset();
   const StoredTrial& t = open_.trial;

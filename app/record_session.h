@@ -11,6 +11,7 @@
 #include <string>
 #include <vector>
 
+#include "app/before_leaving.h"
 #include "core/entry_checks.h"
 #include "storage/trial_store.h"
 
@@ -47,6 +48,8 @@ class RecordSession {
   static Result<RecordSession> open(const std::string& db_path, const std::string& observer);
 
   RecordView view() const;
+  // The Before leaving list from the session's current log.
+  BeforeLeaving before_leaving(double alpha) const;
   const StoredTrial& trial() const { return open_.trial; }
 
   // Commands.

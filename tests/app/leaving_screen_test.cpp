@@ -1,0 +1,103 @@
+// The Before leaving screen driven headlessly: a tap opens the item, a drag
+// scrolls the list without opening anything, every row is large enough.
+
+#include "app/screens/leaving_screen.h"
+
+#include <doctest/doctest.h>
+#include <imgui.h>
+
+namespace furrow {
+namespace {
+
+StoredTrial small_trial() {
+  StoredTrial t;
+  t.plan.traits.push_back(Trait{});
+  t.plan.traits[0].name = "plant height";
+  for (int i = 0; i < 30; ++i) {
+    PlannedPlot p;
+    p.label = std::to_string(101 + i);
+    t.layout.plots.push_back(p);
+  }
+  return t;
+}
+
+BeforeLeaving list_of(int n) {
+  BeforeLeaving b;
+  for (int i = 0; i < n; ++i)
+    b.items.push_back({i == 0 ? LeavingItem::Kind::outlier : LeavingItem::Kind::missing, static_cast<size_t>(i), 0, 1,
+                       "plot " + std::to_string(101 + i) + ", plant height"});
+  b.outliers = 1;
+  b.missing = n - 1;
+  return b;
+}
+
+struct Headless {
+  Headless(float w, float h) {
+    ImGui::CreateContext();
+    ImGuiIO& io = ImGui::GetIO();
+    io.IniFilename = nullptr;
+    io.DisplaySize = ImVec2(w, h);
+    io.DeltaTime = 1.0f / 60.0f;
+    unsigned char* px = nullptr;
+    int tw = 0, th = 0;
+    io.Fonts->GetTexDataAsRGBA32(&px, &tw, &th);
+    frame();
+  }
+  ~Headless() { ImGui::DestroyContext(); }
+  void frame() {
+    ImGui::NewFrame();
+    if (auto o = draw_leaving_screen(list, trial, theme, 1.0f, 0.0f, &state)) opened = o;
+    ImGui::Render();
+  }
+  StoredTrial trial = small_trial();
+  BeforeLeaving list = list_of(30);
+  Theme theme = make_theme(ThemeKind::daylight);
+  LeavingScreenState state;
+  std::optional<OpenItem> opened;
+};
+
+TEST_CASE("a tap on a row opens that plot and trait") {
+  Headless h(1280, 800);
+  const TapTarget& first = h.state.targets.at(0);
+  ImGuiIO& io = ImGui::GetIO();
+  io.MousePos = ImVec2((first.x0 + first.x1) / 2, (first.y0 + first.y1) / 2);
+  h.frame();
+  io.MouseDown[0] = true;
+  h.frame();
+  io.MouseDown[0] = false;
+  h.frame();
+  REQUIRE(h.opened.has_value());
+  CHECK(h.opened->plot_index == 0);
+}
+
+TEST_CASE("dragging the list scrolls it and opens nothing") {
+  Headless h(1280, 800);
+  const TapTarget& row = h.state.targets.at(5);
+  const float y_before = row.y0;
+  ImGuiIO& io = ImGui::GetIO();
+  io.MousePos = ImVec2((row.x0 + row.x1) / 2, (row.y0 + row.y1) / 2);
+  h.frame();
+  io.MouseDown[0] = true;
+  h.frame();
+  for (int i = 0; i < 10; ++i) {
+    io.MousePos.y -= 20;
+    h.frame();
+  }
+  io.MouseDown[0] = false;
+  h.frame();
+  h.frame();
+  CHECK_FALSE(h.opened.has_value());
+  CHECK(h.state.targets.at(5).y0 < y_before - 100);   // the list moved up with the finger
+}
+
+TEST_CASE("every row is at least 48 px high and wide") {
+  Headless h(800, 1280);
+  REQUIRE(h.state.targets.size() == 30);
+  for (const TapTarget& t : h.state.targets) {
+    CHECK(t.x1 - t.x0 >= kTouchTargetPx);
+    CHECK(t.y1 - t.y0 >= kTouchTargetPx);
+  }
+}
+
+}  // namespace
+}  // namespace furrow
