@@ -6,6 +6,7 @@
 #include "app/screens/record_screen.h"
 #include "app/screens/settings_screen.h"
 #include "app/screens/leaving_screen.h"
+#include "app/screens/help_screen.h"
 
 #include <imgui.h>
 #include "app/settings.h"
@@ -50,9 +51,10 @@ int run_field_app(const FieldAppOptions& o) {
   RecordScreenState record_ui;
   SettingsScreenState settings_ui;
   LeavingScreenState leaving_ui;
-  enum class Screen { record, leaving, settings } screen = o.start_screen == "settings" ? Screen::settings
-                                                           : o.start_screen == "leaving" ? Screen::leaving
-                                                                                        : Screen::record;
+  enum class Screen { record, leaving, settings, help } screen = o.start_screen == "settings" ? Screen::settings
+                                                                 : o.start_screen == "leaving"  ? Screen::leaving
+                                                                 : o.start_screen == "help"     ? Screen::help
+                                                                                                : Screen::record;
   std::optional<BeforeLeaving> leaving;   // computed when the screen is opened
   int frames = 0;
   while (!(*window)->should_close()) {
@@ -66,8 +68,9 @@ int run_field_app(const FieldAppOptions& o) {
     ImGui::PushStyleColor(ImGuiCol_WindowBg, ImVec4(theme.panel.r, theme.panel.g, theme.panel.b, 1));
     ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove);
     const struct { const char* label; Screen s; } tabs[] = {
-        {"Record", Screen::record}, {"Before leaving", Screen::leaving}, {"Settings", Screen::settings}};
-    for (size_t i = 0; i < 3; ++i) {
+        {"Record", Screen::record}, {"Before leaving", Screen::leaving}, {"Settings", Screen::settings},
+        {"Help", Screen::help}};
+    for (size_t i = 0; i < 4; ++i) {
       if (i) ImGui::SameLine();
       const Rgb bg = screen == tabs[i].s ? theme.accent : theme.background;
       const Rgb fg = screen == tabs[i].s ? theme.accent_text : theme.text;
@@ -75,7 +78,7 @@ int run_field_app(const FieldAppOptions& o) {
       ImGui::PushStyleColor(ImGuiCol_ButtonHovered, ImVec4(bg.r, bg.g, bg.b, 1));
       ImGui::PushStyleColor(ImGuiCol_ButtonActive, ImVec4(bg.r, bg.g, bg.b, 1));
       ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(fg.r, fg.g, fg.b, 1));
-      if (ImGui::Button(tabs[i].label, ImVec2(4 * kTouchTargetPx * scale, bar))) {
+      if (ImGui::Button(tabs[i].label, ImVec2(3.6f * kTouchTargetPx * scale, bar))) {
         screen = tabs[i].s;
         leaving.reset();
       }
@@ -95,6 +98,8 @@ int run_field_app(const FieldAppOptions& o) {
         (void)session->jump_to(session->trial().layout.plots[item->plot_index].label);
         screen = Screen::record;
       }
+    } else if (screen == Screen::help) {
+      draw_help_screen(theme, top);
     } else {
       changed = draw_settings_screen(settings, theme, scale, top, &settings_ui);
     }

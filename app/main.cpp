@@ -81,7 +81,7 @@ int main(int argc, char** argv) {
   field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
   field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
   std::string field_screen;
-  field->add_option("--screen", field_screen, "screen to open: record (default), leaving or settings");
+  field->add_option("--screen", field_screen, "screen to open: record (default), leaving, settings or help");
 
   try {
     app.parse(argc, argv);

@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """Under Xvfb with Mesa: start the real field app on the demo trial in a
 landscape (1280x800) and a portrait (800x1280) window, take a screenshot of
-the Record, Before leaving and Settings screens, and check that each is drawn: not one flat colour, with
+the Record, Before leaving, Settings and Help screens, and check that each is drawn: not one flat colour, with
 dark text on the light daylight background.
 
 usage: screenshot_test.py FURROW SOURCE_DIR WORK_DIR
@@ -67,7 +67,7 @@ subprocess.run(["/usr/bin/python3", os.path.join(src, "demo_data", "load_demo_da
                 os.path.join(src, "demo_data", "harrow_ridge_oats_2026.csv"), db], check=True, capture_output=True)
 env = dict(os.environ, FURROW_DATA_DIR=os.path.join(work, "data"))
 shots = [(f"{view}_{shape}", size, screen, view)
-         for view in ("record", "leaving", "settings")
+         for view in ("record", "leaving", "settings", "help")
          for shape, size, screen in (("landscape", "1280x800", "1280x800x24"), ("portrait", "800x1280", "800x1280x24"))]
 for name, size, screen, view in shots:
     png = os.path.join(work, f"{name}.png")

@@ -1,0 +1,46 @@
+#include "app/screens/help_screen.h"
+
+#include <imgui.h>
+#include <imgui_internal.h>
+
+#include "core/analysis.h"
+
+namespace furrow {
+
+void draw_help_screen(const Theme& t, float top_px) {
+  const ImGuiViewport* vp = ImGui::GetMainViewport();
+  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
+  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, ImVec4(t.background.r, t.background.g, t.background.b, 1));
+  ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(t.text.r, t.text.g, t.text.b, 1));
+  ImGui::Begin("Help", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings);
+  if (ImGui::IsWindowHovered(ImGuiHoveredFlags_AllowWhenBlockedByActiveItem) && ImGui::IsMouseDragging(0, 12.0f))
+    ImGui::SetScrollY(ImGui::GetScrollY() - ImGui::GetIO().MouseDelta.y);   // lists scroll by dragging
+  ImGui::PushStyleColor(ImGuiCol_ChildBg, ImVec4(t.confirm.r, t.confirm.g, t.confirm.b, 1));
+  ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(t.confirm_text.r, t.confirm_text.g, t.confirm_text.b, 1));
+  ImGui::BeginChild("safety", ImVec2(0, ImGui::GetTextLineHeightWithSpacing() * 4), false);
+  ImGui::TextWrapped("%s", kFieldSafetyNote);
+  ImGui::EndChild();
+  ImGui::PopStyleColor(2);
+  ImGui::Spacing();
+  ImGui::TextWrapped(
+      "Record: the screen shows one plot at a time in the walking order. Type the value on the keypad (or a "
+      "keyboard) and tap Save. Furrow checks it against the plan before saving; \"saved\" appears only after the "
+      "value is on disk.");
+  ImGui::TextWrapped(
+      "Red banner: the value cannot be right (outside the possible range, too many decimals, not on the scale) and "
+      "was not saved. Yellow banner: the value is possible but unusual (outside the usual range, a likely decimal "
+      "slip, far from what the plot's block and treatment suggest): re-measure, or tap Confirm value if it is right.");
+  ImGui::TextWrapped(
+      "Skip plot records why a plot has no value (damaged, plants missing, flooded, not emerged). Undo last entry "
+      "writes a new record that restores the value before it; nothing is ever overwritten. Go to plot takes a typed "
+      "or scanned stake label.");
+  ImGui::TextWrapped(
+      "Before leaving lists what to fix while still in the field: conflicts between devices, outlier plots, values "
+      "to check and values not yet recorded. Tap a line to open that plot.");
+  ImGui::TextWrapped("%s", kInterimCaution);
+  ImGui::End();
+  ImGui::PopStyleColor(2);
+}
+
+}  // namespace furrow
