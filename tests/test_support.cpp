@@ -6,6 +6,9 @@
 #include <sstream>
 
 #include "storage/csv_table.h"
+#include "storage/plan_file.h"
+
+#include <filesystem>
 
 namespace furrow::test {
 
@@ -34,6 +37,18 @@ DesignRoles rcbd_roles() {
   r.block = "block";
   r.treatments = {"gen"};
   return r;
+}
+
+std::string fresh_demo_trial(const std::string& name) {
+  const auto dir = std::filesystem::temp_directory_path() / "furrow_tests";
+  std::filesystem::create_directories(dir);
+  const std::string path = (dir / name).string();
+  for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
+  auto plan = read_plan_file(std::string(FURROW_SOURCE_DIR) + "/demo_data/harrow_ridge_oats_2026.plan.csv");
+  REQUIRE_MESSAGE(plan.ok(), plan.problem().message);
+  REQUIRE(plan->layout.has_value());
+  REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
+  return path;
 }
 
 const AnovaRow& row(const Analysis& a, const std::string& source) {

@@ -31,6 +31,10 @@ inline bool close_rel(double x, double c, double rel, double abs_floor = 0.0) {
 PlotTable clewer();
 DesignRoles rcbd_roles();
 
+// A new trial database made from the demo plan file, in a temporary folder
+// (any earlier file of that name is removed first). Returns its path.
+std::string fresh_demo_trial(const std::string& name);
+
 const AnovaRow& row(const Analysis& a, const std::string& source);   // fails the test when absent
 
 }  // namespace furrow::test

@@ -6,6 +6,8 @@
 #include <doctest/doctest.h>
 #include <imgui.h>
 
+#include "tests/app/headless_imgui.h"
+
 namespace furrow {
 namespace {
 
@@ -32,40 +34,23 @@ BeforeLeaving list_of(int n) {
 }
 
 struct Headless {
-  Headless(float w, float h) {
-    ImGui::CreateContext();
-    ImGuiIO& io = ImGui::GetIO();
-    io.IniFilename = nullptr;
-    io.DisplaySize = ImVec2(w, h);
-    io.DeltaTime = 1.0f / 60.0f;
-    unsigned char* px = nullptr;
-    int tw = 0, th = 0;
-    io.Fonts->GetTexDataAsRGBA32(&px, &tw, &th);
-    frame();
-  }
-  ~Headless() { ImGui::DestroyContext(); }
-  void frame() {
-    ImGui::NewFrame();
+  Headless(float w, float h) : ui(w, h, [this] {
     if (auto o = draw_leaving_screen(list, trial, theme, 1.0f, 0.0f, &state)) opened = o;
-    ImGui::Render();
+  }) {
+    ui.frame();
   }
+  void frame() { ui.frame(); }
   StoredTrial trial = small_trial();
   BeforeLeaving list = list_of(30);
   Theme theme = make_theme(ThemeKind::daylight);
   LeavingScreenState state;
   std::optional<OpenItem> opened;
+  test::HeadlessImGui ui;
 };
 
 TEST_CASE("a tap on a row opens that plot and trait") {
   Headless h(1280, 800);
-  const TapTarget& first = h.state.targets.at(0);
-  ImGuiIO& io = ImGui::GetIO();
-  io.MousePos = ImVec2((first.x0 + first.x1) / 2, (first.y0 + first.y1) / 2);
-  h.frame();
-  io.MouseDown[0] = true;
-  h.frame();
-  io.MouseDown[0] = false;
-  h.frame();
+  h.ui.tap(h.state.targets.at(0));
   REQUIRE(h.opened.has_value());
   CHECK(h.opened->plot_index == 0);
 }

@@ -5,7 +5,11 @@
 #include "app/screens/record_screen.h"
 
 #include <doctest/doctest.h>
+
+#include "tests/test_support.h"
 #include <imgui.h>
+
+#include "tests/app/headless_imgui.h"
 
 #include <filesystem>
 
@@ -18,39 +22,34 @@ constexpr int kEnterKey = 257;   // any free index; mapped to ImGuiKey_Enter bel
 
 class HeadlessScreen {
  public:
-  HeadlessScreen(RecordSession* session, float width, float height) : session_(session) {
-    ImGui::CreateContext();
-    ImGuiIO& io = ImGui::GetIO();
-    io.IniFilename = nullptr;
-    io.DisplaySize = ImVec2(width, height);
-    io.DeltaTime = 1.0f / 60.0f;
-    io.KeyMap[ImGuiKey_Enter] = kEnterKey;
-    unsigned char* pixels = nullptr;
-    int w = 0, h = 0;
-    io.Fonts->GetTexDataAsRGBA32(&pixels, &w, &h);
+  HeadlessScreen(RecordSession* session, float width, float height)
+      : session_(session), ui_(width, height, [this] {
+          const auto commands = draw_record_screen(session_->view(), theme_, 1.0f, &state_);
+          pending_.insert(pending_.end(), commands.begin(), commands.end());
+        }) {
+    ImGui::GetIO().KeyMap[ImGuiKey_Enter] = kEnterKey;
     frame();
   }
-  ~HeadlessScreen() { ImGui::DestroyContext(); }
 
+  // One frame, then the commands it produced, as the field app applies them.
   void frame() {
-    ImGui::NewFrame();
-    const auto commands = draw_record_screen(session_->view(), theme_, 1.0f, &state_);
-    ImGui::Render();
-    for (const RecordCommand& c : commands) apply_record_command(c, *session_, &state_);
+    ui_.frame();
+    for (const RecordCommand& c : pending_) apply_record_command(c, *session_, &state_);
+    pending_.clear();
   }
 
-  // A finger: down and up on the centre of the item with this label.
   void tap(const std::string& label) {
-    const TapTarget* t = find(label);
+    const TapTarget* t = test::find_target(state_.targets, label);
     REQUIRE_MESSAGE(t != nullptr, "no item '" << label << "' on the screen");
+    const TapTarget target = *t;
     ImGuiIO& io = ImGui::GetIO();
-    io.MousePos = ImVec2((t->x0 + t->x1) / 2, (t->y0 + t->y1) / 2);
+    io.MousePos = ImVec2((target.x0 + target.x1) / 2, (target.y0 + target.y1) / 2);
     frame();
     io.MouseDown[0] = true;
     frame();
     io.MouseDown[0] = false;
     frame();
-    frame();   // the frame that shows the outcome, as the app draws it
+    frame();
   }
 
   void type(const std::string& text) {
@@ -67,29 +66,15 @@ class HeadlessScreen {
     frame();
   }
 
-  const TapTarget* find(const std::string& label) const {
-    for (const TapTarget& t : state_.targets)
-      if (t.label == label) return &t;
-    return nullptr;
-  }
   const RecordScreenState& state() const { return state_; }
 
  private:
   RecordSession* session_;
   Theme theme_ = make_theme(ThemeKind::daylight);
   RecordScreenState state_;
+  std::vector<RecordCommand> pending_;
+  test::HeadlessImGui ui_;
 };
-
-std::string fresh_trial(const std::string& name) {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_screen_test";
-  std::filesystem::create_directories(dir);
-  const std::string path = (dir / name).string();
-  for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
-  auto plan = read_plan_file(std::string(FURROW_SOURCE_DIR) + "/demo_data/harrow_ridge_oats_2026.plan.csv");
-  REQUIRE(plan.ok());
-  REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
-  return path;
-}
 
 std::optional<std::string> stored(const std::string& db, const std::string& label, size_t trait) {
   auto open = open_trial_database(db);
@@ -106,7 +91,7 @@ std::optional<std::string> stored(const std::string& db, const std::string& labe
 }
 
 TEST_CASE("repeated taps on one key all count") {
-  const std::string db = fresh_trial("repeat.furrow");
+  const std::string db = test::fresh_demo_trial("repeat.furrow");
   auto session = RecordSession::open(db, "Ana");
   REQUIRE(session.ok());
   HeadlessScreen screen(&*session, 1280, 800);
@@ -120,7 +105,7 @@ TEST_CASE("repeated taps on one key all count") {
 }
 
 TEST_CASE("keypad taps enter a value that is then in the database") {
-  const std::string db = fresh_trial("keypad.furrow");
+  const std::string db = test::fresh_demo_trial("keypad.furrow");
   auto session = RecordSession::open(db, "Ana");
   REQUIRE(session.ok());
   session->set_trait(1);   // plant height
@@ -135,7 +120,7 @@ TEST_CASE("keypad taps enter a value that is then in the database") {
 }
 
 TEST_CASE("a refused value shows the banner and saves nothing; a soft-limit value is saved after Confirm") {
-  const std::string db = fresh_trial("banner.furrow");
+  const std::string db = test::fresh_demo_trial("banner.furrow");
   auto session = RecordSession::open(db, "Ana");
   REQUIRE(session.ok());
   session->set_trait(1);
@@ -156,7 +141,7 @@ TEST_CASE("a refused value shows the banner and saves nothing; a soft-limit valu
 }
 
 TEST_CASE("skip with a reason, jump by a typed label with Enter, undo") {
-  const std::string db = fresh_trial("skip_jump.furrow");
+  const std::string db = test::fresh_demo_trial("skip_jump.furrow");
   auto session = RecordSession::open(db, "Ana");
   REQUIRE(session.ok());
   HeadlessScreen screen(&*session, 800, 1280);   // portrait
@@ -177,7 +162,7 @@ TEST_CASE("skip with a reason, jump by a typed label with Enter, undo") {
 }
 
 TEST_CASE("every tappable item is at least 48 px in both directions at scale 1 (Material Design touch target)") {
-  const std::string db = fresh_trial("sizes.furrow");
+  const std::string db = test::fresh_demo_trial("sizes.furrow");
   auto session = RecordSession::open(db, "Ana");
   REQUIRE(session.ok());
   for (auto [w, h] : {std::pair{1280.0f, 800.0f}, std::pair{800.0f, 1280.0f}}) {

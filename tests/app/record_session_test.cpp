@@ -4,23 +4,14 @@
 
 #include <doctest/doctest.h>
 
+#include "tests/test_support.h"
+
 #include <filesystem>
 
 #include "storage/plan_file.h"
 
 namespace furrow {
 namespace {
-
-std::string fresh_trial(const std::string& name) {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_session_test";
-  std::filesystem::create_directories(dir);
-  const std::string path = (dir / name).string();
-  for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
-  auto plan = read_plan_file(std::string(FURROW_SOURCE_DIR) + "/demo_data/harrow_ridge_oats_2026.plan.csv");
-  REQUIRE(plan.ok());
-  REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
-  return path;
-}
 
 size_t live_count(const std::string& path) {
   auto open = open_trial_database(path);
@@ -29,7 +20,7 @@ size_t live_count(const std::string& path) {
 }
 
 TEST_CASE("an accepted value is committed, the walk moves on, the database holds it") {
-  const std::string db = fresh_trial("enter.furrow");
+  const std::string db = test::fresh_demo_trial("enter.furrow");
   auto s = RecordSession::open(db, "Ana");
   REQUIRE(s.ok());
   s->set_trait(1);   // height
@@ -44,7 +35,7 @@ TEST_CASE("an accepted value is committed, the walk moves on, the database holds
 }
 
 TEST_CASE("a refused value saves nothing; a soft-limit value waits for confirmation") {
-  const std::string db = fresh_trial("refuse.furrow");
+  const std::string db = test::fresh_demo_trial("refuse.furrow");
   auto s = RecordSession::open(db, "Ana");
   REQUIRE(s.ok());
   s->set_trait(1);
@@ -63,7 +54,7 @@ TEST_CASE("a refused value saves nothing; a soft-limit value waits for confirmat
 }
 
 TEST_CASE("skip with a reason, jump by label, undo as a new log row") {
-  const std::string db = fresh_trial("skip.furrow");
+  const std::string db = test::fresh_demo_trial("skip.furrow");
   auto s = RecordSession::open(db, "Ana");
   REQUIRE(s.ok());
   CHECK_FALSE(s->skip("other", "").ok());   // 'other' needs a note
@@ -90,7 +81,7 @@ TEST_CASE("skip with a reason, jump by label, undo as a new log row") {
 }
 
 TEST_CASE("blind scoring hides the treatment; walking all traits per plot") {
-  const std::string db = fresh_trial("blind.furrow");
+  const std::string db = test::fresh_demo_trial("blind.furrow");
   auto s = RecordSession::open(db, "Ana");
   REQUIRE(s.ok());
   CHECK(s->view().treatment == "Quillon");

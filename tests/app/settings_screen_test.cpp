@@ -5,48 +5,31 @@
 #include <doctest/doctest.h>
 #include <imgui.h>
 
+#include "tests/app/headless_imgui.h"
+
 namespace furrow {
 namespace {
 
 class HeadlessSettings {
  public:
-  HeadlessSettings(float width, float height) {
-    ImGui::CreateContext();
-    ImGuiIO& io = ImGui::GetIO();
-    io.IniFilename = nullptr;
-    io.DisplaySize = ImVec2(width, height);
-    io.DeltaTime = 1.0f / 60.0f;
-    unsigned char* pixels = nullptr;
-    int w = 0, h = 0;
-    io.Fonts->GetTexDataAsRGBA32(&pixels, &w, &h);
-    frame();
-  }
-  ~HeadlessSettings() { ImGui::DestroyContext(); }
-
-  void frame() {
-    ImGui::NewFrame();
+  HeadlessSettings(float width, float height) : ui_(width, height, [this] {
     if (auto changed = draw_settings_screen(settings, make_theme(settings.theme), 1.0f, 80.0f, &state))
       settings = *changed;
-    ImGui::Render();
+  }) {
+    ui_.frame();
   }
-
+  void frame() { ui_.frame(); }
   void tap(const std::string& label) {
-    const TapTarget* t = nullptr;
-    for (const TapTarget& x : state.targets)
-      if (x.label == label) t = &x;
+    const TapTarget* t = test::find_target(state.targets, label);
     REQUIRE_MESSAGE(t != nullptr, "no item '" << label << "'");
-    ImGuiIO& io = ImGui::GetIO();
-    io.MousePos = ImVec2((t->x0 + t->x1) / 2, (t->y0 + t->y1) / 2);
-    frame();
-    io.MouseDown[0] = true;
-    frame();
-    io.MouseDown[0] = false;
-    frame();
-    frame();
+    ui_.tap(*t);
   }
 
   Settings settings;
   SettingsScreenState state;
+
+ private:
+  test::HeadlessImGui ui_;
 };
 
 TEST_CASE("taps change theme, size, alpha and blind scoring") {

@@ -13,18 +13,6 @@
 namespace furrow {
 namespace {
 
-std::string fresh_db(const std::string& name) {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_store_test";
-  std::filesystem::create_directories(dir);
-  const std::string path = (dir / name).string();
-  for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
-  auto plan = read_plan_file(std::string(FURROW_SOURCE_DIR) + "/demo_data/harrow_ridge_oats_2026.plan.csv");
-  REQUIRE_MESSAGE(plan.ok(), plan.problem().message);
-  REQUIRE(plan->layout.has_value());
-  REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
-  return path;
-}
-
 NewObservation value_for(const StoredTrial& t, size_t plot, size_t trait, const std::string& v) {
   NewObservation o;
   o.plot_id = t.plot_ids[plot];
@@ -36,7 +24,7 @@ NewObservation value_for(const StoredTrial& t, size_t plot, size_t trait, const 
 }
 
 TEST_CASE("a created trial reads back with its plan, layout and a device identity") {
-  auto open = open_trial_database(fresh_db("readback.furrow"));
+  auto open = open_trial_database(test::fresh_demo_trial("readback.furrow"));
   REQUIRE(open.ok());
   const StoredTrial& t = open->trial;
   CHECK(t.plan.name == "Harrow Ridge hulless oat variety trial 2026");
@@ -49,7 +37,7 @@ TEST_CASE("a created trial reads back with its plan, layout and a device identit
 }
 
 TEST_CASE("appends get consecutive sequence numbers; an edit replaces, the log keeps both") {
-  auto open = open_trial_database(fresh_db("edit.furrow"));
+  auto open = open_trial_database(test::fresh_demo_trial("edit.furrow"));
   REQUIRE(open.ok());
   auto& [db, t] = *open;
   const auto k1 = append_observation(db, t.device_id, value_for(t, 0, 1, "95"), utc_now());
@@ -69,7 +57,7 @@ TEST_CASE("appends get consecutive sequence numbers; an edit replaces, the log k
 }
 
 TEST_CASE("the log refuses UPDATE and DELETE; STRICT tables refuse wrong types") {
-  auto open = open_trial_database(fresh_db("strict.furrow"));
+  auto open = open_trial_database(test::fresh_demo_trial("strict.furrow"));
   REQUIRE(open.ok());
   auto& [db, t] = *open;
   REQUIRE(append_observation(db, t.device_id, value_for(t, 0, 1, "95"), utc_now()).ok());
@@ -81,7 +69,7 @@ TEST_CASE("the log refuses UPDATE and DELETE; STRICT tables refuse wrong types")
 }
 
 TEST_CASE("two devices with different live values for one cell are a conflict until settled") {
-  auto open = open_trial_database(fresh_db("conflict.furrow"));
+  auto open = open_trial_database(test::fresh_demo_trial("conflict.furrow"));
   REQUIRE(open.ok());
   auto& [db, t] = *open;
   const auto a = append_observation(db, t.device_id, value_for(t, 3, 4, "5.10"), utc_now());
@@ -107,7 +95,7 @@ TEST_CASE("two devices with different live values for one cell are a conflict un
 }
 
 TEST_CASE("a database from a newer schema is refused, not changed") {
-  const std::string path = fresh_db("newer.furrow");
+  const std::string path = test::fresh_demo_trial("newer.furrow");
   {
     auto db = Database::open(path, false);
     REQUIRE(db.ok());
@@ -119,7 +107,7 @@ TEST_CASE("a database from a newer schema is refused, not changed") {
 }
 
 TEST_CASE("exports: layout in walking order, wide table marks conflicts") {
-  auto open = open_trial_database(fresh_db("export.furrow"));
+  auto open = open_trial_database(test::fresh_demo_trial("export.furrow"));
   REQUIRE(open.ok());
   auto& [db, t] = *open;
   const std::string layout = layout_csv(t);
