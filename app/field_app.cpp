@@ -7,6 +7,7 @@
 #include "app/screens/settings_screen.h"
 #include "app/screens/leaving_screen.h"
 #include "app/screens/help_screen.h"
+#include "app/screens/widgets.h"
 
 #include <imgui.h>
 #include "app/settings.h"
@@ -51,6 +52,7 @@ int run_field_app(const FieldAppOptions& o) {
   RecordScreenState record_ui;
   SettingsScreenState settings_ui;
   LeavingScreenState leaving_ui;
+  std::vector<TapTarget> nav_targets;
   enum class Screen { record, leaving, settings, help } screen = o.start_screen == "settings" ? Screen::settings
                                                                  : o.start_screen == "leaving"  ? Screen::leaving
                                                                  : o.start_screen == "help"     ? Screen::help
@@ -65,24 +67,20 @@ int run_field_app(const FieldAppOptions& o) {
     const ImGuiViewport* vp = ImGui::GetMainViewport();
     ImGui::SetNextWindowPos(vp->WorkPos);
     ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, bar + 2 * ImGui::GetStyle().WindowPadding.y));
-    ImGui::PushStyleColor(ImGuiCol_WindowBg, ImVec4(theme.panel.r, theme.panel.g, theme.panel.b, 1));
+    nav_targets.clear();
+    ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme.panel));
     ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove);
     const struct { const char* label; Screen s; } tabs[] = {
         {"Record", Screen::record}, {"Before leaving", Screen::leaving}, {"Settings", Screen::settings},
         {"Help", Screen::help}};
     for (size_t i = 0; i < 4; ++i) {
       if (i) ImGui::SameLine();
-      const Rgb bg = screen == tabs[i].s ? theme.accent : theme.background;
-      const Rgb fg = screen == tabs[i].s ? theme.accent_text : theme.text;
-      ImGui::PushStyleColor(ImGuiCol_Button, ImVec4(bg.r, bg.g, bg.b, 1));
-      ImGui::PushStyleColor(ImGuiCol_ButtonHovered, ImVec4(bg.r, bg.g, bg.b, 1));
-      ImGui::PushStyleColor(ImGuiCol_ButtonActive, ImVec4(bg.r, bg.g, bg.b, 1));
-      ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(fg.r, fg.g, fg.b, 1));
-      if (ImGui::Button(tabs[i].label, ImVec2(3.6f * kTouchTargetPx * scale, bar))) {
+      const bool current = screen == tabs[i].s;
+      const ButtonLook look{current ? theme.accent : theme.background, current ? theme.accent_text : theme.text};
+      if (solid_button(tabs[i].label, ImVec2(3.6f * kTouchTargetPx * scale, bar), look, &nav_targets)) {
         screen = tabs[i].s;
         leaving.reset();
       }
-      ImGui::PopStyleColor(4);
     }
     ImGui::End();
     ImGui::PopStyleColor();
@@ -93,13 +91,13 @@ int run_field_app(const FieldAppOptions& o) {
         apply_record_command(c, *session, &record_ui);
     } else if (screen == Screen::leaving) {
       if (!leaving) leaving = session->before_leaving(settings.alpha);
-      if (auto item = draw_leaving_screen(*leaving, session->trial(), theme, scale, top, &leaving_ui)) {
+      if (auto item = draw_leaving_screen(*leaving, theme, scale, top, &leaving_ui)) {
         session->set_trait(item->trait_index);
         (void)session->jump_to(session->trial().layout.plots[item->plot_index].label);
         screen = Screen::record;
       }
     } else if (screen == Screen::help) {
-      draw_help_screen(theme, top);
+      draw_help_screen(theme, scale, top);
     } else {
       changed = draw_settings_screen(settings, theme, scale, top, &settings_ui);
     }

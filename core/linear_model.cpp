@@ -569,7 +569,6 @@ ResponseFit LinearModel::fit(const std::vector<double>& y_in) const {
 
   VectorXd e;                       // residuals
   VectorXd within_projection;       // absorbed: Q_w' y_w of the sequential sequence
-  std::vector<double> cell_mean_cache;
   if (m.method == FitMethod::balanced) {
     e = yc;
     for (int t = 0; t < nt; ++t) {

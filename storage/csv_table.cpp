@@ -54,9 +54,9 @@ CsvRecords parse_csv_records(const std::string& input) {
   std::vector<int> row_line;
   std::vector<std::string> row;
   std::string field;
-  bool in_quotes = false, field_started = false, row_started = false;
+  bool in_quotes = false, row_started = false;
   int line = 1, row_start_line = 1, quote_line = 0;
-  auto end_field = [&]() { row.push_back(field); field.clear(); field_started = false; };
+  auto end_field = [&]() { row.push_back(field); field.clear(); };
   auto end_row = [&]() {
     end_field();
     const bool blank = row.size() == 1 && row[0].empty();
@@ -80,7 +80,6 @@ CsvRecords parse_csv_records(const std::string& input) {
     if (c == '"') {
       if (!field.empty()) return fail("a quote inside an unquoted field", line);
       in_quotes = true;
-      field_started = true;
       quote_line = line;
     } else if (c == ',') {
       end_field();
@@ -91,12 +90,10 @@ CsvRecords parse_csv_records(const std::string& input) {
       ++line;
     } else {
       field += c;
-      field_started = true;
     }
   }
   if (in_quotes) return fail("a quoted field is never closed", quote_line);
   if (row_started) end_row();
-  (void)field_started;
   CsvRecords out;
   out.ok = true;
   for (size_t i = 0; i < rows.size(); ++i) out.rows.push_back({row_line[i], std::move(rows[i])});

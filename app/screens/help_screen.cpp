@@ -1,23 +1,23 @@
 #include "app/screens/help_screen.h"
 
 #include <imgui.h>
-#include <imgui_internal.h>
+
+#include "app/screens/widgets.h"
 
 #include "core/analysis.h"
 
 namespace furrow {
 
-void draw_help_screen(const Theme& t, float top_px) {
+void draw_help_screen(const Theme& t, float scale, float top_px) {
   const ImGuiViewport* vp = ImGui::GetMainViewport();
   ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
   ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, ImVec4(t.background.r, t.background.g, t.background.b, 1));
-  ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(t.text.r, t.text.g, t.text.b, 1));
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
   ImGui::Begin("Help", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings);
-  if (ImGui::IsWindowHovered(ImGuiHoveredFlags_AllowWhenBlockedByActiveItem) && ImGui::IsMouseDragging(0, 12.0f))
-    ImGui::SetScrollY(ImGui::GetScrollY() - ImGui::GetIO().MouseDelta.y);   // lists scroll by dragging
-  ImGui::PushStyleColor(ImGuiCol_ChildBg, ImVec4(t.confirm.r, t.confirm.g, t.confirm.b, 1));
-  ImGui::PushStyleColor(ImGuiCol_Text, ImVec4(t.confirm_text.r, t.confirm_text.g, t.confirm_text.b, 1));
+  drag_to_scroll(scale);
+  ImGui::PushStyleColor(ImGuiCol_ChildBg, to_imgui(t.confirm));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.confirm_text));
   ImGui::BeginChild("safety", ImVec2(0, ImGui::GetTextLineHeightWithSpacing() * 4), false);
   ImGui::TextWrapped("%s", kFieldSafetyNote);
   ImGui::EndChild();

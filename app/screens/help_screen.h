@@ -12,6 +12,6 @@ inline constexpr const char* kFieldSafetyNote =
     "(the product label decides); watch for heat stress, sharp tools and plot machinery. Local rules and "
     "the station's safety officer come first.";
 
-void draw_help_screen(const Theme& theme, float top_px);
+void draw_help_screen(const Theme& theme, float scale, float top_px);
 
 }  // namespace furrow

@@ -21,7 +21,7 @@ struct OpenItem {
   int occasion = 1;
 };
 
-std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const StoredTrial& trial, const Theme& theme,
-                                            float scale, float top_px, LeavingScreenState* state);
+std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const Theme& theme, float scale, float top_px,
+                                            LeavingScreenState* state);
 
 }  // namespace furrow

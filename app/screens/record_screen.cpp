@@ -2,28 +2,16 @@
 
 #include <imgui.h>
 
+#include "app/screens/widgets.h"
+
 namespace furrow {
 namespace {
-
-ImVec4 colour(const Rgb& c) { return ImVec4(c.r, c.g, c.b, 1.0f); }
 
 // Keypad keys are larger than the minimum: gloves and one free hand.
 constexpr float kKeyPx = 72.0f;
 
-void note_target(const char* label, RecordScreenState* st) {
-  const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
-  st->targets.push_back({label, a.x, a.y, b.x, b.y});
-}
-
 bool big_button(const char* label, float width, float height, const Rgb& bg, const Rgb& fg, RecordScreenState* st) {
-  ImGui::PushStyleColor(ImGuiCol_Button, colour(bg));
-  ImGui::PushStyleColor(ImGuiCol_ButtonHovered, colour(bg));
-  ImGui::PushStyleColor(ImGuiCol_ButtonActive, colour(bg));
-  ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
-  const bool pressed = ImGui::Button(label, ImVec2(width, height));
-  ImGui::PopStyleColor(4);
-  note_target(label, st);
-  return pressed;
+  return solid_button(label, ImVec2(width, height), ButtonLook{bg, fg}, &st->targets);
 }
 
 }  // namespace
@@ -60,12 +48,12 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   const ImGuiViewport* vp = ImGui::GetMainViewport();
   ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
   ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, colour(theme.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, colour(theme.text));
-  ImGui::PushStyleColor(ImGuiCol_FrameBg, colour(theme.panel));
-  ImGui::PushStyleColor(ImGuiCol_FrameBgActive, colour(theme.panel));
-  ImGui::PushStyleColor(ImGuiCol_FrameBgHovered, colour(theme.panel));
-  ImGui::PushStyleColor(ImGuiCol_Border, colour(theme.text));
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme.background));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(theme.text));
+  ImGui::PushStyleColor(ImGuiCol_FrameBg, to_imgui(theme.panel));
+  ImGui::PushStyleColor(ImGuiCol_FrameBgActive, to_imgui(theme.panel));
+  ImGui::PushStyleColor(ImGuiCol_FrameBgHovered, to_imgui(theme.panel));
+  ImGui::PushStyleColor(ImGuiCol_Border, to_imgui(theme.text));
   ImGui::Begin("Record", nullptr,
                ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings);
   const float target = kTouchTargetPx * scale;
@@ -80,7 +68,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   ImGui::PushFont(huge);
   ImGui::Text("Plot %s", v.plot_label.c_str());
   ImGui::PopFont();
-  ImGui::PushStyleColor(ImGuiCol_Text, colour(theme.muted_text));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(theme.muted_text));
   ImGui::Text("%s%sblock %d   row %d   column %d   %s   (%d of %d)", v.site.c_str(), v.site.empty() ? "" : "   ",
               v.block, v.row, v.column, v.treatment.c_str(), v.position, v.plots);
   ImGui::PopStyleColor();
@@ -100,8 +88,8 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
     const Rgb fg = st->tone == RecordScreenState::Tone::saved     ? theme.saved_text
                    : st->tone == RecordScreenState::Tone::confirm ? theme.confirm_text
                                                                   : theme.refuse_text;
-    ImGui::PushStyleColor(ImGuiCol_ChildBg, colour(bg));
-    ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
+    ImGui::PushStyleColor(ImGuiCol_ChildBg, to_imgui(bg));
+    ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(fg));
     ImGui::BeginChild("banner", ImVec2(width, 2.2f * target), false, ImGuiWindowFlags_NoScrollbar);
     ImGui::PushTextWrapPos(width - (st->tone == RecordScreenState::Tone::confirm ? 6 * target : 0));
     ImGui::TextUnformatted(st->banner.c_str());
@@ -167,7 +155,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, (target - ImGui::GetFontSize()) / 2));
   const bool jump_entered =
       ImGui::InputText("##jump", st->jump_label, sizeof st->jump_label, ImGuiInputTextFlags_EnterReturnsTrue);
-  note_target("plot label", st);
+  note_target("plot label", &st->targets);
   if (jump_entered) {
     out.push_back({RecordCommand::Kind::jump, st->jump_label});
     st->jump_label[0] = 0;

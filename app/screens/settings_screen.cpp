@@ -2,6 +2,8 @@
 
 #include <imgui.h>
 
+#include "app/screens/widgets.h"
+
 #include <cmath>
 #include <cstdio>
 #include <cstring>
@@ -9,24 +11,12 @@
 namespace furrow {
 namespace {
 
-ImVec4 colour(const Rgb& c) { return ImVec4(c.r, c.g, c.b, 1.0f); }
-
 // A button that shows whether its choice is the current one.
 bool choice(const char* label, bool selected, float width, float height, const Theme& t, SettingsScreenState* st) {
-  const Rgb bg = selected ? t.accent : t.panel;
-  const Rgb fg = selected ? t.accent_text : t.text;
-  ImGui::PushStyleColor(ImGuiCol_Button, colour(bg));
-  ImGui::PushStyleColor(ImGuiCol_ButtonHovered, colour(bg));
-  ImGui::PushStyleColor(ImGuiCol_ButtonActive, colour(bg));
-  ImGui::PushStyleColor(ImGuiCol_Text, colour(fg));
-  ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f);
-  ImGui::PushStyleColor(ImGuiCol_Border, colour(t.text));
-  const bool pressed = ImGui::Button(label, ImVec2(width, height));
-  ImGui::PopStyleColor(5);
-  ImGui::PopStyleVar();
-  const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
-  st->targets.push_back({label, a.x, a.y, b.x, b.y});
-  return pressed;
+  ButtonLook look{selected ? t.accent : t.panel, selected ? t.accent_text : t.text};
+  look.border_px = 2.0f;
+  look.border = t.text;
+  return solid_button(label, ImVec2(width, height), look, &st->targets);
 }
 
 // UI scale steps offered (a quarter step is visible, finer is not).
@@ -46,9 +36,9 @@ std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t
   const ImGuiViewport* vp = ImGui::GetMainViewport();
   ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
   ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, colour(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, colour(t.text));
-  ImGui::PushStyleColor(ImGuiCol_FrameBg, colour(t.panel));
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
+  ImGui::PushStyleColor(ImGuiCol_FrameBg, to_imgui(t.panel));
   ImGui::Begin("Settings", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
                                         ImGuiWindowFlags_NoSavedSettings);
   const float h = kTouchTargetPx * scale * 1.3f;
@@ -58,13 +48,12 @@ std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t
   ImGui::SetNextItemWidth(2 * w);
   ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
   ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, (h - ImGui::GetFontSize()) / 2));
-  ImGui::PushStyleColor(ImGuiCol_Border, colour(t.text));
+  ImGui::PushStyleColor(ImGuiCol_Border, to_imgui(t.text));
   if (ImGui::InputText("##observer", st->observer, sizeof st->observer)) {
     next.observer = st->observer;
     changed = next;
   }
-  const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
-  st->targets.push_back({"observer", a.x, a.y, b.x, b.y});
+  note_target("observer", &st->targets);
   ImGui::PopStyleColor();
   ImGui::PopStyleVar(2);
 

@@ -11,18 +11,6 @@
 namespace furrow {
 namespace {
 
-StoredTrial small_trial() {
-  StoredTrial t;
-  t.plan.traits.push_back(Trait{});
-  t.plan.traits[0].name = "plant height";
-  for (int i = 0; i < 30; ++i) {
-    PlannedPlot p;
-    p.label = std::to_string(101 + i);
-    t.layout.plots.push_back(p);
-  }
-  return t;
-}
-
 BeforeLeaving list_of(int n) {
   BeforeLeaving b;
   for (int i = 0; i < n; ++i)
@@ -35,12 +23,11 @@ BeforeLeaving list_of(int n) {
 
 struct Headless {
   Headless(float w, float h) : ui(w, h, [this] {
-    if (auto o = draw_leaving_screen(list, trial, theme, 1.0f, 0.0f, &state)) opened = o;
+    if (auto o = draw_leaving_screen(list, theme, 1.0f, 0.0f, &state)) opened = o;
   }) {
     ui.frame();
   }
   void frame() { ui.frame(); }
-  StoredTrial trial = small_trial();
   BeforeLeaving list = list_of(30);
   Theme theme = make_theme(ThemeKind::daylight);
   LeavingScreenState state;

@@ -1,0 +1,38 @@
+#pragma once
+// Pieces every screen draws with: theme colours for ImGui, a solid button that
+// records where it was drawn (for tests and the touch-size check), and
+// drag-to-scroll for lists (ImGui has none; a finger does not hover).
+
+#include <imgui.h>
+
+#include <vector>
+
+#include "app/screens/record_screen.h"
+#include "app/theme.h"
+
+namespace furrow {
+
+inline ImVec4 to_imgui(const Rgb& c) { return ImVec4(c.r, c.g, c.b, 1.0f); }
+
+struct ButtonLook {
+  ButtonLook(const Rgb& bg, const Rgb& fg) : background(bg), text(fg) {}
+  Rgb background, text;
+  float border_px = 0;        // 0: no border
+  Rgb border;
+  bool align_left = false;
+};
+
+// A button in one solid colour (no hover change: fingers do not hover).
+// Its rectangle is appended to `targets` under `target_label` (the visible
+// label when empty). Returns true when tapped.
+bool solid_button(const char* label, ImVec2 size, const ButtonLook& look, std::vector<TapTarget>* targets,
+                  const std::string& target_label = {});
+
+// Appends the last item's rectangle to `targets`.
+void note_target(const std::string& label, std::vector<TapTarget>* targets);
+
+// Call inside a scrolling window: a finger dragged further than a tap moves
+// the window's scroll position and is no longer a tap on the item below it.
+void drag_to_scroll(float scale);
+
+}  // namespace furrow
