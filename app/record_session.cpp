@@ -36,10 +36,21 @@ std::vector<ObservationKey> RecordSession::own_live_keys(std::int64_t plot_id, s
 
 Result<ObservationKey> RecordSession::save(NewObservation o) {
   o.observer = observer_;
+  const std::string recorded_at = utc_now();
   ObservationWriter writer(open_.db);
-  auto key = writer.append(open_.trial.device_id, o, utc_now());
+  auto key = writer.append(open_.trial.device_id, o, recorded_at);
   if (!key) return key.problem();
-  if (auto r = reload(); !r) return r.problem();
+  // Keep the cached live rows in step with the log instead of reading them
+  // all again after every entry: the replaced rows leave, the new one joins.
+  live_.erase(std::remove_if(live_.begin(), live_.end(),
+                             [&](const LiveObservation& x) {
+                               return std::any_of(o.replaces.begin(), o.replaces.end(), [&](const ObservationKey& r) {
+                                 return r.device_id == x.key.device_id && r.sequence == x.key.sequence;
+                               });
+                             }),
+              live_.end());
+  live_.push_back({*key, o.plot_id, o.trait_id, o.occasion, o.value, o.number, o.missing_reason, o.note, o.observer,
+                   recorded_at});
   return key;
 }
 

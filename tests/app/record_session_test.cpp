@@ -78,6 +78,15 @@ TEST_CASE("skip with a reason, jump by label, undo as a new log row") {
   CHECK_FALSE(s->undo().ok());
   auto open = open_trial_database(db);
   CHECK(all_observations(open->db)->size() == 6);                // nothing overwritten
+  // The session's cached rows agree with a fresh read of the log.
+  auto fresh = RecordSession::open(db, "Ana");
+  REQUIRE(fresh.ok());
+  for (const char* label : {"101", "305"}) {
+    REQUIRE(s->jump_to(label).ok());
+    REQUIRE(fresh->jump_to(label).ok());
+    CHECK(s->view().current == fresh->view().current);
+    CHECK(s->view().cells_done == fresh->view().cells_done);
+  }
 }
 
 TEST_CASE("blind scoring hides the treatment; walking all traits per plot") {
