@@ -6,7 +6,7 @@
 #include <set>
 
 #include "app/analysis_output.h"
-#include "app/entry_context.h"
+#include "app/record_session.h"
 #include "app/trial_analysis.h"
 #include "core/analysis.h"
 #include "core/entry_checks.h"
@@ -89,54 +89,31 @@ int run_trial_show(const std::string& db_path) {
 }
 
 int run_record(const RecordRequest& r) {
-  auto open = open_trial_database(r.db);
-  if (!open) return fail(r.db, open.problem().message);
-  const StoredTrial& t = open->trial;
-  size_t plot_index = t.layout.plots.size();
-  for (size_t i = 0; i < t.layout.plots.size(); ++i)
-    if (t.layout.plots[i].label == r.plot) plot_index = i;
-  if (plot_index == t.layout.plots.size()) return fail(r.db, "plot '" + r.plot + "' is not in the plan of this trial");
-  size_t trait_index = 0;
-  const Trait* trait = find_trait(t, r.trait, &trait_index);
-  if (!trait) return fail(r.db, "trait '" + r.trait + "' is not measured in this trial");
-  if (r.occasion < 1 || r.occasion > trait->occasions)
-    return fail(r.db, trait->code + " has " + std::to_string(trait->occasions) + " occasion(s); " +
-                          std::to_string(r.occasion) + " is not one of them");
   if (r.observer.empty()) return fail(r.db, "say who measured: --observer NAME");
   if (r.value.empty() == r.missing.empty()) return fail(r.db, "give either --value or --missing REASON");
-  const std::int64_t plot_id = t.plot_ids[plot_index];
-  const std::int64_t trait_id = t.trait_ids[trait_index];
-  auto live = live_observations(open->db, trait_id);
-  if (!live) return fail(r.db, live.problem().message);
-  NewObservation o;
-  o.plot_id = plot_id;
-  o.trait_id = trait_id;
-  o.occasion = r.occasion;
-  o.observer = r.observer;
-  o.note = r.note;
-  for (const auto& x : *live)
-    if (x.plot_id == plot_id && x.occasion == r.occasion && x.key.device_id == t.device_id) o.replaces.push_back(x.key);
+  auto session = RecordSession::open(r.db, r.observer);
+  if (!session) return fail(r.db, session.problem().message);
+  for (const Status& s : {session->jump_to(r.plot), session->set_trait(r.trait), session->set_occasion(r.occasion)})
+    if (!s) return fail(r.db, s.problem().message);
+  const RecordView where = session->view();
+  session->set_pending_note(r.note);
   if (!r.missing.empty()) {
-    o.missing_reason = r.missing;
-  } else {
-    const EntryContext ctx = entry_context_for(t, *live, plot_index, trait_index, r.occasion);
-    const auto findings = check_entry(*trait, r.value, ctx);
-    const auto w = worst(findings);
-    for (const Finding& f : findings) std::cerr << severity_key(f.severity) << ": " << f.message << "\n";
-    if (w == Severity::refuse) return kExitBadInput;
-    if (w == Severity::confirm && !r.confirm) {
+    if (auto s = session->record_missing(r.missing, r.note); !s) return fail(r.db, "not saved: " + s.problem().message);
+    std::cout << "saved " << where.plot_label << " " << where.trait_code << " = missing (" << r.missing << ")\n";
+    return 0;
+  }
+  EntryOutcome out = session->enter(r.value);
+  for (const Finding& f : out.findings) std::cerr << severity_key(f.severity) << ": " << f.message << "\n";
+  if (out.kind == EntryOutcome::Kind::refused) return kExitBadInput;
+  if (out.kind == EntryOutcome::Kind::needs_confirmation) {
+    if (!r.confirm) {
       std::cerr << "not saved: confirm with --confirm if the value is right\n";
       return kExitNeedsConfirmation;
     }
-    const auto parsed = parse_trait_value(*trait, r.value);
-    o.value = parsed->text;
-    o.number = parsed->number;
+    out = session->confirm();
   }
-  auto key = append_observation(open->db, t.device_id, o, utc_now());
-  if (!key) return fail(r.db, "not saved: " + key.problem().message);
-  std::cout << "saved " << r.plot << " " << trait->code << (trait->occasions > 1 ? " #" + std::to_string(r.occasion) : "")
-            << " = " << (o.value ? *o.value : "missing (" + *o.missing_reason + ")") << "  [" << key->device_id << ":"
-            << key->sequence << "]\n";
+  if (out.kind != EntryOutcome::Kind::saved) return fail(r.db, out.message);
+  std::cout << out.message << (where.occasion > 1 ? " #" + std::to_string(where.occasion) : "") << "\n";
   return 0;
 }
 

@@ -4,6 +4,7 @@
 #include <cstdio>
 #include <set>
 #include <tuple>
+#include <utility>
 
 #include "app/entry_context.h"
 
@@ -167,6 +168,7 @@ EntryOutcome RecordSession::confirm_value(const std::string& text) {
   o.occasion = occasion_;
   o.value = parsed->text;
   o.number = parsed->number;
+  o.note = std::exchange(note_, {});
   o.replaces = own_live_keys(o.plot_id, o.trait_id, o.occasion);
   remember(o.plot_id, o.trait_id, o.occasion);
   auto key = save(o);
@@ -185,6 +187,11 @@ Status RecordSession::skip(const std::string& reason, const std::string& note) {
   if (std::find(kSkipReasons.begin(), kSkipReasons.end(), reason) == kSkipReasons.end())
     return make_problem("'" + reason + "' is not one of the skip reasons");
   if (reason == "other" && note.empty()) return make_problem("say why in a note when the reason is 'other'");
+  return record_missing(reason, note);
+}
+
+Status RecordSession::record_missing(const std::string& reason, const std::string& note) {
+  if (reason.empty()) return make_problem("give the reason there is no value");
   pending_.reset();
   const StoredTrial& t = open_.trial;
   NewObservation o;
@@ -192,7 +199,7 @@ Status RecordSession::skip(const std::string& reason, const std::string& note) {
   o.trait_id = t.trait_ids[trait_];
   o.occasion = occasion_;
   o.missing_reason = reason;
-  o.note = note;
+  o.note = note.empty() ? std::exchange(note_, {}) : note;
   o.replaces = own_live_keys(o.plot_id, o.trait_id, o.occasion);
   remember(o.plot_id, o.trait_id, o.occasion);
   auto key = save(o);
@@ -288,6 +295,26 @@ Status RecordSession::jump_to(const std::string& label) {
       return ok_status();
     }
   return make_problem("plot '" + l + "' is not in the plan of this trial");
+}
+
+Status RecordSession::set_trait(const std::string& code) {
+  const auto& traits = open_.trial.plan.traits;
+  for (size_t k = 0; k < traits.size(); ++k)
+    if (traits[k].code == code) {
+      set_trait(k);
+      return ok_status();
+    }
+  return make_problem("trait '" + code + "' is not measured in this trial");
+}
+
+Status RecordSession::set_occasion(int occasion) {
+  const Trait& trait = open_.trial.plan.traits[trait_];
+  if (occasion < 1 || occasion > trait.occasions)
+    return make_problem(trait.code + " has " + std::to_string(trait.occasions) + " occasion(s); " +
+                        std::to_string(occasion) + " is not one of them");
+  occasion_ = occasion;
+  pending_.reset();
+  return ok_status();
 }
 
 void RecordSession::set_trait(size_t index) {

@@ -54,14 +54,20 @@ class RecordSession {
 
   // Commands.
   EntryOutcome enter(const std::string& text);   // check, then save or ask
+  // A note saved with the next value or skip (then cleared).
+  void set_pending_note(const std::string& note) { note_ = note; }
   EntryOutcome confirm();                        // save the pending value
-  Status skip(const std::string& reason, const std::string& note);
+  Status skip(const std::string& reason, const std::string& note);   // reason from kSkipReasons
+  // No value for the current cell, with any reason in the crew's words.
+  Status record_missing(const std::string& reason, const std::string& note);
   Status add_note(const std::string& note);      // a note on the plot (saved with the cell)
   Status undo();                                 // withdraw this device's last entry (a new log row)
   void next();
   void previous();
   Status jump_to(const std::string& label);
   void set_trait(size_t index);
+  Status set_trait(const std::string& code);
+  Status set_occasion(int occasion);   // 1..the trait's occasions
   void set_walk(WalkMode mode) { walk_ = mode; }
   void set_blind(bool blind) { blind_ = blind; }
   // Who is measuring from now on. Precondition: not empty.
@@ -85,6 +91,7 @@ class RecordSession {
   WalkMode walk_ = WalkMode::one_trait_across_plots;
   bool blind_ = false;
   std::optional<std::string> pending_;
+  std::string note_;
   // This session's entries, newest last, with the cell's state before each:
   // undo writes that state back as a new row (or "withdrawn" if there was none).
   struct UndoStep {
