@@ -5,41 +5,13 @@
 #include <nlohmann/json.hpp>
 #include <sstream>
 
+#include "app/number_text.h"
+
 namespace furrow {
 namespace {
 
 
-// Significant digits for a table cell, never scientific below 1e9.
-std::string num(double v, int digits = 6) {
-  if (!std::isfinite(v)) return "-";
-  char buf[64];
-  const double a = std::abs(v);
-  if (a != 0 && (a < 1e-4 || a >= 1e9)) std::snprintf(buf, sizeof buf, "%.*g", digits, v);
-  else {
-    const int before = a >= 1 ? static_cast<int>(std::floor(std::log10(a))) + 1 : 1;
-    std::snprintf(buf, sizeof buf, "%.*f", std::max(0, digits - before), v);
-  }
-  return buf;
-}
-
-// A measured value as the crew typed it would look: shortest form, 6 digits.
-std::string value_text(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.6g", v);
-  return buf;
-}
-
-std::string df_text(double df) {
-  if (df == std::floor(df)) return std::to_string(static_cast<long long>(df));
-  return num(df, 4);
-}
-
-std::string p_text(double p) {
-  if (p < 0.0001) return "<0.0001";
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.4f", p);
-  return buf;
-}
+std::string num(double v, int digits = 6) { return table_number(v, digits); }
 
 std::string pad(const std::string& s, size_t width, bool right = true) {
   if (s.size() >= width) return s;

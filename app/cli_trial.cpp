@@ -8,6 +8,7 @@
 #include "app/analysis_output.h"
 #include "app/record_session.h"
 #include "app/trial_analysis.h"
+#include "app/trial_summary.h"
 #include "core/analysis.h"
 #include "core/entry_checks.h"
 #include "storage/plan_file.h"
@@ -32,32 +33,12 @@ const Trait* find_trait(const StoredTrial& t, const std::string& code, size_t* i
 }  // namespace
 
 int run_trial_new(const std::string& plan_path, const std::string& db_path) {
-  auto plan = read_plan_file(plan_path);
-  if (!plan) {
-    const Problem& p = plan.problem();
-    std::cerr << plan_path;
-    if (p.record > 0) std::cerr << ":" << p.record;
-    std::cerr << ": ";
-    if (!p.column.empty()) std::cerr << "field '" << p.column << "': ";
-    std::cerr << p.message << "\n";
+  auto made = create_trial_from_plan(plan_path, db_path);
+  if (!made) {
+    std::cerr << made.problem().message << "\n";
     return kExitBadInput;
   }
-  Layout layout;
-  if (plan->layout) {
-    layout = *plan->layout;
-    if (static_cast<int>(layout.plots.size()) != plan->plan.rows * plan->plan.columns)
-      return fail(plan_path, "the plan lists " + std::to_string(layout.plots.size()) + " plots but its grid has " +
-                                 std::to_string(plan->plan.rows * plan->plan.columns));
-  } else {
-    auto r = randomise(plan->plan);
-    if (!r) return fail(plan_path, "the design cannot be randomised: " + r.problem().message);
-    layout = std::move(r).value();
-  }
-  if (auto s = create_trial_database(db_path, plan->plan, layout); !s) return fail(db_path, s.problem().message);
-  std::cout << "created " << db_path << ": " << plan->plan.name << ", " << design_kind_title(plan->plan.design) << ", "
-            << layout.plots.size() << " plots, " << plan->plan.traits.size() << " traits"
-            << (plan->layout ? " (layout from the plan file)" : ", randomised with seed " + std::to_string(plan->plan.seed))
-            << "\n";
+  std::cout << "created " << db_path << ": " << *made << "\n";
   return 0;
 }
 

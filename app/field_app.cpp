@@ -1,21 +1,33 @@
 #include "app/field_app.h"
 
-#include <iostream>
+#include <imgui.h>
 
+#include <algorithm>
+#include <chrono>
+#include <cstdio>
+#include <filesystem>
+#include <iostream>
+#include <optional>
+
+#include "app/field_map.h"
 #include "app/record_session.h"
+#include "app/screens/check_screen.h"
+#include "app/screens/help_screen.h"
+#include "app/screens/leaving_screen.h"
+#include "app/screens/map_screen.h"
 #include "app/screens/record_screen.h"
 #include "app/screens/settings_screen.h"
-#include "app/screens/leaving_screen.h"
-#include "app/screens/help_screen.h"
+#include "app/screens/trials_screen.h"
 #include "app/screens/widgets.h"
-
-#include <imgui.h>
 #include "app/settings.h"
+#include "app/trial_analysis.h"
 #include "platform/app_window.h"
 #include "platform/data_folder.h"
 
 namespace furrow {
 namespace {
+
+using Clock = std::chrono::steady_clock;
 
 // While nothing happens the loop sleeps in the window system this long at a
 // time (battery: no frames are drawn without input).
@@ -23,103 +35,353 @@ constexpr double kIdleWaitSeconds = 10.0;
 // Frames drawn before a screenshot, so that fonts and layout have settled.
 constexpr int kScreenshotFrames = 3;
 
+enum class Screen { trials, record, map, check, leaving, settings, help };
+
+struct Tab {
+  const char* label;
+  Screen screen;
+  bool needs_trial;
+};
+constexpr Tab kTabs[] = {{"Trials", Screen::trials, false},       {"Record", Screen::record, true},
+                         {"Field map", Screen::map, true},        {"Check", Screen::check, true},
+                         {"Before leaving", Screen::leaving, true}, {"Settings", Screen::settings, false},
+                         {"Help", Screen::help, false}};
+
+Screen screen_named(const std::string& name) {
+  for (const auto& [key, s] : {std::pair{"trials", Screen::trials}, {"record", Screen::record}, {"map", Screen::map},
+                               {"check", Screen::check}, {"leaving", Screen::leaving}, {"settings", Screen::settings},
+                               {"help", Screen::help}})
+    if (name == key) return s;
+  return Screen::record;
+}
+
+// Everything the app holds between frames. Derived views (the Before
+// leaving list, the map, the analysis) are kept until the log, the trait or
+// the colouring changes.
+class FieldApp {
+ public:
+  FieldApp(const FieldAppOptions& o, Settings settings, std::string settings_path, std::string folder)
+      : options_(o), settings_(std::move(settings)), settings_path_(std::move(settings_path)),
+        folder_(std::move(folder)), theme_(make_theme(settings_.theme)) {}
+
+  // Opens a trial database; on failure the current trial stays open.
+  Status open_trial(const std::string& path) {
+    auto s = RecordSession::open(path, observer());
+    if (!s) return make_problem(path + ": " + s.problem().message);
+    session_.emplace(std::move(s).value());
+    session_->set_blind(settings_.blind_scoring);
+    trial_path_ = path;
+    record_ui_ = RecordScreenState{};
+    map_.reset();
+    analysis_.reset();
+    leaving_.reset();
+    return ok_status();
+  }
+
+  void set_screen(Screen s) {
+    screen_ = s;
+    if (s == Screen::trials) trials_.reset();
+  }
+  bool has_trial() const { return session_.has_value(); }
+  const std::string& trial_name() const { return session_->trial().plan.name; }
+
+  // Draws one frame's screens; returns changed settings, if any.
+  std::optional<Settings> draw(float scale) {
+    const float top = draw_navigation(scale);
+    if (!session_ && kTabs[static_cast<int>(screen_)].needs_trial) screen_ = Screen::trials;
+    switch (screen_) {
+      case Screen::trials: draw_trials(scale, top); break;
+      case Screen::record:
+        for (const RecordCommand& c : draw_record_screen(session_->view(), theme_, scale, &record_ui_, top))
+          apply_record_command(c, *session_, &record_ui_);
+        break;
+      case Screen::map: draw_map(scale, top); break;
+      case Screen::check: draw_check(scale, top); break;
+      case Screen::leaving: {
+        const BeforeLeaving& list = before_leaving();
+        if (auto item = draw_leaving_screen(list, theme_, scale, top, &leaving_ui_))
+          open_plot(item->plot_index, item->trait_index, item->occasion);
+        break;
+      }
+      case Screen::help: draw_help_screen(theme_, scale, top); break;
+      case Screen::settings: return draw_settings_screen(settings_, theme_, scale, top, &settings_ui_);
+    }
+    return std::nullopt;
+  }
+
+  void apply_settings(const Settings& changed) {
+    settings_ = changed;
+    theme_ = make_theme(settings_.theme);
+    map_.reset();   // colours come from the theme
+    if (session_) {
+      session_->set_blind(settings_.blind_scoring);
+      if (!settings_.observer.empty()) session_->set_observer(settings_.observer);
+    }
+    leaving_.reset();   // alpha changes the outliers
+    analysis_.reset();
+    if (!settings_path_.empty())
+      if (auto s = save_settings(settings_path_, settings_); !s) std::cerr << s.problem().message << "\n";
+  }
+
+  const Theme& theme() const { return theme_; }
+  const Settings& settings() const { return settings_; }
+
+ private:
+  std::string observer() const { return options_.observer.empty() ? settings_.observer : options_.observer; }
+
+  // The bar of screens; wraps to a second row in a narrow window. Returns
+  // where the screens start.
+  float draw_navigation(float scale) {
+    const ImGuiViewport* vp = ImGui::GetMainViewport();
+    const float h = kTouchTargetPx * scale * 1.25f;
+    ImGui::SetNextWindowPos(vp->WorkPos);
+    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, nav_height_ > 0 ? nav_height_ : h * 2));
+    ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme_.panel));
+    ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
+                                           ImGuiWindowFlags_NoSavedSettings);
+    nav_targets_.clear();
+    bool first = true;
+    for (const Tab& tab : kTabs) {
+      const float w = button_width(tab.label, scale);
+      if (!first) flow_next(w);
+      first = false;
+      const bool current = screen_ == tab.screen;
+      const bool usable = session_ || !tab.needs_trial;
+      const ButtonLook look{current ? theme_.accent : theme_.background,
+                            current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
+      if (solid_button(tab.label, ImVec2(w, h), look, &nav_targets_) && usable) {
+        set_screen(tab.screen);
+        leaving_.reset();   // opened afresh each time
+      }
+    }
+    const float used = ImGui::GetCursorPosY() + ImGui::GetStyle().WindowPadding.y - ImGui::GetStyle().ItemSpacing.y;
+    ImGui::End();
+    ImGui::PopStyleColor();
+    nav_height_ = used;
+    return used;
+  }
+
+  void draw_trials(float scale, float top) {
+    if (!trials_) {
+      trials_.emplace();
+      trials_->folder = folder_;
+      trials_->trials = list_trials(folder_);
+      if (!trial_path_.empty() && std::none_of(trials_->trials.begin(), trials_->trials.end(),
+                                               [&](const TrialSummary& s) { return s.path == trial_path_; }))
+        trials_->trials.insert(trials_->trials.begin(), summarise_trial(trial_path_));
+      trials_->plan_files = list_plan_files(folder_);
+      trials_->demo_available = !options_.demo_db.empty() && std::filesystem::exists(options_.demo_db);
+    }
+    trials_->current = trial_path_;
+    const auto action = draw_trials_screen(*trials_, theme_, scale, top, &trials_ui_);
+    if (!action) return;
+    std::string path = action->path;
+    if (action->kind == TrialsAction::Kind::open_demo) path = options_.demo_db;
+    if (action->kind == TrialsAction::Kind::create_from_plan) {
+      const std::string db = trial_path_for_plan(path, folder_);
+      auto made = create_trial_from_plan(path, db);
+      if (!made) {
+        trials_ui_.message = made.problem().message;
+        trials_ui_.message_is_problem = true;
+        return;
+      }
+      trials_ui_.message = "Created " + db + ": " + *made;
+      trials_ui_.message_is_problem = false;
+      path = db;
+    }
+    if (auto s = open_trial(path); !s) {
+      trials_ui_.message = s.problem().message;
+      trials_ui_.message_is_problem = true;
+      trials_.reset();
+      return;
+    }
+    if (action->kind == TrialsAction::Kind::open) trials_ui_.message.clear();
+    trials_.reset();
+    screen_ = Screen::record;
+  }
+
+  const BeforeLeaving& before_leaving() {
+    if (!leaving_ || leaving_revision_ != session_->revision()) {
+      leaving_ = session_->before_leaving(settings_.alpha);
+      leaving_revision_ = session_->revision();
+    }
+    return *leaving_;
+  }
+
+  std::string trait_title() const {
+    const Trait& tr = session_->trial().plan.traits[session_->trait_index()];
+    std::string s = tr.name + (tr.unit.empty() ? "" : " (" + tr.unit + ")");
+    if (tr.occasions > 1) s += ", occasion " + std::to_string(session_->occasion());
+    return s;
+  }
+
+  // The analysis of the session's trait and occasion, kept until they or the log change.
+  const Result<Analysis>& analysis() {
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0};
+    if (!analysis_ || !(analysis_key_ == key)) {
+      AnalysisOptions options;
+      options.alpha = settings_.alpha;
+      analysis_.emplace(analyse_trial_trait(session_->trial(), session_->live(), key.trait, key.occasion, options));
+      analysis_key_ = key;
+    }
+    return *analysis_;
+  }
+
+  void step_trait(int delta) {
+    const size_t n = session_->trial().plan.traits.size();
+    session_->set_trait((session_->trait_index() + n + delta) % n);
+  }
+
+  void draw_map(float scale, float top) {
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(),
+                  static_cast<int>(map_ui_.colouring)};
+    if (!map_ || !(map_key_ == key)) {
+      const Result<Analysis>* a = map_ui_.colouring == MapColouring::residual ? &analysis() : nullptr;
+      map_ = build_field_map(session_->trial(), session_->live(), key.trait, key.occasion, map_ui_.colouring, theme_,
+                             map_ui_.colouring == MapColouring::status ? &before_leaving() : nullptr,
+                             a && *a ? &**a : nullptr);
+      map_key_ = key;
+      labels_.clear();
+      for (const PlannedPlot& p : session_->trial().layout.plots) labels_.push_back(p.label);
+    }
+    const auto action = draw_map_screen(*map_, labels_, trait_title(), theme_, scale, top, &map_ui_);
+    if (!action) return;
+    switch (action->kind) {
+      case MapAction::Kind::open_plot:
+        open_plot(action->plot_index, session_->trait_index(), session_->occasion());
+        break;
+      case MapAction::Kind::next_trait: step_trait(1); break;
+      case MapAction::Kind::previous_trait: step_trait(-1); break;
+      case MapAction::Kind::colouring_changed: map_.reset(); break;
+    }
+  }
+
+  void draw_check(float scale, float top) {
+    const Result<Analysis>& a = analysis();
+    const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
+                                          trait_title(), theme_, scale, top, &check_ui_);
+    if (!action) return;
+    switch (action->kind) {
+      case CheckAction::Kind::open_plot:
+        open_plot(action->plot_index, session_->trait_index(), session_->occasion());
+        break;
+      case CheckAction::Kind::next_trait: step_trait(1); break;
+      case CheckAction::Kind::previous_trait: step_trait(-1); break;
+    }
+  }
+
+  void open_plot(size_t plot_index, size_t trait_index, int occasion) {
+    session_->set_trait(trait_index);
+    (void)session_->set_occasion(occasion);
+    (void)session_->jump_to(session_->trial().layout.plots[plot_index].label);
+    screen_ = Screen::record;
+  }
+
+  struct Key {
+    size_t trait = 0;
+    int occasion = 0;
+    std::uint64_t revision = 0;
+    int colouring = 0;
+    bool operator==(const Key&) const = default;
+  };
+
+  const FieldAppOptions& options_;
+  Settings settings_;
+  std::string settings_path_, folder_;
+  Theme theme_;
+  Screen screen_ = Screen::record;
+  std::optional<RecordSession> session_;
+  std::string trial_path_;
+  float nav_height_ = 0;
+  std::vector<TapTarget> nav_targets_;
+  RecordScreenState record_ui_;
+  SettingsScreenState settings_ui_;
+  LeavingScreenState leaving_ui_;
+  MapScreenState map_ui_;
+  CheckScreenState check_ui_;
+  TrialsScreenState trials_ui_;
+  std::optional<TrialsView> trials_;
+  std::optional<BeforeLeaving> leaving_;
+  std::uint64_t leaving_revision_ = 0;
+  std::optional<FieldMap> map_;
+  Key map_key_;
+  std::vector<std::string> labels_;
+  std::optional<Result<Analysis>> analysis_;
+  Key analysis_key_;
+};
+
+void print_frame_times(std::vector<double> ms, double first_frame_ms) {
+  std::sort(ms.begin(), ms.end());
+  const auto at = [&](double q) { return ms[static_cast<size_t>(q * (ms.size() - 1))]; };
+  std::printf("start to first drawn frame: %.1f ms\nframes: %zu  median %.2f ms  p95 %.2f ms  max %.2f ms\n",
+              first_frame_ms, ms.size(), at(0.5), at(0.95), ms.back());
+}
+
 }  // namespace
 
 int run_field_app(const FieldAppOptions& o) {
+  const auto started = Clock::now();
   Settings settings;
-  std::string settings_path;
-  if (auto folder = data_folder()) {
-    settings_path = *folder + "/settings.json";
+  std::string settings_path, folder;
+  if (auto f = data_folder()) {
+    folder = *f;
+    settings_path = folder + "/settings.json";
     auto loaded = load_settings(settings_path);
     if (loaded) settings = *loaded;
     else std::cerr << loaded.problem().message << " (using the defaults)\n";
+  } else {
+    std::cerr << f.problem().message << "\n";
   }
-  const std::string observer = o.observer.empty() ? settings.observer : o.observer;
-  if (settings.observer.empty()) settings.observer = observer;
-  auto session = RecordSession::open(o.db, observer);
-  if (!session) {
-    std::cerr << o.db << ": " << session.problem().message << "\n";
-    return 2;
+  if (settings.observer.empty()) settings.observer = o.observer;
+  FieldApp app(o, settings, settings_path, folder);
+  app.set_screen(screen_named(o.start_screen));
+  if (!o.db.empty()) {
+    if (auto s = app.open_trial(o.db); !s) {
+      std::cerr << s.problem().message << "\n";
+      return 2;
+    }
+  } else {
+    app.set_screen(Screen::trials);
   }
-  session->set_blind(settings.blind_scoring);
-  auto window = AppWindow::create("Furrow - " + session->trial().plan.name, o.width, o.height,
+  auto window = AppWindow::create(app.has_trial() ? "Furrow - " + app.trial_name() : "Furrow", o.width, o.height,
                                   static_cast<float>(settings.ui_scale));
   if (!window) {
     std::cerr << window.problem().message << "\n";
     return 1;
   }
-  Theme theme = make_theme(settings.theme);
-  RecordScreenState record_ui;
-  SettingsScreenState settings_ui;
-  LeavingScreenState leaving_ui;
-  std::vector<TapTarget> nav_targets;
-  enum class Screen { record, leaving, settings, help } screen = o.start_screen == "settings" ? Screen::settings
-                                                                 : o.start_screen == "leaving"  ? Screen::leaving
-                                                                 : o.start_screen == "help"     ? Screen::help
-                                                                                                : Screen::record;
-  std::optional<BeforeLeaving> leaving;   // computed when the screen is opened
   int frames = 0;
+  const bool waits = o.screenshot.empty() && o.bench_frames == 0;
+  std::vector<double> frame_ms;
+  double first_frame_ms = 0;
   while (!(*window)->should_close()) {
-    (*window)->begin_frame(o.screenshot.empty() && frames > 1 ? kIdleWaitSeconds : 0.0);
-    const float scale = (*window)->scale();
-    const float bar = kTouchTargetPx * scale * 1.4f;
-    // Navigation bar: one tap to each screen.
-    const ImGuiViewport* vp = ImGui::GetMainViewport();
-    ImGui::SetNextWindowPos(vp->WorkPos);
-    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, bar + 2 * ImGui::GetStyle().WindowPadding.y));
-    nav_targets.clear();
-    ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme.panel));
-    ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove);
-    const struct { const char* label; Screen s; } tabs[] = {
-        {"Record", Screen::record}, {"Before leaving", Screen::leaving}, {"Settings", Screen::settings},
-        {"Help", Screen::help}};
-    for (size_t i = 0; i < 4; ++i) {
-      if (i) ImGui::SameLine();
-      const bool current = screen == tabs[i].s;
-      const ButtonLook look{current ? theme.accent : theme.background, current ? theme.accent_text : theme.text};
-      if (solid_button(tabs[i].label, ImVec2(3.6f * kTouchTargetPx * scale, bar), look, &nav_targets)) {
-        screen = tabs[i].s;
-        leaving.reset();
-      }
-    }
-    ImGui::End();
-    ImGui::PopStyleColor();
-    const float top = bar + 2 * ImGui::GetStyle().WindowPadding.y;
-    std::optional<Settings> changed;
-    if (screen == Screen::record) {
-      for (const RecordCommand& c : draw_record_screen(session->view(), theme, scale, &record_ui, top))
-        apply_record_command(c, *session, &record_ui);
-    } else if (screen == Screen::leaving) {
-      if (!leaving) leaving = session->before_leaving(settings.alpha);
-      if (auto item = draw_leaving_screen(*leaving, theme, scale, top, &leaving_ui)) {
-        session->set_trait(item->trait_index);
-        (void)session->jump_to(session->trial().layout.plots[item->plot_index].label);
-        screen = Screen::record;
-      }
-    } else if (screen == Screen::help) {
-      draw_help_screen(theme, scale, top);
-    } else {
-      changed = draw_settings_screen(settings, theme, scale, top, &settings_ui);
-    }
+    const auto frame_start = Clock::now();
+    (*window)->begin_frame(waits && frames > 1 ? kIdleWaitSeconds : 0.0);
+    const auto changed = app.draw((*window)->scale());
+    const Theme& theme = app.theme();
     (*window)->end_frame(theme.background.r, theme.background.g, theme.background.b);
     if (changed) {
-      const bool rescale = changed->ui_scale != settings.ui_scale;
-      settings = *changed;
-      theme = make_theme(settings.theme);
-      session->set_blind(settings.blind_scoring);
-      if (!settings.observer.empty()) session->set_observer(settings.observer);
-      if (!settings_path.empty())
-        if (auto s = save_settings(settings_path, settings); !s) std::cerr << s.problem().message << "\n";
-      if (rescale) (*window)->set_ui_scale(static_cast<float>(settings.ui_scale));
+      const bool rescale = changed->ui_scale != app.settings().ui_scale;
+      app.apply_settings(*changed);
+      if (rescale) (*window)->set_ui_scale(static_cast<float>(changed->ui_scale));
     }
-    if (!o.screenshot.empty() && ++frames >= kScreenshotFrames) {
+    if (app.has_trial()) (*window)->set_title("Furrow - " + app.trial_name());
+    ++frames;
+    const auto now = Clock::now();
+    if (frames == 1) first_frame_ms = std::chrono::duration<double, std::milli>(now - started).count();
+    if (o.bench_frames > 0) {
+      if (frames > kScreenshotFrames) frame_ms.push_back(std::chrono::duration<double, std::milli>(now - frame_start).count());
+      if (frames >= o.bench_frames + kScreenshotFrames) {
+        print_frame_times(frame_ms, first_frame_ms);
+        return 0;
+      }
+    }
+    if (!o.screenshot.empty() && frames >= kScreenshotFrames) {
       if (auto s = (*window)->save_screenshot(o.screenshot); !s) {
         std::cerr << s.problem().message << "\n";
         return 1;
       }
       return 0;
     }
-    ++frames;
   }
   return 0;
 }

@@ -75,13 +75,18 @@ int main(int argc, char** argv) {
 
   furrow::FieldAppOptions field_options;
   std::string field_size;
-  auto* field = app.add_subcommand("field", "Open the touch app on a trial database (Record screen)");
-  field->add_option("--db", field_options.db, "trial database")->required();
+  auto* field = app.add_subcommand("field", "Open the touch app (on a trial database, else on the Trials screen)");
+  field->add_option("--db", field_options.db, "trial database to open on the Record screen");
+  field_options.demo_db = FURROW_DEMO_DB;
+  field->add_option("--demo", field_options.demo_db, "the demo trial the Trials screen offers")->capture_default_str();
+  field->add_option("--bench-frames", field_options.bench_frames,
+                    "benchmark: draw this many frames, print frame times, exit");
   field->add_option("--observer", field_options.observer, "who is measuring (else the saved setting)");
   field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
   field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
   std::string field_screen;
-  field->add_option("--screen", field_screen, "screen to open: record (default), leaving, settings or help");
+  field->add_option("--screen", field_screen, "screen to open: trials, record (default), map, check, leaving, settings or help")
+      ->check(CLI::IsMember({"trials", "record", "map", "check", "leaving", "settings", "help"}));
 
   try {
     app.parse(argc, argv);

@@ -7,6 +7,7 @@
 #include <utility>
 
 #include "app/entry_context.h"
+#include "app/trial_summary.h"
 
 namespace furrow {
 
@@ -24,6 +25,7 @@ Status RecordSession::reload() {
   auto live = live_observations(open_.db, 0);
   if (!live) return live.problem();
   live_ = std::move(live).value();
+  ++revision_;
   return ok_status();
 }
 
@@ -52,6 +54,7 @@ Result<ObservationKey> RecordSession::save(NewObservation o) {
               live_.end());
   live_.push_back({*key, o.plot_id, o.trait_id, o.occasion, o.value, o.number, o.missing_reason, o.note, o.observer,
                    recorded_at});
+  ++revision_;
   return key;
 }
 
@@ -103,15 +106,9 @@ RecordView RecordSession::view() const {
   else if (values.size() > 1) v.current = "CONFLICT";
   v.position = static_cast<int>(plot_) + 1;
   v.plots = static_cast<int>(t.layout.plots.size());
-  std::set<std::tuple<std::int64_t, std::int64_t, int>> done;
-  for (const auto& x : live_)
-    if (x.value || (x.missing_reason && *x.missing_reason != "withdrawn")) done.insert({x.plot_id, x.trait_id, x.occasion});
-  for (size_t k = 0; k < t.plan.traits.size(); ++k) {
-    if (!t.plan.traits[k].required) continue;
-    v.cells_required += static_cast<int>(t.layout.plots.size()) * t.plan.traits[k].occasions;
-    for (const auto& d : done)
-      if (std::get<1>(d) == t.trait_ids[k]) ++v.cells_done;
-  }
+  const TrialProgress progress = trial_progress(t, live_);
+  v.cells_done = progress.cells_done;
+  v.cells_required = progress.cells_required;
   v.has_pending = pending_.has_value();
   return v;
 }

@@ -51,6 +51,14 @@ class RecordSession {
   // The Before leaving list from the session's current log.
   BeforeLeaving before_leaving(double alpha) const;
   const StoredTrial& trial() const { return open_.trial; }
+  // The live rows of every trait as this session knows them.
+  const std::vector<LiveObservation>& live() const { return live_; }
+  // Grows whenever the live rows change (screens keep derived views until then).
+  std::uint64_t revision() const { return revision_; }
+  size_t trait_index() const { return trait_; }
+  int occasion() const { return occasion_; }
+  // Reads the log again (after another program, e.g. a merge, changed it).
+  Status refresh() { return reload(); }
 
   // Commands.
   EntryOutcome enter(const std::string& text);   // check, then save or ask
@@ -86,6 +94,7 @@ class RecordSession {
   OpenTrial open_;
   std::string observer_;
   std::vector<LiveObservation> live_;   // cached live rows, refreshed after each save
+  std::uint64_t revision_ = 0;
   size_t plot_ = 0, trait_ = 0;
   int occasion_ = 1;
   WalkMode walk_ = WalkMode::one_trait_across_plots;

@@ -457,14 +457,21 @@ void find_outliers(const Group& g, const ResponseFit& fit, const std::vector<dou
   const double df = fit.residual_df;
   struct Candidate { int i; double t_ext, t_int, p; };
   std::vector<Candidate> c;
+  a->fits.reserve(g.coded.n);
   for (int i = 0; i < g.coded.n; ++i) {
+    PlotFit pf{g.records[i], y[i] + offset, fit.fitted[i] + offset, fit.residuals[i], 0.0};
     const double one_minus_h = 1.0 - fit.leverages[i];
-    if (one_minus_h < 1e-10 || df <= 1) continue;   // a plot alone in its cell carries no residual
+    if (one_minus_h < 1e-10 || df <= 1) {   // a plot alone in its cell carries no residual
+      a->fits.push_back(pf);
+      continue;
+    }
     const double e = fit.residuals[i];
     const double s2 = fit.residual_ss / df;
     const double s2_without = (fit.residual_ss - e * e / one_minus_h) / (df - 1);
     const double t_int = s2 > 0 ? e / std::sqrt(s2 * one_minus_h) : 0.0;
     const double t_ext = s2_without > 0 ? e / std::sqrt(s2_without * one_minus_h) : 0.0;
+    pf.studentized = t_int;
+    a->fits.push_back(pf);
     c.push_back({i, t_ext, t_int, 1.0});
   }
   std::vector<char> flagged(c.size(), 0);

@@ -127,6 +127,12 @@ struct OutlierPlot {
   std::optional<double> p_holm;     // Bonferroni-Holm adjusted P (Holm rule only)
 };
 
+// Every analysed plot's fit (for residual maps and residual-against-fitted charts).
+struct PlotFit {
+  int record = -1;                  // index into the input table
+  double value = 0, fitted = 0, residual = 0;
+  double studentized = 0;           // internally studentized (0 when the plot alone fills its cell)
+};
 struct MissingCell {
   std::string label;                // e.g. "block 2 x entry Kestrel"
   std::vector<int> records;         // input records of the cell whose value is missing
@@ -147,6 +153,7 @@ struct Analysis {
   std::optional<double> mdd_percent; // minimum detectable difference, % of the mean
   VarianceComponents variance_components;
   std::vector<OutlierPlot> outliers;
+  std::vector<PlotFit> fits;         // every analysed plot, in input order
   std::string outlier_rule;          // plain words
   std::vector<MissingCell> missing_cells;
   std::vector<std::string> notes;

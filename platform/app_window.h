@@ -28,6 +28,11 @@ class AppWindow {
   float scale() const { return scale_; }
   // Rebuilds fonts and sizes for a new UI scale. Call between frames.
   void set_ui_scale(float ui_scale);
+  void set_title(const std::string& title);
+  // The screen's content scale (1 on a 96 dpi screen). When the window moves
+  // to a screen with another content scale, or the system setting changes,
+  // begin_frame rebuilds fonts and sizes before the next frame.
+  float content_scale() const { return content_scale_; }
   // Fonts in the atlas: 0 normal, 1 large (1.5x), 2 huge (2.2x), rendered at
   // their own sizes so that large text stays sharp.
   static constexpr int kFontNormal = 0, kFontLarge = 1, kFontHuge = 2;
@@ -37,7 +42,9 @@ class AppWindow {
   struct Impl;
   std::unique_ptr<Impl> impl_;
   float scale_ = 1.0f;
+  float ui_scale_ = 1.0f;
   float content_scale_ = 1.0f;
+  std::string title_;
 };
 
 }  // namespace furrow

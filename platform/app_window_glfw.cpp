@@ -8,7 +8,10 @@
 #include "platform/app_window.h"
 
 #define STB_IMAGE_WRITE_IMPLEMENTATION
+#pragma GCC diagnostic push
+#pragma GCC diagnostic ignored "-Wmissing-field-initializers"
 #include <stb_image_write.h>
+#pragma GCC diagnostic pop
 
 extern "C" const unsigned char furrow_font_ttf_begin[];
 extern "C" const unsigned char furrow_font_ttf_end[];
@@ -40,6 +43,7 @@ Result<std::unique_ptr<AppWindow>> AppWindow::create(const std::string& title, i
   std::unique_ptr<AppWindow> out(new AppWindow());
   out->impl_ = std::make_unique<Impl>();
   out->impl_->window = w;
+  out->title_ = title;
   float sx = 1, sy = 1;
   glfwGetWindowContentScale(w, &sx, &sy);
   out->content_scale_ = sx;
@@ -53,6 +57,7 @@ Result<std::unique_ptr<AppWindow>> AppWindow::create(const std::string& title, i
 }
 
 void AppWindow::set_ui_scale(float ui_scale) {
+  ui_scale_ = ui_scale;
   scale_ = content_scale_ * ui_scale;
   ImGuiIO& io = ImGui::GetIO();
   io.Fonts->Clear();
@@ -81,9 +86,23 @@ AppWindow::~AppWindow() {
 
 bool AppWindow::should_close() const { return glfwWindowShouldClose(impl_->window); }
 
+void AppWindow::set_title(const std::string& title) {
+  if (title == title_) return;
+  title_ = title;
+  glfwSetWindowTitle(impl_->window, title.c_str());
+}
+
 void AppWindow::begin_frame(double timeout_s) {
   if (timeout_s > 0) glfwWaitEventsTimeout(timeout_s);
   else glfwPollEvents();
+  // GLFW reports a new content scale (another monitor, a changed system
+  // setting) as a window event; the query below sees it after the wait.
+  float sx = 1, sy = 1;
+  glfwGetWindowContentScale(impl_->window, &sx, &sy);
+  if (sx > 0 && sx != content_scale_) {
+    content_scale_ = sx;
+    set_ui_scale(ui_scale_);
+  }
   ImGui_ImplOpenGL3_NewFrame();
   ImGui_ImplGlfw_NewFrame();
   ImGui::NewFrame();

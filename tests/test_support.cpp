@@ -3,10 +3,13 @@
 #include <doctest/doctest.h>
 
 #include <fstream>
+#include <map>
 #include <sstream>
 
 #include "storage/csv_table.h"
+#include "app/record_session.h"
 #include "storage/plan_file.h"
+#include "storage/trial_store.h"
 
 #include <filesystem>
 
@@ -56,6 +59,48 @@ const AnovaRow& row(const Analysis& a, const std::string& source) {
     if (r.source == source) return r;
   FAIL("no row '" << source << "' in the table");
   return a.table.front();
+}
+
+// The demo trial with stand count and height entered for every plot from the
+// demo day (plot 214 skipped as flooded, plot 307's height 8.3 confirmed).
+std::string demo_day_trial(const std::string& name) {
+  const auto dir = std::filesystem::temp_directory_path() / "furrow_demo_day";
+  std::filesystem::create_directories(dir);
+  const std::string path = (dir / name).string();
+  for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
+  const std::string src = FURROW_SOURCE_DIR;
+  auto plan = read_plan_file(src + "/demo_data/harrow_ridge_oats_2026.plan.csv");
+  REQUIRE(plan.ok());
+  REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
+  std::ifstream data(src + "/demo_data/harrow_ridge_oats_2026.csv");
+  std::string line;
+  std::getline(data, line);
+  std::map<std::string, std::pair<std::string, std::string>> values;   // plot -> stand, height
+  while (std::getline(data, line)) {
+    std::stringstream ss(line);
+    std::vector<std::string> f;
+    for (std::string x; std::getline(ss, x, ',');) f.push_back(x);
+    f.resize(11);
+    values[f[0]] = {f[5], f[6]};
+  }
+  auto s = RecordSession::open(path, "Mara");
+  REQUIRE(s.ok());
+  for (size_t trait : {0u, 1u}) {
+    s->set_trait(trait);
+    REQUIRE(s->jump_to("101").ok());
+    for (int i = 0; i < 80; ++i) {
+      const std::string label = s->view().plot_label;
+      const std::string v = trait == 0 ? values[label].first : values[label].second;
+      if (v.empty()) {
+        REQUIRE(s->skip("flooded", "").ok());
+        continue;
+      }
+      const auto out = s->enter(v);
+      if (out.kind == EntryOutcome::Kind::needs_confirmation) REQUIRE(s->confirm().kind == EntryOutcome::Kind::saved);
+      else REQUIRE(out.kind == EntryOutcome::Kind::saved);
+    }
+  }
+  return path;
 }
 
 }  // namespace furrow::test

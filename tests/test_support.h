@@ -35,6 +35,11 @@ DesignRoles rcbd_roles();
 // (any earlier file of that name is removed first). Returns its path.
 std::string fresh_demo_trial(const std::string& name);
 
+// The demo trial with stand count and height entered for every plot from the
+// demo day through the record session (plot 214 skipped as flooded, plot
+// 307's height 8.3 confirmed). Returns its path.
+std::string demo_day_trial(const std::string& name);
+
 const AnovaRow& row(const Analysis& a, const std::string& source);   // fails the test when absent
 
 }  // namespace furrow::test

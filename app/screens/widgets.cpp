@@ -2,6 +2,8 @@
 
 #include <imgui_internal.h>
 
+#include <algorithm>
+
 namespace furrow {
 
 // A finger that moves this far (at scale 1) while down is scrolling, not tapping.
@@ -30,9 +32,38 @@ bool solid_button(const char* label, ImVec2 size, const ButtonLook& look, std::v
 void drag_to_scroll(float scale) {
   if (ImGui::IsWindowHovered(ImGuiHoveredFlags_AllowWhenBlockedByActiveItem) &&
       ImGui::IsMouseDragging(ImGuiMouseButton_Left, kDragScrollPx * scale)) {
+    ImGui::SetScrollX(ImGui::GetScrollX() - ImGui::GetIO().MouseDelta.x);
     ImGui::SetScrollY(ImGui::GetScrollY() - ImGui::GetIO().MouseDelta.y);
     ImGui::ClearActiveID();   // a drag is not a tap
   }
+}
+
+void flow_next(float next_width) {
+  const float right = ImGui::GetWindowPos().x + ImGui::GetWindowContentRegionMax().x;
+  ImGui::SameLine();
+  if (ImGui::GetCursorScreenPos().x + next_width > right + 0.5f) ImGui::NewLine();
+}
+
+float button_width(const char* label, float scale) {
+  return std::max(kTouchTargetPx * scale, ImGui::CalcTextSize(label, nullptr, true).x + 2 * ImGui::GetStyle().FramePadding.x +
+                                             16.0f * scale);
+}
+
+void banner(const char* text, const Rgb& background, const Rgb& foreground) {
+  const ImVec2 pad = ImGui::GetStyle().FramePadding;
+  const float width = ImGui::GetContentRegionAvail().x;
+  const ImVec2 size = ImGui::CalcTextSize(text, nullptr, false, width - 2 * pad.x);
+  const ImVec2 at = ImGui::GetCursorScreenPos();
+  ImGui::GetWindowDrawList()->AddRectFilled(at, ImVec2(at.x + width, at.y + size.y + 2 * pad.y),
+                                            ImGui::ColorConvertFloat4ToU32(to_imgui(background)));
+  ImGui::SetCursorScreenPos(ImVec2(at.x + pad.x, at.y + pad.y));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(foreground));
+  ImGui::PushTextWrapPos(at.x + width - pad.x - ImGui::GetWindowPos().x);
+  ImGui::TextUnformatted(text);
+  ImGui::PopTextWrapPos();
+  ImGui::PopStyleColor();
+  ImGui::SetCursorScreenPos(ImVec2(at.x, at.y + size.y + 2 * pad.y + ImGui::GetStyle().ItemSpacing.y));
+  ImGui::Dummy(ImVec2(0, 0));
 }
 
 }  // namespace furrow

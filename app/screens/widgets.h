@@ -35,4 +35,15 @@ void note_target(const std::string& label, std::vector<TapTarget>* targets);
 // the window's scroll position and is no longer a tap on the item below it.
 void drag_to_scroll(float scale);
 
+// Puts the next item on this line when `next_width` still fits, else on a
+// new line (rows of buttons that wrap in a portrait window).
+void flow_next(float next_width);
+
+// The width of a solid button showing `label`: its text and padding, at
+// least the touch-target size.
+float button_width(const char* label, float scale);
+
+// Wrapped text on a full-width coloured band (cautions, messages).
+void banner(const char* text, const Rgb& background, const Rgb& foreground);
+
 }  // namespace furrow

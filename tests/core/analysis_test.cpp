@@ -163,3 +163,31 @@ TEST_CASE("several responses with one missing pattern share one factorisation an
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("every plot's fit: residuals square up to the published residual SS of Clewer's trial") {
+  // Clewer & Scarisbrick (2001), Table 10.1: residual SS 2.40 on 6 DF, 12 plots.
+  const auto a = analyse(clewer(), rcbd_roles(), "yield");
+  REQUIRE(a.ok());
+  REQUIRE(a->fits.size() == 12);
+  double sum_e = 0, sum_e2 = 0, sum_t2 = 0;
+  for (size_t i = 0; i < a->fits.size(); ++i) {
+    const PlotFit& f = a->fits[i];
+    CHECK(f.record == static_cast<int>(i));
+    CHECK(f.value - f.fitted == doctest::Approx(f.residual).epsilon(1e-12));
+    sum_e += f.residual;
+    sum_e2 += f.residual * f.residual;
+    sum_t2 += f.studentized * f.studentized;
+  }
+  CHECK(sum_e == doctest::Approx(0.0).epsilon(1e-12));
+  CHECK(sum_e2 == doctest::Approx(2.40).epsilon(1e-9));
+  // In an RCBD every plot has leverage (b + t - 1) / (b t), so 1 - h =
+  // (b - 1)(t - 1) / (b t) and the squared internally studentized residuals
+  // sum to residual DF / (1 - h) = b t = 12.
+  CHECK(sum_t2 == doctest::Approx(12.0).epsilon(1e-9));
+}
+
+}  // namespace
+}  // namespace furrow

@@ -1,8 +1,10 @@
 #!/usr/bin/python3
 """Under Xvfb with Mesa: start the real field app on the demo trial in a
 landscape (1280x800) and a portrait (800x1280) window, take a screenshot of
-the Record, Before leaving, Settings and Help screens, and check that each is drawn: not one flat colour, with
-dark text on the light daylight background.
+every screen (Trials, Record, Field map, Check, Before leaving, Settings,
+Help), and check that each is drawn: not one flat colour, with dark text on
+the light daylight background; the Field map shows the plots in the status
+colour for collected plots, the Check screen its interim-analysis banner.
 
 usage: screenshot_test.py FURROW SOURCE_DIR WORK_DIR
 """
@@ -65,13 +67,21 @@ db = os.path.join(work, "demo.furrow")
 subprocess.run(["/usr/bin/python3", os.path.join(src, "demo_data", "load_demo_day.py"), furrow,
                 os.path.join(src, "demo_data", "harrow_ridge_oats_2026.plan.csv"),
                 os.path.join(src, "demo_data", "harrow_ridge_oats_2026.csv"), db], check=True, capture_output=True)
-env = dict(os.environ, FURROW_DATA_DIR=os.path.join(work, "data"))
+data = os.path.join(work, "data")
+os.makedirs(data)
+shutil.copy(db, os.path.join(data, "demo.furrow"))
+env = dict(os.environ, FURROW_DATA_DIR=data)
+# Colours the screens must show (app/theme.cpp, daylight): collected plots and
+# the banner of the interim analysis.
+must_show = {"map": (0x00, 0x72, 0xB2), "check": (0xFF, 0xD5, 0x4F)}
 shots = [(f"{view}_{shape}", size, screen, view)
-         for view in ("record", "leaving", "settings", "help")
+         for view in ("trials", "record", "map", "check", "leaving", "settings", "help")
          for shape, size, screen in (("landscape", "1280x800", "1280x800x24"), ("portrait", "800x1280", "800x1280x24"))]
 for name, size, screen, view in shots:
     png = os.path.join(work, f"{name}.png")
-    p = subprocess.run(["xvfb-run", "-a", "-s", f"-screen 0 {screen} -noreset", furrow, "field", "--db", db,
+    # The Trials screen is where the app starts without a trial.
+    trial = [] if view == "trials" else ["--db", db]
+    p = subprocess.run(["xvfb-run", "-a", "-s", f"-screen 0 {screen} -noreset", furrow, "field", *trial,
                         "--observer", "Check", "--size", size, "--screen", view, "--screenshot", png],
                        capture_output=True, env=env, timeout=120)
     check(p.returncode == 0 and os.path.exists(png), f"{name}: the app drew and saved a screenshot ({p.stderr[-300:]!r})")
@@ -79,15 +89,19 @@ for name, size, screen, view in shots:
         continue
     w, h, rows = read_png(png)
     check(f"{w}x{h}" == size, f"{name}: the window is {size} (got {w}x{h})")
-    colours, dark = set(), 0
+    colours, dark, marked = set(), 0, 0
+    mark = bytes(must_show.get(view, (1, 2, 3)))
     for y in range(0, h, 2):
         row = rows[y]
         for x in range(0, w * 4, 8):
             px = row[x:x + 3]
             colours.add(px)
             dark += sum(px) < 150
+            marked += px == mark
     sampled = (h // 2) * (w // 2)
     check(len(colours) > 20, f"{name}: not blank ({len(colours)} colours)")
     check(0.005 < dark / sampled < 0.6, f"{name}: dark text on a light background ({dark / sampled:.3f})")
+    if view in must_show:
+        check(marked / sampled > 0.01, f"{name}: shows its colour #{mark.hex()} ({marked / sampled:.3f})")
     print(f"{name}: {png}")
 check.finish()
