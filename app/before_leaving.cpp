@@ -37,6 +37,7 @@ BeforeLeaving before_leaving(const StoredTrial& t, const std::vector<LiveObserva
   for (size_t k = 0; k < t.plan.traits.size(); ++k) {
     const Trait& trait = t.plan.traits[k];
     for (int occ = 1; occ <= trait.occasions; ++occ) {
+      const TraitEntryContext contexts(t, live, k, occ);
       for (size_t p = 0; p < t.layout.plots.size(); ++p) {
         const auto it = cells.find({p, k, occ});
         const bool recorded = it != cells.end() && std::any_of(it->second.begin(), it->second.end(), [](const auto* r) {
@@ -48,7 +49,7 @@ BeforeLeaving before_leaving(const StoredTrial& t, const std::vector<LiveObserva
           continue;
         }
         if (it->second.size() != 1 || !it->second.front()->value || confirmed(*it->second.front())) continue;
-        const EntryContext ctx = entry_context_for(t, live, p, k, occ);
+        const EntryContext ctx = contexts.for_plot(p);
         for (const Finding& f : check_entry(trait, *it->second.front()->value, ctx)) {
           if (f.severity != Severity::confirm) continue;
           flagged.push_back({LeavingItem::Kind::flagged, p, k, occ, label(p, k) + ": " + f.message});

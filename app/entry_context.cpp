@@ -22,29 +22,49 @@ int blocking_code(const TrialPlan& p, const PlannedPlot& plot) {
 
 }  // namespace
 
-EntryContext entry_context_for(const StoredTrial& t, const std::vector<LiveObservation>& live, size_t plot_index,
-                               size_t trait_index, int occasion) {
-  EntryContext ctx;
-  const std::int64_t plot_id = t.plot_ids[plot_index];
+TraitEntryContext::TraitEntryContext(const StoredTrial& t, const std::vector<LiveObservation>& live,
+                                     size_t trait_index, int occasion)
+    : trial_(t), trait_index_(trait_index) {
   const std::int64_t trait_id = t.trait_ids[trait_index];
   std::map<std::int64_t, size_t> index_of;
   for (size_t i = 0; i < t.plot_ids.size(); ++i) index_of[t.plot_ids[i]] = i;
-  std::vector<int> blocks, treatments;
   for (const auto& x : live) {
     if (x.trait_id != trait_id || x.occasion != occasion) continue;
-    if (x.value && x.key.device_id == t.device_id) ctx.previous_entries.push_back(*x.value);
-    if (x.plot_id == plot_id || !x.number) continue;
-    const PlannedPlot& pp = t.layout.plots[index_of[x.plot_id]];
-    ctx.other_values.push_back(*x.number);
-    blocks.push_back(blocking_code(t.plan, pp));
-    treatments.push_back(combination_index(t.plan, pp));
+    if (x.value && x.key.device_id == t.device_id) previous_entries_.push_back(*x.value);
+    if (!x.number) continue;
+    const size_t plot = index_of.at(x.plot_id);
+    const PlannedPlot& pp = t.layout.plots[plot];
+    plots_.push_back(plot);
+    values_.push_back(*x.number);
+    blocks_.push_back(blocking_code(t.plan, pp));
+    treatments_.push_back(combination_index(t.plan, pp));
   }
-  const Trait& trait = t.plan.traits[trait_index];
-  const PlannedPlot& target = t.layout.plots[plot_index];
+}
+
+EntryContext TraitEntryContext::for_plot(size_t plot_index) const {
+  EntryContext ctx;
+  ctx.previous_entries = previous_entries_;
+  std::vector<int> blocks, treatments;
+  ctx.other_values.reserve(values_.size());
+  blocks.reserve(values_.size());
+  treatments.reserve(values_.size());
+  for (size_t k = 0; k < values_.size(); ++k) {
+    if (plots_[k] == plot_index) continue;
+    ctx.other_values.push_back(values_[k]);
+    blocks.push_back(blocks_[k]);
+    treatments.push_back(treatments_[k]);
+  }
+  const Trait& trait = trial_.plan.traits[trait_index_];
+  const PlannedPlot& target = trial_.layout.plots[plot_index];
   if (trait.kind != TraitKind::text && trait.kind != TraitKind::category)
-    ctx.expectation = expect_from_means(ctx.other_values, blocks, treatments, blocking_code(t.plan, target),
-                                        combination_index(t.plan, target));
+    ctx.expectation = expect_from_means(ctx.other_values, blocks, treatments, blocking_code(trial_.plan, target),
+                                        combination_index(trial_.plan, target));
   return ctx;
+}
+
+EntryContext entry_context_for(const StoredTrial& t, const std::vector<LiveObservation>& live, size_t plot_index,
+                               size_t trait_index, int occasion) {
+  return TraitEntryContext(t, live, trait_index, occasion).for_plot(plot_index);
 }
 
 }  // namespace furrow

@@ -7,7 +7,28 @@
 #include "core/entry_checks.h"
 #include "storage/trial_store.h"
 
+#include <string>
+#include <vector>
+
 namespace furrow {
+
+// The trait's data read once, for the contexts of many plots (the Before
+// leaving list checks every plot of a trait).
+class TraitEntryContext {
+ public:
+  // `live` holds the live rows (any order, any traits).
+  TraitEntryContext(const StoredTrial& trial, const std::vector<LiveObservation>& live, size_t trait_index,
+                    int occasion);
+  EntryContext for_plot(size_t plot_index) const;
+
+ private:
+  const StoredTrial& trial_;
+  size_t trait_index_;
+  std::vector<std::string> previous_entries_;
+  std::vector<size_t> plots_;
+  std::vector<double> values_;
+  std::vector<int> blocks_, treatments_;
+};
 
 // `live` holds the live rows of the trait (any order).
 EntryContext entry_context_for(const StoredTrial& trial, const std::vector<LiveObservation>& live, size_t plot_index,
