@@ -372,6 +372,8 @@ int run_field_app(const FieldAppOptions& o) {
       if (frames > kScreenshotFrames) frame_ms.push_back(std::chrono::duration<double, std::milli>(now - frame_start).count());
       if (frames >= o.bench_frames + kScreenshotFrames) {
         print_frame_times(frame_ms, first_frame_ms);
+        std::printf("scale: %.2f (screen content scale %.2f x UI scale %.2f)\n", (*window)->scale(),
+                    (*window)->content_scale(), app.settings().ui_scale);
         return 0;
       }
     }

@@ -4,10 +4,20 @@
 
 #include <cstdio>
 #include <filesystem>
+#include <string>
 
 #include "app/screens/widgets.h"
 
 namespace furrow {
+namespace {
+
+// "2026-05-02T10:11:12.000Z" as "2026-05-02 10:11 UTC".
+std::string readable_time(const std::string& iso) {
+  if (iso.size() < 16) return iso;
+  return iso.substr(0, 10) + " " + iso.substr(11, 5) + " UTC";
+}
+
+}  // namespace
 
 std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme& t, float scale, float top_px,
                                                TrialsScreenState* st) {
@@ -34,9 +44,9 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
     const TrialSummary& s = v.trials[i];
     char text[700];
     if (s.problem.empty())
-      std::snprintf(text, sizeof text, "%s%s\n%s, %d plots, %d traits  |  %.0f %% collected  |  last change %s##t%zu",
+      std::snprintf(text, sizeof text, "%s%s\n%s, %d plots, %d traits\n%.0f %% collected, last change %s##t%zu",
                     s.name.c_str(), s.path == v.current ? "  (open now)" : "", s.design.c_str(), s.plots, s.traits,
-                    s.progress.percent(), s.progress.last_change.substr(0, 16).c_str(), i);
+                    s.progress.percent(), readable_time(s.progress.last_change).c_str(), i);
     else
       std::snprintf(text, sizeof text, "%s\ncannot be read: %s##t%zu", s.file_name.c_str(), s.problem.c_str(), i);
     ButtonLook look = s.path == v.current ? ButtonLook{t.accent, t.accent_text} : ButtonLook{t.panel, t.text};

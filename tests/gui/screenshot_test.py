@@ -104,4 +104,12 @@ for name, size, screen, view in shots:
     if view in must_show:
         check(marked / sampled > 0.01, f"{name}: shows its colour #{mark.hex()} ({marked / sampled:.3f})")
     print(f"{name}: {png}")
+
+# The screen's content scale (here from the X resource Xft.dpi, as desktops
+# set it for high-density screens) multiplies every size: 144 dpi is 1.5.
+p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c",
+                    f"echo 'Xft.dpi: 144' | xrdb -merge && exec '{furrow}' field --db '{db}' --observer Check "
+                    "--bench-frames 1"], capture_output=True, text=True, env=env, timeout=120)
+check(p.returncode == 0 and "scale: 1.50 (screen content scale 1.50" in p.stdout,
+      f"a 144 dpi screen scales the app by 1.5 ({p.stdout.strip()[-120:]!r} {p.stderr[-200:]!r})")
 check.finish()
