@@ -6,6 +6,7 @@
 #include <iostream>
 
 #include "app/cli_analyze.h"
+#include "app/cli_station.h"
 #include "app/cli_trial.h"
 #include "app/field_app.h"
 
@@ -49,6 +50,36 @@ int main(int argc, char** argv) {
   trial_new->add_option("--db", trial_db, "trial database to create")->required();
   auto* trial_show = trial->add_subcommand("show", "Show a trial's plan and progress");
   trial_show->add_option("--db", trial_db, "trial database")->required();
+  std::string copy_from;
+  auto* trial_copy = trial->add_subcommand("copy", "Make a device's copy of the station's trial (new device id)");
+  trial_copy->add_option("--from", copy_from, "the station's trial database")->required();
+  trial_copy->add_option("--db", trial_db, "the device's trial database to create")->required();
+
+  // Day's end: bundles, merging, conflicts.
+  std::string station_db, bundle_out;
+  bool bundle_all = false, conflicts_json = false;
+  std::vector<std::string> bundle_files;
+  auto* bundle = app.add_subcommand("bundle", "Write the log rows the station has not seen to a bundle file");
+  bundle->add_option("--db", station_db, "trial database")->required();
+  bundle->add_option("--out", bundle_out, "bundle file to write")->required();
+  bundle->add_flag("--all", bundle_all, "every row of the log, not only what the station has not seen");
+  auto* merge = app.add_subcommand("merge", "Merge bundles into a trial database (any order, any number of times)");
+  merge->add_option("--db", station_db, "trial database")->required();
+  merge->add_option("bundles", bundle_files, "bundle files")->required();
+  auto* conflicts = app.add_subcommand("conflicts", "List cells where devices recorded different values");
+  conflicts->add_option("--db", station_db, "trial database")->required();
+  conflicts->add_flag("--json", conflicts_json, "JSON instead of text");
+  furrow::SettleRequest settle_req;
+  auto* settle = app.add_subcommand("settle", "Settle one conflict with a new log row");
+  settle->add_option("--db", settle_req.db, "trial database")->required();
+  settle->add_option("--plot", settle_req.plot, "plot label")->required();
+  settle->add_option("--trait", settle_req.trait, "trait code")->required();
+  settle->add_option("--occasion", settle_req.occasion, "occasion (default 1)");
+  settle->add_option("--keep", settle_req.keep, "keep this row's value: DEVICE/SEQUENCE as listed");
+  settle->add_option("--value", settle_req.value, "a new value (checked like an entry)");
+  settle->add_option("--missing", settle_req.missing, "no value, with the reason");
+  settle->add_option("--by", settle_req.by, "who settles")->required();
+  settle->add_option("--note", settle_req.note, "why");
 
   furrow::RecordRequest rec;
   auto* record = app.add_subcommand("record", "Check and save one value (exit 2 refused, 3 needs --confirm)");
@@ -118,6 +149,11 @@ int main(int argc, char** argv) {
   }
   if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
   if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
+  if (trial_copy->parsed()) return furrow::run_trial_copy(copy_from, trial_db);
+  if (bundle->parsed()) return furrow::run_bundle(station_db, bundle_out, bundle_all);
+  if (merge->parsed()) return furrow::run_merge(station_db, bundle_files);
+  if (conflicts->parsed()) return furrow::run_conflicts(station_db, conflicts_json);
+  if (settle->parsed()) return furrow::run_settle(settle_req);
   if (record->parsed()) return furrow::run_record(rec);
   if (exp->parsed()) {
     if (!long_table && !wide_table && !layout_table) {

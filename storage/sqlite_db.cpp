@@ -3,6 +3,8 @@
 
 #include <sqlite3.h>
 
+#include <cstdio>
+
 namespace furrow {
 
 Statement::~Statement() {
@@ -81,6 +83,40 @@ Result<Database> Database::open(const std::string& path, bool create) {
   }
   return d;
 }
+
+Result<Database> Database::open_read_only(const std::string& path) {
+  Database d;
+  // Percent-encode what a URI path cannot hold as it is.
+  std::string uri = "file:";
+  for (unsigned char c : path) {
+    if (c == '%' || c == '?' || c == '#' || c < 0x20) {
+      char buf[4];
+      std::snprintf(buf, sizeof buf, "%%%02X", c);
+      uri += buf;
+    } else {
+      uri += static_cast<char>(c);
+    }
+  }
+  uri += "?immutable=1";
+  if (sqlite3_open_v2(uri.c_str(), &d.db_, SQLITE_OPEN_READONLY | SQLITE_OPEN_URI, nullptr) != SQLITE_OK) {
+    std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
+    return make_problem("cannot open " + path + ": " + msg);
+  }
+  return d;
+}
+
+Result<Database> Database::create_standalone(const std::string& path) {
+  Database d;
+  if (sqlite3_open_v2(path.c_str(), &d.db_, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE, nullptr) != SQLITE_OK) {
+    std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
+    return make_problem("cannot create " + path + ": " + msg);
+  }
+  for (const char* pragma : {"PRAGMA journal_mode = DELETE", "PRAGMA synchronous = FULL"})
+    if (auto s = d.exec(pragma); !s) return make_problem(path + ": " + s.problem().message);
+  return d;
+}
+
+int Database::changes() const { return sqlite3_changes(db_); }
 
 Status Database::exec(const std::string& sql) {
   char* err = nullptr;

@@ -62,10 +62,17 @@ class Database {
   // Opens (create = true: creates) the file with foreign keys on, WAL journal
   // and synchronous=FULL: every commit is on disk when it returns.
   static Result<Database> open(const std::string& path, bool create);
+  // Opens a file for reading only, as immutable: nothing is written beside
+  // it (no journal), and a damaged file fails on read, not on open.
+  static Result<Database> open_read_only(const std::string& path);
+  // A file written once as a whole: rollback journal (no WAL beside it),
+  // synchronous=FULL.
+  static Result<Database> create_standalone(const std::string& path);
 
   Status exec(const std::string& sql);
   Result<Statement> prepare(const std::string& sql);
   std::int64_t last_insert_rowid() const;
+  int changes() const;   // rows changed by the last statement
   sqlite3* handle() const { return db_; }
 
  private:

@@ -110,6 +110,36 @@ CREATE VIEW conflict AS
   HAVING count(DISTINCT coalesce(value, '') || char(31) || coalesce(missing_reason, '')) > 1;
 )sql";
 
+// Version 2: a trial's identity shared by every copy (uid), whether this file
+// is the station's or a device's copy, what the station is known to hold
+// (for bundles of what it has not seen) and the bundles already merged.
+constexpr const char* kSchemaV2 = R"sql(
+ALTER TABLE trial ADD COLUMN uid TEXT NOT NULL DEFAULT '';
+ALTER TABLE trial ADD COLUMN role TEXT NOT NULL DEFAULT 'station' CHECK (role IN ('station', 'device'));
+CREATE TABLE station_holding (
+  device_id TEXT PRIMARY KEY,
+  max_sequence INTEGER NOT NULL
+) STRICT;
+CREATE TABLE merged_bundle (
+  checksum TEXT PRIMARY KEY,
+  maker_device_id TEXT NOT NULL,
+  first_merged_at TEXT NOT NULL,
+  observations_added INTEGER NOT NULL,
+  replacements_added INTEGER NOT NULL
+) STRICT;
+)sql";
+
+std::string random_hex(int bytes) {
+  std::random_device rd;
+  std::string out;
+  char buf[4];
+  for (int i = 0; i < bytes; ++i) {
+    std::snprintf(buf, sizeof buf, "%02x", static_cast<unsigned>(rd() & 0xFF));
+    out += buf;
+  }
+  return out;
+}
+
 std::string new_device_id() {
   std::random_device rd;
   const std::uint64_t v = (static_cast<std::uint64_t>(rd()) << 32) ^ rd();
@@ -149,17 +179,17 @@ std::vector<std::string> split_categories(const std::string& s) {
     if (!furrow_status_) return furrow_status_.problem(); \
   } while (0)
 
-Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout) {
+Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout, const TrialIdentity& id) {
   auto st = db.prepare(
       "INSERT INTO trial (name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
-      "plot_width_m, block_shape, block_rows, block_columns, walk, seed, sites, status, created_at) "
-      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?, 'collecting', ?)");
+      "plot_width_m, block_shape, block_rows, block_columns, walk, seed, sites, status, created_at, uid, role) "
+      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?, 'collecting', ?, ?, ?)");
   if (!st) return st.problem();
   st->bind(1, p.name).bind(2, p.site).bind(3, p.season).bind(4, design_kind_key(p.design)).bind(5, p.replicates)
       .bind(6, p.rows).bind(7, p.columns).bind(8, p.plot_length_m).bind(9, p.plot_width_m)
       .bind(10, block_shape_key(p.block_shape)).bind(11, p.block_rows).bind(12, p.block_columns)
       .bind(13, walk_key(p.walk)).bind(14, std::to_string(p.seed)).bind(15, join_categories(p.sites))
-      .bind(16, utc_now());
+      .bind(16, utc_now()).bind(17, id.uid.empty() ? random_hex(16) : id.uid).bind(18, id.role);
   FURROW_TRY(st->run());
   const std::int64_t trial_id = db.last_insert_rowid();
   std::vector<std::int64_t> factor_ids;
@@ -253,17 +283,26 @@ Status migrate(Database& db) {
       FURROW_TRY(db.exec(kSchemaV1));
       FURROW_TRY(db.exec("PRAGMA user_version = 1"));
     }
+    if (version < 2) {
+      FURROW_TRY(db.exec(kSchemaV2));
+      auto u = db.prepare("UPDATE trial SET uid = ? WHERE uid = ''");
+      if (!u) return u.problem();
+      u->bind(1, random_hex(16));
+      FURROW_TRY(u->run());
+      FURROW_TRY(db.exec("PRAGMA user_version = 2"));
+    }
     return ok_status();
   });
 }
 
-Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout) {
+Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout,
+                             const TrialIdentity& identity) {
   if (std::filesystem::exists(path)) return make_problem(path + " already exists; choose a new file name");
   Status result = [&]() -> Status {
     auto db = Database::open(path, true);
     if (!db) return db.problem();
     FURROW_TRY(migrate(*db));
-    return in_transaction(*db, [&]() { return insert_trial(*db, plan, layout); });
+    return in_transaction(*db, [&]() { return insert_trial(*db, plan, layout, identity); });
   }();
   if (!result) {
     std::error_code ec;
@@ -283,7 +322,8 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
   TrialPlan& p = t.plan;
   {
     auto s = d.prepare("SELECT id, name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
-                       "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at, sites FROM trial");
+                       "plot_width_m, block_shape, block_rows, block_columns, walk, seed, status, created_at, sites, uid, role "
+                       "FROM trial");
     if (!s) return s.problem();
     if (!s->step()) return make_problem(path + " holds no trial");
     t.id = s->integer(0);
@@ -304,6 +344,8 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
     t.status = s->text(15);
     t.created_at = s->text(16);
     p.sites = split_categories(s->text(17));
+    t.uid = s->text(18);
+    t.role = s->text(19);
   }
   std::vector<std::int64_t> factor_ids;
   std::vector<std::vector<std::int64_t>> level_ids;

@@ -21,7 +21,7 @@
 
 namespace furrow {
 
-inline constexpr int kSchemaVersion = 1;
+inline constexpr int kSchemaVersion = 2;
 
 // Brings the schema to kSchemaVersion. A database from a newer Furrow is
 // refused (its user_version is higher than ours).
@@ -34,11 +34,20 @@ struct StoredTrial {
   std::vector<std::int64_t> plot_ids;     // parallel to layout.plots
   std::vector<std::int64_t> trait_ids;    // parallel to plan.traits
   std::string status, created_at, device_id;
+  std::string uid;    // the trial's identity, shared by the station's file and every device's copy
+  std::string role;   // "station" (made from the plan) or "device" (a copy of the station's)
+};
+
+struct TrialIdentity {
+  std::string uid;               // empty: a new trial, new identity
+  std::string role = "station";
 };
 
 // Creates a new trial database file (which must not exist) holding the plan
-// and its layout. On failure the file is removed again.
-Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout);
+// and its layout. On failure the file is removed again. A device's copy of
+// a station's trial passes the station's uid and the role "device".
+Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout,
+                             const TrialIdentity& identity = {});
 
 // Opens an existing trial database (migrating it) and reads its trial.
 struct OpenTrial {

@@ -1,0 +1,599 @@
+#include "storage/bundle.h"
+
+#include <boost/uuid/detail/sha1.hpp>
+
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <optional>
+
+#include "core/design.h"
+
+namespace furrow {
+namespace {
+
+constexpr std::int64_t kBundleApplicationId = 0x46524231;   // "FRB1"
+constexpr const char* kFormat = "furrow-bundle";
+constexpr const char* kVersion = "1";
+
+#define FURROW_TRY(expr)                                    \
+  do {                                                      \
+    auto furrow_status_ = (expr);                           \
+    if (!furrow_status_) return furrow_status_.problem();   \
+  } while (0)
+
+// SHA-1 over length-prefixed fields, so that no two different sequences of
+// fields give the same stream.
+class Digest {
+ public:
+  void field(const std::string& s) {
+    const std::string head = std::to_string(s.size()) + ":";
+    h_.process_bytes(head.data(), head.size());
+    h_.process_bytes(s.data(), s.size());
+  }
+  void field(const std::optional<std::string>& s) {
+    if (s) field(*s);
+    else h_.process_byte('~');
+  }
+  void field(std::int64_t v) { field(std::to_string(v)); }
+  void field(const std::optional<double>& v) {
+    if (!v) {
+      h_.process_byte('~');
+      return;
+    }
+    char buf[40];
+    std::snprintf(buf, sizeof buf, "%.17g", *v);
+    field(std::string(buf));
+  }
+  void end_row() { h_.process_byte('\n'); }
+  std::string hex() {
+    boost::uuids::detail::sha1::digest_type d;
+    h_.get_digest(d);
+    char buf[48];
+    std::snprintf(buf, sizeof buf, "%08x%08x%08x%08x%08x", d[0], d[1], d[2], d[3], d[4]);
+    return buf;
+  }
+
+ private:
+  boost::uuids::detail::sha1 h_;
+};
+
+std::optional<std::string> opt_text(const Statement& s, int col) {
+  if (s.is_null(col)) return std::nullopt;
+  return s.text(col);
+}
+std::optional<double> opt_real(const Statement& s, int col) {
+  if (s.is_null(col)) return std::nullopt;
+  return s.real(col);
+}
+
+std::string opt_key(const std::optional<double>& v) {
+  if (!v) return "~";
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%.17g", *v);
+  return buf;
+}
+
+// One log row as bundles carry it (plots and traits by label and code).
+struct Row {
+  std::string device_id;
+  std::int64_t sequence = 0;
+  std::string plot_label, trait_code;
+  std::int64_t occasion = 1;
+  std::optional<std::string> value;
+  std::optional<double> number;
+  std::optional<std::string> missing_reason;
+  std::string note, observer, recorded_at;
+  bool operator==(const Row& o) const {
+    return device_id == o.device_id && sequence == o.sequence && plot_label == o.plot_label &&
+           trait_code == o.trait_code && occasion == o.occasion && value == o.value &&
+           opt_key(number) == opt_key(o.number) && missing_reason == o.missing_reason && note == o.note &&
+           observer == o.observer && recorded_at == o.recorded_at;
+  }
+};
+struct Link {
+  std::string device_id;
+  std::int64_t sequence = 0;
+  std::string replaced_device_id;
+  std::int64_t replaced_sequence = 0;
+};
+
+void digest_row(Digest& d, const Row& r) {
+  d.field(r.device_id);
+  d.field(r.sequence);
+  d.field(r.plot_label);
+  d.field(r.trait_code);
+  d.field(r.occasion);
+  d.field(r.value);
+  d.field(r.number);
+  d.field(r.missing_reason);
+  d.field(r.note);
+  d.field(r.observer);
+  d.field(r.recorded_at);
+  d.end_row();
+}
+void digest_link(Digest& d, const Link& l) {
+  d.field(l.device_id);
+  d.field(l.sequence);
+  d.field(l.replaced_device_id);
+  d.field(l.replaced_sequence);
+  d.end_row();
+}
+
+const char* kManifestKeys[] = {"format",          "version",    "trial_uid",    "trial_name",   "plan_hash",
+                               "maker_device_id", "maker_role", "created_at",   "observations", "replacements"};
+
+std::map<std::string, std::string> manifest_fields(const BundleManifest& m) {
+  return {{"format", kFormat},
+          {"version", kVersion},
+          {"trial_uid", m.trial_uid},
+          {"trial_name", m.trial_name},
+          {"plan_hash", m.plan_hash},
+          {"maker_device_id", m.maker_device_id},
+          {"maker_role", m.maker_role},
+          {"created_at", m.created_at},
+          {"observations", std::to_string(m.observations)},
+          {"replacements", std::to_string(m.replacements)}};
+}
+
+// Every device's contiguous prefix of sequence numbers held in `db`.
+Result<std::map<std::string, std::int64_t>> holdings(Database& db) {
+  auto s = db.prepare("SELECT device_id, sequence FROM observation ORDER BY device_id, sequence");
+  if (!s) return s.problem();
+  std::map<std::string, std::int64_t> out;
+  std::string device;
+  std::int64_t next = 1;
+  bool broken = false;
+  while (s->step()) {
+    if (s->text(0) != device) {
+      device = s->text(0);
+      next = 1;
+      broken = false;
+    }
+    if (!broken && s->integer(1) == next) {
+      out[device] = next;
+      ++next;
+    } else {
+      broken = true;
+    }
+  }
+  return out;
+}
+
+const char* kRowColumns =
+    "o.device_id, o.sequence, p.label, t.code, o.occasion, o.value, o.number, o.missing_reason, o.note, o.observer, "
+    "o.recorded_at";
+
+Row read_row(const Statement& s) {
+  Row r;
+  r.device_id = s.text(0);
+  r.sequence = s.integer(1);
+  r.plot_label = s.text(2);
+  r.trait_code = s.text(3);
+  r.occasion = s.integer(4);
+  r.value = opt_text(s, 5);
+  r.number = opt_real(s, 6);
+  r.missing_reason = opt_text(s, 7);
+  r.note = s.text(8);
+  r.observer = s.text(9);
+  r.recorded_at = s.text(10);
+  return r;
+}
+
+// An open bundle whose format, integrity and checksum have been checked.
+struct OpenBundle {
+  Database db;
+  BundleManifest manifest;
+  std::map<std::string, std::int64_t> holding;
+};
+
+Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
+  const auto fail = [&](const std::string& why) { return make_problem(path + ": " + why); };
+  {
+    std::ifstream in(path, std::ios::binary);
+    if (!in) return fail("cannot be read (no such file?)");
+    char head[16] = {};
+    in.read(head, 16);
+    if (in.gcount() < 16 || std::memcmp(head, "SQLite format 3", 16) != 0)
+      return fail("not a Furrow bundle (not an SQLite file)");
+  }
+  auto db = Database::open_read_only(path);
+  if (!db) return fail(db.problem().message);
+  OpenBundle b{std::move(db).value(), {}, {}};
+  {
+    auto s = b.db.prepare("PRAGMA application_id");
+    if (!s) return fail("damaged or not a bundle: " + s.problem().message);
+    if (!s->step() || s->integer(0) != kBundleApplicationId) return fail("not a Furrow bundle (another kind of SQLite file)");
+  }
+  {
+    auto s = b.db.prepare("PRAGMA quick_check");
+    if (!s) return fail("damaged: " + s.problem().message);
+    if (!s->step() || s->text(0) != "ok") return fail("damaged or truncated (the SQLite integrity check failed)");
+  }
+  std::map<std::string, std::string> m;
+  {
+    auto s = b.db.prepare("SELECT key, value FROM manifest");
+    if (!s) return fail("damaged or truncated: " + s.problem().message);
+    while (s->step()) m[s->text(0)] = s->text(1);
+    if (s->failed()) return fail("damaged or truncated: " + s->error());
+  }
+  if (m["format"] != kFormat) return fail("not a Furrow bundle (no bundle manifest)");
+  if (m["version"] != kVersion) return fail("bundle version " + m["version"] + " is not one this Furrow reads");
+  for (const char* k : kManifestKeys)
+    if (!m.count(k)) return fail(std::string("the manifest has no '") + k + "'");
+  BundleManifest& man = b.manifest;
+  man.trial_uid = m["trial_uid"];
+  man.trial_name = m["trial_name"];
+  man.plan_hash = m["plan_hash"];
+  man.maker_device_id = m["maker_device_id"];
+  man.maker_role = m["maker_role"];
+  man.created_at = m["created_at"];
+  man.checksum = m["checksum"];
+  try {
+    man.observations = std::stoll(m["observations"]);
+    man.replacements = std::stoll(m["replacements"]);
+  } catch (...) {
+    return fail("the manifest's row counts are not numbers");
+  }
+  {
+    auto s = b.db.prepare("SELECT device_id, max_sequence FROM holding ORDER BY device_id");
+    if (!s) return fail("damaged or truncated: " + s.problem().message);
+    while (s->step()) b.holding[s->text(0)] = s->integer(1);
+  }
+  if (!verify_rows) return b;
+  Digest d;
+  for (const auto& [k, v] : manifest_fields(man)) {
+    d.field(k);
+    d.field(v);
+  }
+  for (const auto& [dev, n] : b.holding) {
+    d.field(dev);
+    d.field(n);
+  }
+  std::int64_t rows = 0, links = 0;
+  {
+    auto s = b.db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, missing_reason, "
+                          "note, observer, recorded_at FROM observation ORDER BY device_id, sequence");
+    if (!s) return fail("damaged or truncated: " + s.problem().message);
+    while (s->step()) {
+      digest_row(d, read_row(*s));
+      ++rows;
+    }
+    if (s->failed()) return fail("damaged or truncated: " + s->error());
+  }
+  {
+    auto s = b.db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement "
+                          "ORDER BY device_id, sequence, replaced_device_id, replaced_sequence");
+    if (!s) return fail("damaged or truncated: " + s.problem().message);
+    while (s->step()) {
+      digest_link(d, {s->text(0), s->integer(1), s->text(2), s->integer(3)});
+      ++links;
+    }
+    if (s->failed()) return fail("damaged or truncated: " + s->error());
+  }
+  if (rows != man.observations || links != man.replacements)
+    return fail("holds " + std::to_string(rows) + " observations and " + std::to_string(links) +
+                " links but its manifest says " + std::to_string(man.observations) + " and " +
+                std::to_string(man.replacements) + " (truncated or altered)");
+  if (d.hex() != man.checksum) return fail("the checksum does not match its content (the file was damaged or altered)");
+  return b;
+}
+
+const char* kBundleSchema = R"sql(
+CREATE TABLE manifest (key TEXT PRIMARY KEY, value TEXT NOT NULL) STRICT;
+CREATE TABLE observation (
+  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
+  plot_label TEXT NOT NULL, trait_code TEXT NOT NULL, occasion INTEGER NOT NULL,
+  value TEXT, number REAL, missing_reason TEXT,
+  note TEXT NOT NULL, observer TEXT NOT NULL, recorded_at TEXT NOT NULL,
+  PRIMARY KEY (device_id, sequence)
+) STRICT, WITHOUT ROWID;
+CREATE TABLE replacement (
+  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
+  replaced_device_id TEXT NOT NULL, replaced_sequence INTEGER NOT NULL,
+  PRIMARY KEY (device_id, sequence, replaced_device_id, replaced_sequence)
+) STRICT, WITHOUT ROWID;
+CREATE TABLE holding (device_id TEXT PRIMARY KEY, max_sequence INTEGER NOT NULL) STRICT;
+)sql";
+
+}  // namespace
+
+std::string plan_hash(const StoredTrial& t) {
+  Digest d;
+  const TrialPlan& p = t.plan;
+  d.field(p.name);
+  d.field(std::string(design_kind_key(p.design)));
+  for (std::int64_t v : {std::int64_t{p.replicates}, std::int64_t{p.rows}, std::int64_t{p.columns}}) d.field(v);
+  d.end_row();
+  for (const auto& s : p.sites) d.field(s);
+  d.end_row();
+  for (const auto& f : p.factors) {
+    d.field(f.name);
+    for (const auto& l : f.levels) d.field(l);
+    d.end_row();
+  }
+  for (const Trait& tr : p.traits) {
+    d.field(tr.code);
+    d.field(tr.name);
+    d.field(tr.unit);
+    d.field(std::string(trait_kind_key(tr.kind)));
+    d.field(std::int64_t{tr.decimals});
+    for (const auto& v : {tr.hard_min, tr.hard_max, tr.soft_min, tr.soft_max}) d.field(v);
+    for (std::int64_t v : {std::int64_t{tr.required}, std::int64_t{tr.occasions}, std::int64_t{tr.scale_min},
+                           std::int64_t{tr.scale_max}})
+      d.field(v);
+    for (const auto& c : tr.categories) d.field(c);
+    d.end_row();
+  }
+  for (const PlannedPlot& pl : t.layout.plots) {
+    d.field(pl.label);
+    for (std::int64_t v : {std::int64_t{pl.site}, std::int64_t{pl.block}, std::int64_t{pl.row}, std::int64_t{pl.column},
+                           std::int64_t{pl.walk_order}})
+      d.field(v);
+    for (int l : pl.levels) d.field(std::int64_t{l});
+    d.end_row();
+  }
+  return d.hex();
+}
+
+Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, const std::string& out_path,
+                                    bool everything) {
+  everything = everything || trial.role == "station";
+  // Rows the station is not known to hold, and every row those replace (recursively).
+  const std::string selection =
+      std::string("WITH RECURSIVE sel(device_id, sequence) AS (SELECT o.device_id, o.sequence FROM observation o ") +
+      (everything ? "" :
+                  "WHERE NOT EXISTS (SELECT 1 FROM station_holding h WHERE h.device_id = o.device_id "
+                  "AND h.max_sequence >= o.sequence) ") +
+      "UNION SELECT r.replaced_device_id, r.replaced_sequence FROM replacement r "
+      "JOIN sel ON r.device_id = sel.device_id AND r.sequence = sel.sequence) ";
+  std::vector<Row> rows;
+  std::vector<Link> links;
+  {
+    auto s = db.prepare(selection + "SELECT " + kRowColumns +
+                        " FROM observation o JOIN sel ON o.device_id = sel.device_id AND o.sequence = sel.sequence "
+                        "JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
+                        "ORDER BY o.device_id, o.sequence");
+    if (!s) return s.problem();
+    while (s->step()) rows.push_back(read_row(*s));
+    if (s->failed()) return make_problem(s->error());
+  }
+  {
+    auto s = db.prepare(selection +
+                        "SELECT r.device_id, r.sequence, r.replaced_device_id, r.replaced_sequence FROM replacement r "
+                        "JOIN sel ON r.device_id = sel.device_id AND r.sequence = sel.sequence "
+                        "ORDER BY r.device_id, r.sequence, r.replaced_device_id, r.replaced_sequence");
+    if (!s) return s.problem();
+    while (s->step()) links.push_back({s->text(0), s->integer(1), s->text(2), s->integer(3)});
+    if (s->failed()) return make_problem(s->error());
+  }
+  auto held = holdings(db);
+  if (!held) return held.problem();
+
+  BundleManifest m;
+  m.trial_uid = trial.uid;
+  m.trial_name = trial.plan.name;
+  m.plan_hash = plan_hash(trial);
+  m.maker_device_id = trial.device_id;
+  m.maker_role = trial.role;
+  m.created_at = utc_now();
+  m.observations = static_cast<std::int64_t>(rows.size());
+  m.replacements = static_cast<std::int64_t>(links.size());
+  Digest d;
+  const auto fields = manifest_fields(m);
+  for (const auto& [k, v] : fields) {
+    d.field(k);
+    d.field(v);
+  }
+  for (const auto& [dev, n] : *held) {
+    d.field(dev);
+    d.field(n);
+  }
+  for (const Row& r : rows) digest_row(d, r);
+  for (const Link& l : links) digest_link(d, l);
+  m.checksum = d.hex();
+
+  const std::string part = out_path + ".part";
+  std::error_code ec;
+  std::filesystem::remove(part, ec);
+  Status written = [&]() -> Status {
+    auto b = Database::create_standalone(part);
+    if (!b) return b.problem();
+    FURROW_TRY(b->exec("PRAGMA application_id = " + std::to_string(kBundleApplicationId)));
+    FURROW_TRY(b->exec(kBundleSchema));
+    return in_transaction(*b, [&]() -> Status {
+      auto ms = b->prepare("INSERT INTO manifest (key, value) VALUES (?, ?)");
+      if (!ms) return ms.problem();
+      for (const auto& [k, v] : fields) {
+        ms->reset();
+        ms->bind(1, k).bind(2, v);
+        FURROW_TRY(ms->run());
+      }
+      ms->reset();
+      ms->bind(1, "checksum").bind(2, m.checksum);
+      FURROW_TRY(ms->run());
+      auto hs = b->prepare("INSERT INTO holding (device_id, max_sequence) VALUES (?, ?)");
+      if (!hs) return hs.problem();
+      for (const auto& [dev, n] : *held) {
+        hs->reset();
+        hs->bind(1, dev).bind(2, n);
+        FURROW_TRY(hs->run());
+      }
+      auto os = b->prepare("INSERT INTO observation VALUES (?,?,?,?,?,?,?,?,?,?,?)");
+      if (!os) return os.problem();
+      for (const Row& r : rows) {
+        os->reset();
+        os->bind(1, r.device_id).bind(2, r.sequence).bind(3, r.plot_label).bind(4, r.trait_code).bind(5, r.occasion)
+            .bind(6, r.value).bind(7, r.number).bind(8, r.missing_reason).bind(9, r.note).bind(10, r.observer)
+            .bind(11, r.recorded_at);
+        FURROW_TRY(os->run());
+      }
+      auto ls = b->prepare("INSERT INTO replacement VALUES (?,?,?,?)");
+      if (!ls) return ls.problem();
+      for (const Link& l : links) {
+        ls->reset();
+        ls->bind(1, l.device_id).bind(2, l.sequence).bind(3, l.replaced_device_id).bind(4, l.replaced_sequence);
+        FURROW_TRY(ls->run());
+      }
+      return ok_status();
+    });
+  }();
+  if (!written) {
+    std::filesystem::remove(part, ec);
+    return make_problem(out_path + ": " + written.problem().message);
+  }
+  std::filesystem::rename(part, out_path, ec);
+  if (ec) return make_problem(out_path + ": cannot write: " + ec.message());
+  return m;
+}
+
+Result<BundleManifest> read_bundle_manifest(const std::string& path) {
+  auto b = open_bundle(path, true);
+  if (!b) return b.problem();
+  return b->manifest;
+}
+
+Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const std::string& path) {
+  // A bundle merged before (same checksum) adds nothing: say so without reading its rows.
+  {
+    auto quick = open_bundle(path, false);
+    if (!quick) return quick.problem();
+    auto s = db.prepare("SELECT 1 FROM merged_bundle WHERE checksum = ?");
+    if (!s) return s.problem();
+    s->bind(1, quick->manifest.checksum);
+    if (s->step() && quick->manifest.trial_uid == trial.uid) return MergeOutcome{quick->manifest, 0, 0};
+  }
+  auto b = open_bundle(path, true);
+  if (!b) return b.problem();
+  const BundleManifest& m = b->manifest;
+  if (m.trial_uid != trial.uid)
+    return make_problem(path + ": a bundle of the trial '" + m.trial_name + "' (" + m.trial_uid +
+                        "), which this database does not hold (it holds '" + trial.plan.name + "', " + trial.uid + ")");
+  if (m.plan_hash != plan_hash(trial))
+    return make_problem(path + ": made with a different plan of '" + m.trial_name +
+                        "' (plan hash " + m.plan_hash.substr(0, 12) + " here " + plan_hash(trial).substr(0, 12) + ")");
+  std::map<std::string, std::int64_t> plot_id, trait_id;
+  for (size_t i = 0; i < trial.layout.plots.size(); ++i) plot_id[trial.layout.plots[i].label] = trial.plot_ids[i];
+  for (size_t k = 0; k < trial.plan.traits.size(); ++k) trait_id[trial.plan.traits[k].code] = trial.trait_ids[k];
+
+  MergeOutcome out{m, 0, 0};
+  Status merged = in_transaction(db, [&]() -> Status {
+    auto read = b->db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, "
+                              "missing_reason, note, observer, recorded_at FROM observation ORDER BY device_id, sequence");
+    if (!read) return read.problem();
+    auto insert = db.prepare("INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, "
+                             "missing_reason, note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?) "
+                             "ON CONFLICT DO NOTHING");
+    if (!insert) return insert.problem();
+    auto held = db.prepare(std::string("SELECT ") + kRowColumns +
+                           " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
+                           "WHERE o.device_id = ? AND o.sequence = ?");
+    if (!held) return held.problem();
+    while (read->step()) {
+      const Row r = read_row(*read);
+      const auto p = plot_id.find(r.plot_label);
+      const auto t = trait_id.find(r.trait_code);
+      if (p == plot_id.end() || t == trait_id.end())
+        return make_problem(path + ": row " + r.device_id + "/" + std::to_string(r.sequence) + " names plot '" +
+                            r.plot_label + "' and trait '" + r.trait_code + "', not both in this trial");
+      insert->reset();
+      insert->bind(1, r.device_id).bind(2, r.sequence).bind(3, p->second).bind(4, t->second).bind(5, r.occasion)
+          .bind(6, r.value).bind(7, r.number).bind(8, r.missing_reason).bind(9, r.note).bind(10, r.observer)
+          .bind(11, r.recorded_at);
+      FURROW_TRY(insert->run());
+      if (db.changes() == 1) {
+        ++out.observations_added;
+        continue;
+      }
+      // Held already: it must be the very same row.
+      held->reset();
+      held->bind(1, r.device_id).bind(2, r.sequence);
+      if (!held->step() || !(read_row(*held) == r))
+        return make_problem(path + ": row " + r.device_id + "/" + std::to_string(r.sequence) +
+                            " differs from the row of that key this database holds; the two logs disagree");
+    }
+    if (read->failed()) return make_problem(path + ": " + read->error());
+    auto links = b->db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement");
+    if (!links) return links.problem();
+    auto link = db.prepare("INSERT INTO replacement (device_id, sequence, replaced_device_id, replaced_sequence) "
+                           "VALUES (?,?,?,?) ON CONFLICT DO NOTHING");
+    if (!link) return link.problem();
+    while (links->step()) {
+      link->reset();
+      link->bind(1, links->text(0)).bind(2, links->integer(1)).bind(3, links->text(2)).bind(4, links->integer(3));
+      if (auto s = link->run(); !s)
+        return make_problem(path + ": a link of row " + links->text(0) + "/" + std::to_string(links->integer(1)) +
+                            " names a row neither file holds (" + s.problem().message + ")");
+      out.replacements_added += db.changes();
+    }
+    if (m.maker_role == "station" && trial.role == "device") {
+      auto h = db.prepare("INSERT INTO station_holding (device_id, max_sequence) VALUES (?, ?) "
+                          "ON CONFLICT (device_id) DO UPDATE SET max_sequence = max(max_sequence, excluded.max_sequence)");
+      if (!h) return h.problem();
+      for (const auto& [dev, n] : b->holding) {
+        h->reset();
+        h->bind(1, dev).bind(2, n);
+        FURROW_TRY(h->run());
+      }
+    }
+    auto note = db.prepare("INSERT INTO merged_bundle VALUES (?,?,?,?,?) ON CONFLICT DO NOTHING");
+    if (!note) return note.problem();
+    note->bind(1, m.checksum).bind(2, m.maker_device_id).bind(3, utc_now()).bind(4, out.observations_added)
+        .bind(5, out.replacements_added);
+    return note->run();
+  });
+  if (!merged) return merged.problem();
+  return out;
+}
+
+Result<std::string> canonical_log(Database& db) {
+  std::string out;
+  {
+    auto s = db.prepare(std::string("SELECT ") + kRowColumns +
+                        " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
+                        "ORDER BY o.device_id, o.sequence");
+    if (!s) return s.problem();
+    while (s->step()) {
+      const Row r = read_row(*s);
+      out += "o|" + r.device_id + "|" + std::to_string(r.sequence) + "|" + r.plot_label + "|" + r.trait_code + "|" +
+             std::to_string(r.occasion) + "|" + r.value.value_or("~") + "|" + opt_key(r.number) + "|" +
+             r.missing_reason.value_or("~") + "|" + r.note + "|" + r.observer + "|" + r.recorded_at + "\n";
+    }
+  }
+  {
+    auto s = db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement "
+                        "ORDER BY device_id, sequence, replaced_device_id, replaced_sequence");
+    if (!s) return s.problem();
+    while (s->step())
+      out += "r|" + s->text(0) + "|" + std::to_string(s->integer(1)) + "|" + s->text(2) + "|" +
+             std::to_string(s->integer(3)) + "\n";
+  }
+  return out;
+}
+
+Status copy_trial_for_device(const std::string& station_path, const std::string& device_path) {
+  if (std::filesystem::exists(device_path)) return make_problem(device_path + " already exists; choose a new file name");
+  auto station = open_trial_database(station_path);
+  if (!station) return station.problem();
+  const std::string temp = device_path + ".station-bundle";
+  auto made = write_bundle(station->db, station->trial, temp, true);
+  if (!made) return made.problem();
+  Status result = [&]() -> Status {
+    FURROW_TRY(create_trial_database(device_path, station->trial.plan, station->trial.layout,
+                                     TrialIdentity{station->trial.uid, "device"}));
+    auto device = open_trial_database(device_path);
+    if (!device) return device.problem();
+    auto merged = merge_bundle(device->db, device->trial, temp);
+    if (!merged) return merged.problem();
+    return ok_status();
+  }();
+  std::error_code ec;
+  std::filesystem::remove(temp, ec);
+  if (!result)
+    for (const char* suffix : {"", "-wal", "-shm"}) std::filesystem::remove(device_path + suffix, ec);
+  return result;
+}
+
+}  // namespace furrow
