@@ -48,7 +48,7 @@ std::string fresh_demo_trial(const std::string& name) {
   const std::string path = (dir / name).string();
   for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
   auto plan = read_plan_file(std::string(FURROW_SOURCE_DIR) + "/demo_data/harrow_ridge_oats_2026.plan.csv");
-  REQUIRE_MESSAGE(plan.ok(), plan.problem().message);
+  if (!plan) FAIL(plan.problem().message);
   REQUIRE(plan->layout.has_value());
   REQUIRE(create_trial_database(path, plan->plan, *plan->layout).ok());
   return path;

@@ -17,7 +17,7 @@ Analysis run(const std::string& file, const DesignRoles& roles, const std::strin
   AnalysisOptions options;
   options.method = method;
   auto r = analyse(table, roles, response, options);
-  REQUIRE_MESSAGE(r.ok(), r.problem().message);
+  if (!r.ok()) FAIL(r.problem().message);
   return *r;
 }
 

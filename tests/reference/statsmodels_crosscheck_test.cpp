@@ -42,7 +42,7 @@ void check_case(const std::string& name, FitMethod method) {
     options.method = method;
     options.comparisons = false;
     const auto result = analyse(table, roles, "y", options);
-    REQUIRE_MESSAGE(result.ok(), name << ": " << result.problem().message);
+    if (!result.ok()) FAIL(name << ": " << result.problem().message);
     const Analysis& a = *result;
     CHECK(a.n == expected["n"].get<int>());
     for (const auto& [source, want] : rows.items()) {
