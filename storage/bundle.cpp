@@ -456,15 +456,8 @@ Result<BundleManifest> read_bundle_manifest(const std::string& path) {
 }
 
 Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const std::string& path) {
-  // A bundle merged before (same checksum) adds nothing: say so without reading its rows.
-  {
-    auto quick = open_bundle(path, false);
-    if (!quick) return quick.problem();
-    auto s = db.prepare("SELECT 1 FROM merged_bundle WHERE checksum = ?");
-    if (!s) return s.problem();
-    s->bind(1, quick->manifest.checksum);
-    if (s->step() && quick->manifest.trial_uid == trial.uid) return MergeOutcome{quick->manifest, 0, 0};
-  }
+  // Every bundle is checked whole, even one merged before: a file altered
+  // since then is refused, not waved through by its old manifest.
   auto b = open_bundle(path, true);
   if (!b) return b.problem();
   const BundleManifest& m = b->manifest;
@@ -474,6 +467,13 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
   if (m.plan_hash != plan_hash(trial))
     return make_problem(path + ": made with a different plan of '" + m.trial_name +
                         "' (plan hash " + m.plan_hash.substr(0, 12) + " here " + plan_hash(trial).substr(0, 12) + ")");
+  {
+    // Merged before (same checksum): nothing new, and nothing to write.
+    auto s = db.prepare("SELECT 1 FROM merged_bundle WHERE checksum = ?");
+    if (!s) return s.problem();
+    s->bind(1, m.checksum);
+    if (s->step()) return MergeOutcome{m, 0, 0};
+  }
   std::map<std::string, std::int64_t> plot_id, trait_id;
   for (size_t i = 0; i < trial.layout.plots.size(); ++i) plot_id[trial.layout.plots[i].label] = trial.plot_ids[i];
   for (size_t k = 0; k < trial.plan.traits.size(); ++k) trait_id[trial.plan.traits[k].code] = trial.trait_ids[k];
