@@ -9,6 +9,7 @@
 #include "app/cli_station.h"
 #include "app/cli_trial.h"
 #include "app/field_app.h"
+#include "app/report.h"
 
 int main(int argc, char** argv) {
   CLI::App app{"Furrow: plot-by-plot field trial data checks and interim analysis"};
@@ -69,6 +70,13 @@ int main(int argc, char** argv) {
   auto* conflicts = app.add_subcommand("conflicts", "List cells where devices recorded different values");
   conflicts->add_option("--db", station_db, "trial database")->required();
   conflicts->add_flag("--json", conflicts_json, "JSON instead of text");
+  std::string report_db, report_out;
+  furrow::ReportOptions report_options;
+  auto* report = app.add_subcommand("report", "Write the trial's report as one self-contained HTML file");
+  report->add_option("--db", report_db, "trial database")->required();
+  report->add_option("--out", report_out, "HTML file to write")->required();
+  report->add_option("--map-trait", report_options.map_trait, "trait code that colours the field map");
+  report->add_option("--alpha", report_options.alpha, "significance level (default 0.05)");
   furrow::SettleRequest settle_req;
   auto* settle = app.add_subcommand("settle", "Settle one conflict with a new log row");
   settle->add_option("--db", settle_req.db, "trial database")->required();
@@ -154,6 +162,14 @@ int main(int argc, char** argv) {
   if (merge->parsed()) return furrow::run_merge(station_db, bundle_files);
   if (conflicts->parsed()) return furrow::run_conflicts(station_db, conflicts_json);
   if (settle->parsed()) return furrow::run_settle(settle_req);
+  if (report->parsed()) {
+    if (auto s = furrow::write_report(report_db, report_out, report_options); !s) {
+      std::cerr << s.problem().message << "\n";
+      return 2;
+    }
+    std::cout << "report written to " << report_out << "\n";
+    return 0;
+  }
   if (record->parsed()) return furrow::run_record(rec);
   if (exp->parsed()) {
     if (!long_table && !wide_table && !layout_table) {

@@ -10,57 +10,18 @@ usage: screenshot_test.py FURROW SOURCE_DIR WORK_DIR
 """
 import os
 import shutil
-import struct
 import subprocess
 import sys
-import zlib
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "cli"))
 from checks import Checks  # noqa: E402
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from png import read_png  # noqa: E402
 
 furrow, src, work = sys.argv[1:4]
 shutil.rmtree(work, ignore_errors=True)
 os.makedirs(work)
 check = Checks()
-
-
-def read_png(path):
-    """RGBA pixels of an 8-bit, non-interlaced PNG (as the app writes them)."""
-    with open(path, "rb") as f:
-        data = f.read()
-    assert data[:8] == b"\x89PNG\r\n\x1a\n"
-    pos, idat, width, height = 8, b"", 0, 0
-    while pos < len(data):
-        length, kind = struct.unpack(">I4s", data[pos:pos + 8])
-        body = data[pos + 8:pos + 8 + length]
-        if kind == b"IHDR":
-            width, height, depth, colour = struct.unpack(">IIBB", body[:10])
-            assert depth == 8 and colour == 6
-        elif kind == b"IDAT":
-            idat += body
-        pos += 12 + length
-    raw = zlib.decompress(idat)
-    stride, rows, prev = width * 4, [], bytearray(width * 4)
-    for y in range(height):
-        filt = raw[y * (stride + 1)]
-        line = bytearray(raw[y * (stride + 1) + 1:(y + 1) * (stride + 1)])
-        for i in range(stride):
-            a = line[i - 4] if i >= 4 else 0
-            b = prev[i]
-            c = prev[i - 4] if i >= 4 else 0
-            if filt == 1:
-                line[i] = (line[i] + a) & 0xFF
-            elif filt == 2:
-                line[i] = (line[i] + b) & 0xFF
-            elif filt == 3:
-                line[i] = (line[i] + (a + b) // 2) & 0xFF
-            elif filt == 4:
-                p = a + b - c
-                pa, pb, pc = abs(p - a), abs(p - b), abs(p - c)
-                line[i] = (line[i] + (a if pa <= pb and pa <= pc else b if pb <= pc else c)) & 0xFF
-        rows.append(bytes(line))
-        prev = line
-    return width, height, rows
 
 
 db = os.path.join(work, "demo.furrow")
