@@ -17,10 +17,14 @@
 #include "app/screens/map_screen.h"
 #include "app/screens/record_screen.h"
 #include "app/screens/settings_screen.h"
+#include "app/screens/station_screen.h"
 #include "app/screens/trials_screen.h"
 #include "app/screens/widgets.h"
 #include "app/settings.h"
+#include "app/station.h"
 #include "app/trial_analysis.h"
+#include "core/entry_checks.h"
+#include "storage/settle.h"
 #include "platform/app_window.h"
 #include "platform/data_folder.h"
 
@@ -32,10 +36,12 @@ using Clock = std::chrono::steady_clock;
 // While nothing happens the loop sleeps in the window system this long at a
 // time (battery: no frames are drawn without input).
 constexpr double kIdleWaitSeconds = 10.0;
+// Frames drawn without waiting after any input (see the main loop).
+constexpr int kFramesAfterInput = 3;
 // Frames drawn before a screenshot, so that fonts and layout have settled.
 constexpr int kScreenshotFrames = 3;
 
-enum class Screen { trials, record, map, check, leaving, settings, help };
+enum class Screen { trials, record, map, check, leaving, station, settings, help };
 
 struct Tab {
   const char* label;
@@ -44,12 +50,13 @@ struct Tab {
 };
 constexpr Tab kTabs[] = {{"Trials", Screen::trials, false},       {"Record", Screen::record, true},
                          {"Field map", Screen::map, true},        {"Check", Screen::check, true},
-                         {"Before leaving", Screen::leaving, true}, {"Settings", Screen::settings, false},
-                         {"Help", Screen::help, false}};
+                         {"Before leaving", Screen::leaving, true}, {"Station", Screen::station, false},
+                         {"Settings", Screen::settings, false},      {"Help", Screen::help, false}};
 
 Screen screen_named(const std::string& name) {
   for (const auto& [key, s] : {std::pair{"trials", Screen::trials}, {"record", Screen::record}, {"map", Screen::map},
-                               {"check", Screen::check}, {"leaving", Screen::leaving}, {"settings", Screen::settings},
+                               {"check", Screen::check}, {"leaving", Screen::leaving}, {"station", Screen::station},
+                               {"settings", Screen::settings},
                                {"help", Screen::help}})
     if (name == key) return s;
   return Screen::record;
@@ -81,7 +88,10 @@ class FieldApp {
   void set_screen(Screen s) {
     screen_ = s;
     if (s == Screen::trials) trials_.reset();
+    if (s == Screen::station) station_.reset();
   }
+  // Work is under way that needs frames without waiting for input.
+  bool busy() const { return import_ && !import_->done(); }
   bool has_trial() const { return session_.has_value(); }
   const std::string& trial_name() const { return session_->trial().plan.name; }
 
@@ -104,6 +114,7 @@ class FieldApp {
         break;
       }
       case Screen::help: draw_help_screen(theme_, scale, top); break;
+      case Screen::station: draw_station(scale, top); break;
       case Screen::settings: return draw_settings_screen(settings_, theme_, scale, top, &settings_ui_);
     }
     return std::nullopt;
@@ -159,6 +170,118 @@ class FieldApp {
     ImGui::PopStyleColor();
     nav_height_ = used;
     return used;
+  }
+
+  std::string bundle_folder() const { return folder_ + "/bundles"; }
+  std::string export_folder() const { return folder_ + "/exports"; }
+
+  void draw_station(float scale, float top) {
+    if (import_) {
+      if (!import_->done()) {
+        import_->step();   // one bundle per frame: the progress bar moves
+      } else if (!import_reported_) {
+        import_reported_ = true;
+        station_.reset();
+        if (session_) {
+          (void)session_->refresh();
+          map_.reset();
+          analysis_.reset();
+          leaving_.reset();
+        }
+        int merged = 0;
+        for (const auto& o : import_->outcomes()) merged += o.merged;
+        station_ui_.message = "Imported " + std::to_string(merged) + " of " + std::to_string(import_->total()) +
+                              " bundles from " + bundle_folder();
+        station_ui_.message_is_problem = merged < static_cast<int>(import_->total());
+      }
+    }
+    if (!station_) {
+      station_.emplace();
+      station_->bundle_folder = bundle_folder();
+      station_->export_folder = export_folder();
+      station_->trials = list_trials(folder_);
+      station_->trial = session_ ? &session_->trial() : nullptr;
+      if (session_) {
+        auto open = open_trial_database(trial_path_);
+        if (open) {
+          auto c = list_conflicts(open->db, open->trial);
+          if (c) station_->conflicts = std::move(c).value();
+        }
+      }
+    }
+    station_->importing = busy();
+    if (import_) {
+      station_->imported = import_->finished();
+      station_->to_import = import_->total();
+      station_->importing_file = import_->current_file();
+      station_->outcomes = import_->outcomes();
+    }
+    const auto action = draw_station_screen(*station_, theme_, scale, top, &station_ui_);
+    if (!action) return;
+    const auto report = [&](const Result<std::string>& r, const std::string& what) {
+      station_ui_.message = r ? what + " " + *r : r.problem().message;
+      station_ui_.message_is_problem = !r;
+    };
+    switch (action->kind) {
+      case StationAction::Kind::import_bundles:
+        std::filesystem::create_directories(bundle_folder());
+        import_.emplace(bundle_folder(), folder_);
+        import_reported_ = false;
+        station_ui_.message.clear();
+        break;
+      case StationAction::Kind::write_bundle: report(write_device_bundle(trial_path_, bundle_folder()), "Bundle written:"); break;
+      case StationAction::Kind::export_data: report(export_clean_data(trial_path_, export_folder()), "Data written:"); break;
+      case StationAction::Kind::export_report: report(export_report(trial_path_, export_folder()), "Report written:"); break;
+      case StationAction::Kind::keep:
+      case StationAction::Kind::new_value:
+      case StationAction::Kind::mark_missing: settle(*action); break;
+    }
+  }
+
+  void settle(const StationAction& a) {
+    const ConflictCell& cell = station_->conflicts.at(a.conflict);
+    Settlement s;
+    s.by = observer();
+    if (a.kind == StationAction::Kind::keep) {
+      s.kind = Settlement::Kind::keep;
+      s.keep = cell.rows.at(a.row).key;
+    } else if (a.kind == StationAction::Kind::new_value) {
+      const Trait& trait = session_->trial().plan.traits[cell.trait_index];
+      for (const Finding& f : check_entry(trait, a.text, EntryContext{}))
+        if (f.severity == Severity::refuse) {
+          station_ui_.message = a.text + " cannot be saved: " + f.message;
+          station_ui_.message_is_problem = true;
+          return;
+        }
+      auto parsed = parse_trait_value(trait, a.text);
+      if (!parsed) {
+        station_ui_.message = parsed.problem().message;
+        station_ui_.message_is_problem = true;
+        return;
+      }
+      s.kind = Settlement::Kind::new_value;
+      s.value = parsed->text;
+      s.number = parsed->number;
+    } else {
+      s.kind = Settlement::Kind::missing;
+      s.missing_reason = a.text;
+    }
+    auto open = open_trial_database(trial_path_);
+    auto key = open ? settle_conflict(open->db, open->trial, cell, s) : Result<ObservationKey>(open.problem());
+    if (!key) {
+      station_ui_.message = key.problem().message;
+      station_ui_.message_is_problem = true;
+    } else {
+      station_ui_.message = "Settled plot " + session_->trial().layout.plots[cell.plot_index].label + " (saved as record " +
+                            key->device_id + "/" + std::to_string(key->sequence) + " by " + s.by + ")";
+      station_ui_.message_is_problem = false;
+      station_ui_.editing = -1;
+      (void)session_->refresh();
+      map_.reset();
+      analysis_.reset();
+      leaving_.reset();
+    }
+    station_.reset();
   }
 
   void draw_trials(float scale, float top) {
@@ -301,6 +424,10 @@ class FieldApp {
   CheckScreenState check_ui_;
   TrialsScreenState trials_ui_;
   std::optional<TrialsView> trials_;
+  StationScreenState station_ui_;
+  std::optional<StationView> station_;
+  std::optional<StationImport> import_;
+  bool import_reported_ = false;
   std::optional<BeforeLeaving> leaving_;
   std::uint64_t leaving_revision_ = 0;
   std::optional<FieldMap> map_;
@@ -349,13 +476,23 @@ int run_field_app(const FieldAppOptions& o) {
     std::cerr << window.problem().message << "\n";
     return 1;
   }
-  int frames = 0;
+  int frames = 0, eager_frames = 0;
   const bool waits = o.screenshot.empty() && o.bench_frames == 0;
   std::vector<double> frame_ms;
   double first_frame_ms = 0;
   while (!(*window)->should_close()) {
     const auto frame_start = Clock::now();
-    (*window)->begin_frame(waits && frames > 1 ? kIdleWaitSeconds : 0.0);
+    (*window)->begin_frame(waits && frames > 1 && eager_frames == 0 && !app.busy() ? kIdleWaitSeconds : 0.0);
+    // A tap's press and release can arrive together: keep drawing a few
+    // frames after any input so that the release (and what it changes) is
+    // handled at once, not at the next event.
+    {
+      const ImGuiIO& io = ImGui::GetIO();
+      bool input = io.MouseDelta.x != 0 || io.MouseDelta.y != 0 || io.MouseWheel != 0 || !io.InputQueueCharacters.empty();
+      for (bool down : io.MouseDown) input = input || down;
+      for (bool down : io.KeysDown) input = input || down;
+      eager_frames = input ? kFramesAfterInput : std::max(0, eager_frames - 1);
+    }
     const auto changed = app.draw((*window)->scale());
     const Theme& theme = app.theme();
     (*window)->end_frame(theme.background.r, theme.background.g, theme.background.b);

@@ -124,8 +124,8 @@ int main(int argc, char** argv) {
   field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
   field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
   std::string field_screen;
-  field->add_option("--screen", field_screen, "screen to open: trials, record (default), map, check, leaving, settings or help")
-      ->check(CLI::IsMember({"trials", "record", "map", "check", "leaving", "settings", "help"}));
+  field->add_option("--screen", field_screen, "screen to open: trials, record (default), map, check, leaving, station, settings or help")
+      ->check(CLI::IsMember({"trials", "record", "map", "check", "leaving", "station", "settings", "help"}));
 
   try {
     app.parse(argc, argv);

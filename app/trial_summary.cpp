@@ -53,6 +53,7 @@ TrialSummary summarise_trial(const std::string& path) {
   s.design = design_kind_title(t.plan.design);
   s.site = t.plan.site;
   s.season = t.plan.season;
+  s.uid = t.uid;
   s.plots = static_cast<int>(t.layout.plots.size());
   s.traits = static_cast<int>(t.plan.traits.size());
   s.progress = trial_progress(t, *live);

@@ -21,7 +21,7 @@ TrialProgress trial_progress(const StoredTrial& trial, const std::vector<LiveObs
 
 struct TrialSummary {
   std::string path, file_name;
-  std::string name, design, site, season;
+  std::string name, design, site, season, uid;
   int plots = 0, traits = 0;
   TrialProgress progress;
   std::string problem;   // set when the file could not be read; the rest is empty then

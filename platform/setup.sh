@@ -11,7 +11,7 @@ PACKAGES=(
   nlohmann-json3-dev libcli11-dev doctest-dev
   python3 python3-scipy python3-statsmodels python3-pandas python3-numpy
   xvfb xauth x11-xserver-utils libgl1-mesa-dri
-  chromium
+  chromium xdotool
 )
 
 missing=()

@@ -36,7 +36,7 @@ env = dict(os.environ, FURROW_DATA_DIR=data)
 # the banner of the interim analysis.
 must_show = {"map": (0x00, 0x72, 0xB2), "check": (0xFF, 0xD5, 0x4F)}
 shots = [(f"{view}_{shape}", size, screen, view)
-         for view in ("trials", "record", "map", "check", "leaving", "settings", "help")
+         for view in ("trials", "record", "map", "check", "leaving", "station", "settings", "help")
          for shape, size, screen in (("landscape", "1280x800", "1280x800x24"), ("portrait", "800x1280", "800x1280x24"))]
 for name, size, screen, view in shots:
     png = os.path.join(work, f"{name}.png")

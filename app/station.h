@@ -1,0 +1,56 @@
+#pragma once
+// The station's day's-end work without any drawing: import every bundle in a
+// folder into the trial database it belongs to (one bundle per step, so that
+// a screen can show progress), write this device's bundle, export clean data
+// and the report. Tested headlessly.
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "core/result.h"
+
+namespace furrow {
+
+// Bundle files (*.bundle) in `folder`, by name.
+std::vector<std::string> list_bundle_files(const std::string& folder);
+
+struct BundleOutcome {
+  std::string file;              // file name
+  bool merged = false;
+  std::string trial_name;
+  std::int64_t observations_added = 0;
+  std::string message;           // plain words: what happened or why it was refused
+};
+
+class StationImport {
+ public:
+  // Bundles in `bundle_folder`; trials in `trial_folder` (matched by the
+  // trial's identity in each bundle).
+  StationImport(const std::string& bundle_folder, const std::string& trial_folder);
+  bool done() const { return next_ >= files_.size(); }
+  size_t total() const { return files_.size(); }
+  size_t finished() const { return next_; }
+  const std::string& current_file() const;   // the next to merge ("" when done)
+  // Merges the next bundle (each in its own transaction).
+  void step();
+  const std::vector<BundleOutcome>& outcomes() const { return outcomes_; }
+
+ private:
+  std::vector<std::string> files_;
+  std::vector<std::pair<std::string, std::string>> trials_;   // uid, path
+  size_t next_ = 0;
+  std::vector<BundleOutcome> outcomes_;
+};
+
+// Writes this device's bundle to `folder` as "<trial file>-<device>-<UTC time>.bundle".
+Result<std::string> write_device_bundle(const std::string& db_path, const std::string& folder);
+
+// Writes the wide table (one line per plot; conflicts marked) to
+// `folder/<trial file>.csv`. Returns the path.
+Result<std::string> export_clean_data(const std::string& db_path, const std::string& folder);
+
+// Writes the report to `folder/<trial file>.html`. Returns the path.
+Result<std::string> export_report(const std::string& db_path, const std::string& folder);
+
+}  // namespace furrow

@@ -1,0 +1,80 @@
+#!/usr/bin/python3
+"""The real field app under Xvfb, driven with real pointer clicks (xdotool),
+as a station manager at day's end: open the Station screen on a trial with
+three conflicts, tap "Keep 96 (Ana)" on the first, tap "Import bundles" to
+merge a late device's bundle from the data folder, then check the trial
+database through the command line: the first conflict settled by the
+observer, the late bundle's rows merged.
+
+usage: real_app_test.py FURROW SOURCE_DIR WORK_DIR
+"""
+import json
+import os
+import shutil
+import subprocess
+import sys
+import time
+
+here = os.path.dirname(os.path.abspath(__file__))
+sys.path.insert(0, os.path.join(here, "..", "cli"))
+from checks import Checks  # noqa: E402
+
+furrow, src, work = sys.argv[1:4]
+shutil.rmtree(work, ignore_errors=True)
+data = os.path.join(work, "data")
+os.makedirs(os.path.join(data, "bundles"))
+check = Checks()
+plan = os.path.join(src, "demo_data", "harrow_ridge_oats_2026.plan.csv")
+station = os.path.join(data, "oats.furrow")
+
+
+def run(*args):
+    return subprocess.run([furrow, *args], check=True, capture_output=True, text=True).stdout
+
+
+run("trial", "new", "--plan", plan, "--db", station)
+for d in ("a", "b", "c"):
+    run("trial", "copy", "--from", station, "--db", os.path.join(work, f"{d}.furrow"))
+for plot, b_value in (("101", "81"), ("102", "82"), ("103", "83")):
+    run("record", "--db", os.path.join(work, "a.furrow"), "--plot", plot, "--trait", "height_cm", "--value", "96",
+        "--observer", "Ana", "--confirm")
+    run("record", "--db", os.path.join(work, "b.furrow"), "--plot", plot, "--trait", "height_cm", "--value", b_value,
+        "--observer", "Ben", "--confirm")
+for d in ("a", "b"):
+    run("bundle", "--db", os.path.join(work, f"{d}.furrow"), "--out", os.path.join(work, f"{d}.bundle"))
+run("merge", "--db", station, os.path.join(work, "a.bundle"), os.path.join(work, "b.bundle"))
+# A late device's bundle waits in the data folder's bundles folder.
+run("record", "--db", os.path.join(work, "c.furrow"), "--plot", "120", "--trait", "height_cm", "--value", "101",
+    "--observer", "Cleo", "--confirm")
+run("bundle", "--db", os.path.join(work, "c.furrow"), "--out", os.path.join(data, "bundles", "c.bundle"))
+check(len(json.loads(run("conflicts", "--db", station, "--json"))) == 3, "three conflicts before")
+
+# Where the buttons are in a 1280x800 window at scale 1 (the Station screen's
+# first row of actions; the first conflict's first Keep button).
+KEEP_FIRST = (90, 280)
+IMPORT = (95, 108)
+script = f"""
+'{furrow}' field --db '{station}' --observer 'Station manager' --screen station &
+app=$!
+sleep 3
+# No window manager under Xvfb: give the window the input focus ourselves
+# (the ImGui GLFW backend reads the pointer only while the window has it).
+xdotool search --sync --name '^Furrow' windowfocus --sync
+xdotool mousemove {KEEP_FIRST[0]} {KEEP_FIRST[1]} click 1
+sleep 1
+xdotool mousemove {IMPORT[0]} {IMPORT[1]} click 1
+sleep 2
+kill $app
+wait $app
+"""
+env = dict(os.environ, FURROW_DATA_DIR=data)
+t0 = time.time()
+p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c", script], env=env,
+                   capture_output=True, text=True, timeout=120)
+left = json.loads(run("conflicts", "--db", station, "--json"))
+check(len(left) == 2 and all(c["plot"] != "101" for c in left), f"the tap settled plot 101 ({[c['plot'] for c in left]})")
+rows = {r.split(",")[0]: r for r in run("export", "--db", station, "--long").splitlines()[1:]}
+check("101" in rows and ",96," in rows["101"] and "Station manager" in rows["101"],
+      "plot 101 keeps Ana's 96, settled by the observer")
+check("120" in rows and "Cleo" in rows["120"], "the tap on Import bundles merged the late device's bundle")
+check.finish()
