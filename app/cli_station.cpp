@@ -135,6 +135,14 @@ int run_settle(const SettleRequest& r) {
   return 0;
 }
 
+int run_trial_close(const std::string& db_path) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  if (auto s = close_trial(open->db); !s) return fail(db_path + ": " + s.problem().message);
+  std::cout << "closed " << open->trial.plan.name << "\n";
+  return 0;
+}
+
 int run_trial_copy(const std::string& station_path, const std::string& device_path) {
   if (auto s = copy_trial_for_device(station_path, device_path); !s) return fail(s.problem().message);
   auto open = open_trial_database(device_path);

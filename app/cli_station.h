@@ -18,6 +18,7 @@ struct SettleRequest {
 };
 int run_settle(const SettleRequest& r);
 
+int run_trial_close(const std::string& db_path);
 int run_trial_copy(const std::string& station_path, const std::string& device_path);
 
 }  // namespace furrow

@@ -51,6 +51,8 @@ int main(int argc, char** argv) {
   trial_new->add_option("--db", trial_db, "trial database to create")->required();
   auto* trial_show = trial->add_subcommand("show", "Show a trial's plan and progress");
   trial_show->add_option("--db", trial_db, "trial database")->required();
+  auto* trial_close = trial->add_subcommand("close", "Mark the trial's collection as over");
+  trial_close->add_option("--db", trial_db, "trial database")->required();
   std::string copy_from;
   auto* trial_copy = trial->add_subcommand("copy", "Make a device's copy of the station's trial (new device id)");
   trial_copy->add_option("--from", copy_from, "the station's trial database")->required();
@@ -158,6 +160,7 @@ int main(int argc, char** argv) {
   if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
   if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
   if (trial_copy->parsed()) return furrow::run_trial_copy(copy_from, trial_db);
+  if (trial_close->parsed()) return furrow::run_trial_close(trial_db);
   if (bundle->parsed()) return furrow::run_bundle(station_db, bundle_out, bundle_all);
   if (merge->parsed()) return furrow::run_merge(station_db, bundle_files);
   if (conflicts->parsed()) return furrow::run_conflicts(station_db, conflicts_json);

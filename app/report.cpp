@@ -209,6 +209,18 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
     h << "</p>\n";
   }
 
+  // The layout as a table: every plot's place and treatment.
+  h << "<details><summary>Layout: every plot's block, field position and treatment</summary>\n<table class=layout>"
+       "<thead><tr><th>Plot</th>" << (p.sites.size() > 1 ? "<th>Site</th>" : "") << "<th>Block</th><th>Row</th>"
+       "<th>Column</th><th>Treatment</th></tr></thead><tbody>";
+  for (const PlannedPlot& pl : t.layout.plots) {
+    h << "<tr>" << cell(pl.label);
+    if (p.sites.size() > 1) h << cell(p.sites[pl.site]);
+    h << cell(std::to_string(pl.block)) << cell(std::to_string(pl.row)) << cell(std::to_string(pl.column))
+      << cell(treatment_label(p, pl.levels)) << "</tr>";
+  }
+  h << "</tbody></table></details>\n";
+
   // Analyses.
   h << "<h2>Analyses</h2>\n";
   AnalysisOptions ao;

@@ -257,6 +257,17 @@ std::optional<std::string> opt_text(const Statement& s, int col) {
 
 }  // namespace
 
+Status close_trial(Database& db) {
+  return in_transaction(db, [&]() -> Status {
+    auto s = db.prepare("UPDATE trial SET status = 'closed', closed_at = ? WHERE status <> 'closed'");
+    if (!s) return s.problem();
+    s->bind(1, utc_now());
+    FURROW_TRY(s->run());
+    if (db.changes() == 0) return make_problem("the trial is closed already");
+    return ok_status();
+  });
+}
+
 std::string utc_now() {
   const auto now = std::chrono::system_clock::now();
   const std::time_t t = std::chrono::system_clock::to_time_t(now);

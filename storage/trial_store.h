@@ -56,6 +56,10 @@ struct OpenTrial {
 };
 Result<OpenTrial> open_trial_database(const std::string& path);
 
+// Marks the trial closed (collection over; reports drop the interim
+// caution). Closing a closed trial is refused.
+Status close_trial(Database& db);
+
 struct ObservationKey {
   std::string device_id;
   std::int64_t sequence = 0;

@@ -138,6 +138,22 @@ if os.path.exists(png):
 dom = subprocess.run(chromium + ["--dump-dom", f"file://{report}"], capture_output=True, text=True, timeout=120)
 check(dom.returncode == 0 and dom.stdout.count('class="plot"') == 80, "Chromium's DOM holds the 80 plots of the map")
 
+# The layout table lists every plot with its treatment.
+check(html.count("<tr><td>") >= 80 and "<td>307</td>" in html.split("class=layout")[1].split("</table>")[0],
+      "the layout table lists the plots")
+# A closed trial's report has no interim caution.
+closed = os.path.join(work, "closed.furrow")
+shutil.copy(db, closed)
+p = subprocess.run([furrow, "trial", "close", "--db", closed], capture_output=True, text=True)
+check(p.returncode == 0, f"trial close ({p.stderr.strip()})")
+p = subprocess.run([furrow, "trial", "close", "--db", closed], capture_output=True, text=True)
+check(p.returncode == 2 and "closed already" in p.stderr, "closing twice is refused")
+subprocess.run([furrow, "report", "--db", closed, "--out", os.path.join(work, "closed.html")], check=True,
+               capture_output=True)
+closed_html = open(os.path.join(work, "closed.html"), encoding="utf-8").read()
+check("Interim analysis for checking data" not in closed_html and "status: closed" in closed_html,
+      "a closed trial's report drops the interim caution")
+
 # Bad requests: exit 2, a message naming the problem, no file.
 for args, what in ((["--db", os.path.join(work, "none.furrow")], "does not exist"),
                    (["--db", db, "--map-trait", "colour"], "no trait 'colour'")):
