@@ -38,6 +38,17 @@ void draw_help_screen(const Theme& t, float scale, float top_px) {
   ImGui::TextWrapped(
       "Before leaving lists what to fix while still in the field: conflicts between devices, outlier plots, values "
       "to check and values not yet recorded. Tap a line to open that plot.");
+  ImGui::TextWrapped(
+      "Field map shows the plots where they lie in the field: by status (each state has its own pattern too), by "
+      "value (dark blue low, yellow high) or by residual (blue lower, orange higher than the plot's block and "
+      "treatment predict). Tap a plot to record it; when plots are small, the first tap zooms in. Drag to move.");
+  ImGui::TextWrapped(
+      "Check shows the interim analysis of the trait: the analysis-of-variance table, means with their letter "
+      "groups, CV, LSD and Tukey HSD, and the outlier plots and missing cells; tap one to open the plot.");
+  ImGui::TextWrapped(
+      "Station, at day's end: each device writes its bundle (Write this device's bundle) into the bundles folder; "
+      "the station imports them all (Import bundles), settles each conflict by keeping one value, entering another "
+      "or marking it missing, and exports the data and the report.");
   ImGui::TextWrapped("%s", kInterimCaution);
   ImGui::End();
   ImGui::PopStyleColor(2);
