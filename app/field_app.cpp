@@ -24,6 +24,7 @@
 #include "app/station.h"
 #include "app/trial_analysis.h"
 #include "core/entry_checks.h"
+#include "storage/bundle.h"
 #include "storage/settle.h"
 #include "platform/app_window.h"
 #include "platform/data_folder.h"
@@ -302,7 +303,13 @@ class FieldApp {
     if (action->kind == TrialsAction::Kind::open_demo) path = options_.demo_db;
     if (action->kind == TrialsAction::Kind::create_from_plan) {
       const std::string db = trial_path_for_plan(path, folder_);
-      auto made = create_trial_from_plan(path, db);
+      // A station's trial file becomes this device's own copy; a plan file a new trial.
+      auto made = std::filesystem::path(path).extension() == ".furrow"
+                      ? [&]() -> Result<std::string> {
+                          if (auto s = copy_trial_for_device(path, db); !s) return s.problem();
+                          return std::string("this device's copy of the station's trial");
+                        }()
+                      : create_trial_from_plan(path, db);
       if (!made) {
         trials_ui_.message = made.problem().message;
         trials_ui_.message_is_problem = true;

@@ -118,7 +118,7 @@ Result<std::string> create_trial_from_plan(const std::string& plan_path, const s
 
 std::string trial_path_for_plan(const std::string& plan_path, const std::string& folder) {
   std::string stem = fs::path(plan_path).filename().string();
-  for (const char* suffix : {".plan.csv", ".csv"})
+  for (const char* suffix : {".plan.csv", ".csv", ".furrow"})
     if (stem.size() > std::string(suffix).size() && stem.ends_with(suffix)) {
       stem.resize(stem.size() - std::string(suffix).size());
       break;

@@ -43,8 +43,9 @@ std::vector<std::string> list_plan_files(const std::string& folder);
 // Nothing is created on failure. Returns a one-line description on success.
 Result<std::string> create_trial_from_plan(const std::string& plan_path, const std::string& db_path);
 
-// Where a plan file's trial goes in `folder`: its file name with ".furrow"
-// in place of ".plan.csv" or ".csv"; " (2)", " (3)", ... when taken.
+// Where a plan file's trial (or a copy of a station's trial file) goes in
+// `folder`: its file name with ".furrow" in place of ".plan.csv", ".csv" or
+// ".furrow"; " (2)", " (3)", ... when taken.
 std::string trial_path_for_plan(const std::string& plan_path, const std::string& folder);
 
 }  // namespace furrow

@@ -39,7 +39,9 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
     banner(st->message.c_str(), st->message_is_problem ? t.refuse : t.saved,
            st->message_is_problem ? t.refuse_text : t.saved_text);
   ImGui::TextWrapped("Trials on this device (%s). Tap a trial to open it.", v.folder.c_str());
-  if (v.trials.empty()) ImGui::TextWrapped("No trials here yet: open the demo trial or create one from a plan file.");
+  if (v.trials.empty())
+    ImGui::TextWrapped(v.demo_available ? "No trials here yet: open the demo trial or create one from a plan file."
+                                        : "No trials here yet: create one from a plan file.");
   for (size_t i = 0; i < v.trials.size(); ++i) {
     const TrialSummary& s = v.trials[i];
     char text[700];
@@ -61,7 +63,8 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
     action = TrialsAction{TrialsAction::Kind::open_demo, {}};
 
   ImGui::Spacing();
-  ImGui::TextWrapped("New trial from a plan file: tap a plan file found in the folder, or type its path.");
+  ImGui::TextWrapped("New trial from a plan file: tap a plan file found in the folder, or type its path. Type the "
+                     "path of a station's trial file (.furrow) to make this device's own copy of it.");
   for (size_t i = 0; i < v.plan_files.size(); ++i) {
     const std::string name = std::filesystem::path(v.plan_files[i]).filename().string();
     ButtonLook look{t.panel, t.text};
@@ -75,7 +78,7 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
   // Taller field: the frame padding sets a text field's height.
   ImGui::PushStyleVar(ImGuiStyleVar_FramePadding,
                       ImVec2(ImGui::GetStyle().FramePadding.x, (h - ImGui::GetFontSize()) / 2));
-  const bool entered = ImGui::InputTextWithHint("##planpath", "path of a plan file (.csv)", st->plan_path,
+  const bool entered = ImGui::InputTextWithHint("##planpath", "path of a plan file (.csv) or a station's trial (.furrow)", st->plan_path,
                                                 sizeof st->plan_path, ImGuiInputTextFlags_EnterReturnsTrue);
   note_target("plan path", &st->targets);
   ImGui::PopStyleVar();

@@ -72,6 +72,7 @@ TEST_CASE("a new trial's file name comes from the plan's and never replaces a tr
   std::ofstream(dir / "oats.furrow") << "";
   CHECK(fs::path(trial_path_for_plan("/x/oats.plan.csv", dir.string())).filename() == "oats (2).furrow");
   CHECK(fs::path(trial_path_for_plan("/x/barley.csv", dir.string())).filename() == "barley.furrow");
+  CHECK(fs::path(trial_path_for_plan("/usb/oats.furrow", dir.string())).filename() == "oats (2).furrow");
 }
 
 TEST_CASE("a bad plan file is refused naming file, line and field, and creates nothing") {

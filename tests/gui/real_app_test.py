@@ -77,4 +77,41 @@ rows = {r.split(",")[0]: r for r in run("export", "--db", station, "--long").spl
 check("101" in rows and ",96," in rows["101"] and "Station manager" in rows["101"],
       "plot 101 keeps Ana's 96, settled by the observer")
 check("120" in rows and "Cleo" in rows["120"], "the tap on Import bundles merged the late device's bundle")
+
+# A crew member's tablet: the app starts on the Trials screen of an empty
+# data folder; type the station's trial file into the path field and press
+# Enter to make this device's own copy; then Station > Write this device's
+# bundle puts a bundle in the tablet's bundles folder.
+tablet = os.path.join(work, "tablet")
+os.makedirs(tablet)
+PATH_FIELD = (500, 224)
+STATION_TAB = (661, 38)
+WRITE_BUNDLE = (342, 108)
+script = f"""
+'{furrow}' field --observer 'Dana' --demo /nonexistent &
+app=$!
+sleep 3
+xdotool search --sync --name '^Furrow' windowfocus --sync
+xdotool mousemove {PATH_FIELD[0]} {PATH_FIELD[1]} click 1
+sleep 0.5
+xdotool type --delay 20 '{station}'
+xdotool key Return
+sleep 2
+xdotool mousemove {STATION_TAB[0]} {STATION_TAB[1]} click 1
+sleep 1
+xdotool mousemove {WRITE_BUNDLE[0]} {WRITE_BUNDLE[1]} click 1
+sleep 2
+kill $app
+wait $app
+"""
+p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c", script],
+                   env=dict(os.environ, FURROW_DATA_DIR=tablet), capture_output=True, text=True, timeout=120)
+copy = os.path.join(tablet, "oats.furrow")
+check(os.path.exists(copy), f"the tablet made its copy of the station's trial ({os.listdir(tablet)})")
+if os.path.exists(copy):
+    import sqlite3
+    uid = lambda f: sqlite3.connect(f).execute("SELECT uid, role FROM trial").fetchone()
+    check(uid(copy)[0] == uid(station)[0] and uid(copy)[1] == "device", "same trial identity, as a device")
+bundles = os.listdir(os.path.join(tablet, "bundles")) if os.path.isdir(os.path.join(tablet, "bundles")) else []
+check(len(bundles) == 1 and bundles[0].endswith(".bundle"), f"Write this device's bundle wrote one bundle ({bundles})")
 check.finish()
