@@ -181,9 +181,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
         << "</text>";
     for (const MapPlot& mp : m.plots) {
       const auto r = g.plot_rect(mp);
-      const std::string fill = mp.state == PlotState::collected || mp.state == PlotState::to_check
-                                   ? hex(mp.fill)
-                                   : mp.state == PlotState::not_yet ? "#ffffff" : hex(mp.fill);
+      const std::string fill = mp.state == PlotState::not_yet ? "#ffffff" : hex(mp.fill);
       h << "<g class=plot data-plot=\"" << esc(t.layout.plots[mp.plot_index].label) << "\"";
       if (mp.value) h << " data-value=\"" << exact(*mp.value) << "\"";
       h << "><title>plot " << esc(t.layout.plots[mp.plot_index].label)

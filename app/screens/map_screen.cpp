@@ -123,7 +123,8 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
   const int sites = static_cast<int>(map.site_names.size());
   const float header = sites > 1 ? ImGui::GetTextLineHeightWithSpacing() : 0.0f;
   const float avail_w = ImGui::GetContentRegionAvail().x - 2 * ImGui::GetStyle().WindowPadding.x;
-  const float fit_cell = std::min({(avail_w - (sites - 1) * 0.0f) / std::max(1, sites * map.columns + sites - 1),
+  // Sites sit one cell apart: sites x columns cells plus sites - 1 gaps across.
+  const float fit_cell = std::min({avail_w / std::max(1, sites * map.columns + sites - 1),
                                    (map_h - header - 2 * ImGui::GetStyle().WindowPadding.y) / std::max(1, map.rows),
                                    kMaxFitCellPx * scale});
   const float cell = st->cell_px > 0 ? st->cell_px : std::max(2.0f, fit_cell);
