@@ -229,9 +229,14 @@ TEST_CASE("ten devices: any merge order, with repeats, gives one log; nothing lo
     for (const auto& o : *all)
       if (!replaced.count({o.key.device_id, o.key.sequence}))
         cells[{o.plot_id, o.trait_id, o.occasion}].insert(o.value.value_or("missing: " + o.missing_reason.value_or("")));
-    size_t disagreeing = 0;
-    for (const auto& [cell, values] : cells) disagreeing += values.size() > 1;
-    CHECK(disagreeing == first_conflicts.size());
+    std::map<std::int64_t, std::string> label, code;
+    for (size_t i = 0; i < st->trial.plot_ids.size(); ++i) label[st->trial.plot_ids[i]] = st->trial.layout.plots[i].label;
+    for (size_t k = 0; k < st->trial.trait_ids.size(); ++k) code[st->trial.trait_ids[k]] = st->trial.plan.traits[k].code;
+    std::set<std::string> disagreeing;
+    for (const auto& [cell, values] : cells)
+      if (values.size() > 1) disagreeing.insert(label[std::get<0>(cell)] + "/" + code[std::get<1>(cell)]);
+    CHECK(disagreeing == std::set<std::string>(first_conflicts.begin(), first_conflicts.end()));
+    CHECK(disagreeing.size() == first_conflicts.size());
   }
 }
 
