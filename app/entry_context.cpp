@@ -1,5 +1,6 @@
 #include "app/entry_context.h"
 
+#include <algorithm>
 #include <map>
 
 namespace furrow {
@@ -43,7 +44,11 @@ TraitEntryContext::TraitEntryContext(const StoredTrial& t, const std::vector<Liv
 
 EntryContext TraitEntryContext::for_plot(size_t plot_index) const {
   EntryContext ctx;
-  ctx.previous_entries = previous_entries_;
+  // The checks look at the last few entries only (a run of repeats).
+  constexpr size_t kRecentEntries = 8;
+  ctx.previous_entries.assign(
+      previous_entries_.end() - static_cast<std::ptrdiff_t>(std::min(previous_entries_.size(), kRecentEntries)),
+      previous_entries_.end());
   std::vector<int> blocks, treatments;
   ctx.other_values.reserve(values_.size());
   blocks.reserve(values_.size());
