@@ -49,7 +49,7 @@ BeforeLeaving before_leaving(const StoredTrial& t, const std::vector<LiveObserva
           continue;
         }
         if (it->second.size() != 1 || !it->second.front()->value || confirmed(*it->second.front())) continue;
-        const EntryContext ctx = contexts.for_plot(p);
+        const EntryContext ctx = contexts.for_saved_value(p);
         for (const Finding& f : check_entry(trait, *it->second.front()->value, ctx)) {
           if (f.severity != Severity::confirm) continue;
           flagged.push_back({LeavingItem::Kind::flagged, p, k, occ, label(p, k) + ": " + f.message});

@@ -1,6 +1,7 @@
 #include "app/entry_context.h"
 
 #include <algorithm>
+#include <cstdint>
 #include <map>
 
 namespace furrow {
@@ -40,15 +41,32 @@ TraitEntryContext::TraitEntryContext(const StoredTrial& t, const std::vector<Liv
     blocks_.push_back(blocking_code(t.plan, pp));
     treatments_.push_back(combination_index(t.plan, pp));
   }
+  index_of_plot_.assign(t.layout.plots.size(), SIZE_MAX);
+  for (size_t k = 0; k < plots_.size(); ++k) index_of_plot_[plots_[k]] = k;
+  leave_one_out_.emplace(values_, blocks_, treatments_);
+}
+
+EntryContext TraitEntryContext::for_saved_value(size_t plot_index) const {
+  const size_t k = index_of_plot_[plot_index];
+  if (k == SIZE_MAX) return for_plot(plot_index);
+  EntryContext ctx;
+  ctx.previous_entries = recent_entries();
+  ctx.slip = leave_one_out_->slip(k);
+  const Trait& trait = trial_.plan.traits[trait_index_];
+  if (trait.kind != TraitKind::text && trait.kind != TraitKind::category) ctx.expectation = leave_one_out_->expectation(k);
+  return ctx;
+}
+
+std::vector<std::string> TraitEntryContext::recent_entries() const {
+  // The checks look at the last few entries only (a run of repeats).
+  constexpr size_t kRecentEntries = 8;
+  const size_t keep = std::min(previous_entries_.size(), kRecentEntries);
+  return {previous_entries_.end() - static_cast<std::ptrdiff_t>(keep), previous_entries_.end()};
 }
 
 EntryContext TraitEntryContext::for_plot(size_t plot_index) const {
   EntryContext ctx;
-  // The checks look at the last few entries only (a run of repeats).
-  constexpr size_t kRecentEntries = 8;
-  ctx.previous_entries.assign(
-      previous_entries_.end() - static_cast<std::ptrdiff_t>(std::min(previous_entries_.size(), kRecentEntries)),
-      previous_entries_.end());
+  ctx.previous_entries = recent_entries();
   std::vector<int> blocks, treatments;
   ctx.other_values.reserve(values_.size());
   blocks.reserve(values_.size());

@@ -134,11 +134,16 @@ std::vector<Finding> check_entry(const Trait& trait, const std::string& text, co
                          (trait.soft_max ? number_text(*trait.soft_max) : "") + unit + "): check and confirm"});
     const bool numeric_kind = trait.kind == TraitKind::decimal || trait.kind == TraitKind::percent ||
                               trait.kind == TraitKind::count;
-    if (numeric_kind && static_cast<int>(context.other_values.size()) >= kMinValuesForSlip && v != 0) {
+    std::optional<SlipStats> slip = context.slip;
+    if (!slip && static_cast<int>(context.other_values.size()) >= kMinValuesForSlip) {
       const double med = median(context.other_values);
       std::vector<double> dev;
       for (double x : context.other_values) dev.push_back(std::abs(x - med));
-      const double sd = kMadToSd * median(dev);
+      slip = SlipStats{med, kMadToSd * median(dev)};
+    }
+    if (numeric_kind && slip && v != 0) {
+      const double med = slip->median;
+      const double sd = slip->sd;
       if (sd > 0) {
         const double z = std::abs(v - med) / sd;
         const double z_times = std::abs(10 * v - med) / sd;
@@ -208,6 +213,109 @@ std::optional<PlotExpectation> expect_from_means(const std::vector<double>& valu
   PlotExpectation e;
   e.expected = mean(bsum[target_block]) + mean(tsum[target_treatment]) - grand;
   e.sd = std::sqrt(s2 * (1 + 1.0 / tsum[target_treatment].second + 1.0 / bsum[target_block].second));
+  return e;
+}
+
+namespace {
+
+template <typename Key, typename Value>
+const Value* find_sorted(const std::vector<std::pair<Key, Value>>& v, const Key& key) {
+  const auto it = std::lower_bound(v.begin(), v.end(), key, [](const auto& e, const Key& k) { return e.first < k; });
+  return it != v.end() && it->first == key ? &it->second : nullptr;
+}
+
+// The median of `sorted` with the element at index p left out, averaging as
+// median() does.
+double median_skipping(const std::vector<double>& sorted, size_t p) {
+  const size_t m = sorted.size() - 1;
+  const auto at = [&](size_t r) { return r < p ? sorted[r] : sorted[r + 1]; };
+  if (m % 2) return at(m / 2);
+  return 0.5 * (at(m / 2 - 1) + at(m / 2));
+}
+
+}  // namespace
+
+LeaveOneOut::LeaveOneOut(std::vector<double> values, std::vector<int> block, std::vector<int> treatment)
+    : values_(std::move(values)), block_(std::move(block)), treatment_(std::move(treatment)) {
+  const size_t n = values_.size();
+  sorted_ = values_;
+  std::sort(sorted_.begin(), sorted_.end());
+  if (n >= 2) {
+    // The distinct leave-one-out medians (at most three), each with its sorted deviations.
+    for (size_t p = 0; p < n; ++p) {
+      const double m = median_skipping(sorted_, p);
+      if (std::none_of(deviations_.begin(), deviations_.end(), [&](const auto& d) { return d.first == m; })) {
+        std::vector<double> dev(n);
+        for (size_t j = 0; j < n; ++j) dev[j] = std::abs(sorted_[j] - m);
+        std::sort(dev.begin(), dev.end());
+        deviations_.push_back({m, std::move(dev)});
+      }
+    }
+  }
+  std::map<int, Sum> b, t;
+  std::map<std::pair<int, int>, int> c;
+  for (size_t i = 0; i < n; ++i) {
+    grand_sum_ += values_[i];
+    b[block_[i]].values += values_[i];
+    ++b[block_[i]].count;
+    t[treatment_[i]].values += values_[i];
+    ++t[treatment_[i]].count;
+    ++c[{block_[i], treatment_[i]}];
+  }
+  const double grand = n ? grand_sum_ / static_cast<double>(n) : 0.0;
+  residuals_.resize(n);
+  for (size_t i = 0; i < n; ++i) {
+    Sum& bs = b[block_[i]];
+    Sum& ts = t[treatment_[i]];
+    const double r = values_[i] - bs.values / bs.count - ts.values / ts.count + grand;
+    residuals_[i] = r;
+    bs.residuals += r;
+    ts.residuals += r;
+    residual_sum_ += r;
+    residual_squares_ += r * r;
+  }
+  blocks_.assign(b.begin(), b.end());
+  treatments_.assign(t.begin(), t.end());
+  cells_.assign(c.begin(), c.end());
+}
+
+double LeaveOneOut::median_without(const std::vector<double>& sorted, double removed) const {
+  const size_t p = static_cast<size_t>(std::lower_bound(sorted.begin(), sorted.end(), removed) - sorted.begin());
+  return median_skipping(sorted, p);
+}
+
+std::optional<SlipStats> LeaveOneOut::slip(size_t k) const {
+  if (static_cast<int>(values_.size()) - 1 < kMinValuesForSlip) return std::nullopt;
+  const double m = median_without(sorted_, values_[k]);
+  const auto d = std::find_if(deviations_.begin(), deviations_.end(), [&](const auto& e) { return e.first == m; });
+  return SlipStats{m, kMadToSd * median_without(d->second, std::abs(values_[k] - m))};
+}
+
+std::optional<PlotExpectation> LeaveOneOut::expectation(size_t k) const {
+  const size_t n = values_.size();
+  if (n < 2) return std::nullopt;
+  const Sum& bs = *find_sorted(blocks_, block_[k]);
+  const Sum& ts = *find_sorted(treatments_, treatment_[k]);
+  // Value k alone in its block or treatment: the others say nothing of it.
+  if (bs.count < 2 || ts.count < 2) return std::nullopt;
+  const double n1 = static_cast<double>(n - 1);
+  const double df = n1 - static_cast<double>(blocks_.size()) - static_cast<double>(treatments_.size()) + 1;
+  if (df < 10 || n1 < 2.0 * static_cast<double>(treatments_.size())) return std::nullopt;
+  const double x = values_[k];
+  const double grand = grand_sum_ / static_cast<double>(n), grand1 = (grand_sum_ - x) / n1;
+  const double bmean = bs.values / bs.count, bmean1 = (bs.values - x) / (bs.count - 1);
+  const double tmean = ts.values / ts.count, tmean1 = (ts.values - x) / (ts.count - 1);
+  // Residuals of the others move by -a in k's block, -d in k's treatment and +c everywhere.
+  const double a = bmean1 - bmean, d = tmean1 - tmean, c = grand1 - grand;
+  const double rk = residuals_[k];
+  const double nb = bs.count - 1, nt = ts.count - 1, nbt = *find_sorted(cells_, std::pair{block_[k], treatment_[k]}) - 1;
+  const double sr2 = residual_squares_ - rk * rk, sr = residual_sum_ - rk;
+  const double sbr = bs.residuals - rk, str = ts.residuals - rk;
+  const double rss = sr2 + a * a * nb + d * d * nt + c * c * n1 + 2 * a * d * nbt - 2 * a * c * nb - 2 * d * c * nt -
+                     2 * a * sbr - 2 * d * str + 2 * c * sr;
+  PlotExpectation e;
+  e.expected = bmean1 + tmean1 - grand1;
+  e.sd = std::sqrt(std::max(0.0, rss / df) * (1 + 1.0 / nt + 1.0 / nb));
   return e;
 }
 

@@ -45,10 +45,19 @@ struct PlotExpectation {
   double sd = 0;          // prediction SD for a new plot
 };
 
+// The centre and robust spread of the other plots' values (median and
+// 1.4826 x median absolute deviation), as the decimal-slip check uses them.
+struct SlipStats {
+  double median = 0, sd = 0;
+};
+
 struct EntryContext {
   std::vector<double> other_values;          // this trait and occasion, other plots
   std::vector<std::string> previous_entries; // this trait, most recent last (entry order)
   std::optional<PlotExpectation> expectation;
+  // When set, used instead of computing it from other_values (which may then
+  // be left empty); set only when there are kMinValuesForSlip others or more.
+  std::optional<SlipStats> slip;
 };
 
 // Parses `text` for the trait's kind; on success `number` holds the numeric
@@ -74,5 +83,38 @@ std::optional<Severity> worst(const std::vector<Finding>& findings);
 std::optional<PlotExpectation> expect_from_means(const std::vector<double>& values, const std::vector<int>& block,
                                                  const std::vector<int>& treatment, int target_block,
                                                  int target_treatment);
+
+// One trait's values screened all at once (the Before leaving list): for
+// value k, the slip statistics and the expectation that the direct
+// computation from the other values gives (SlipStats from other_values;
+// expect_from_means without value k), equal up to rounding, each in
+// O(log n) after an O(n log n) start instead of O(n) per value.
+//
+// Leaving one value out moves the median by at most one rank, so there are
+// at most three leave-one-out medians; for each, the absolute deviations are
+// sorted once. The expectation's residual sum of squares without value k
+// follows from the full fit's residuals and their sums per block, treatment
+// and cell, because only value k's block and treatment means and the grand
+// mean change.
+class LeaveOneOut {
+ public:
+  LeaveOneOut(std::vector<double> values, std::vector<int> block, std::vector<int> treatment);
+  std::optional<SlipStats> slip(size_t k) const;
+  std::optional<PlotExpectation> expectation(size_t k) const;
+
+ private:
+  double median_without(const std::vector<double>& sorted, double removed) const;
+  std::vector<double> values_, sorted_;
+  std::vector<int> block_, treatment_;
+  std::vector<std::pair<double, std::vector<double>>> deviations_;   // median -> sorted |x - median|
+  struct Sum {
+    double values = 0, residuals = 0;
+    int count = 0;
+  };
+  std::vector<std::pair<int, Sum>> blocks_, treatments_;            // sorted by code
+  std::vector<std::pair<std::pair<int, int>, int>> cells_;           // (block, treatment) -> count
+  std::vector<double> residuals_;                                    // full fit: x - block mean - treatment mean + grand
+  double grand_sum_ = 0, residual_sum_ = 0, residual_squares_ = 0;
+};
 
 }  // namespace furrow

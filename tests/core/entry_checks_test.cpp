@@ -2,6 +2,10 @@
 
 #include <doctest/doctest.h>
 
+#include <algorithm>
+#include <cmath>
+#include <random>
+
 namespace furrow {
 namespace {
 
@@ -107,6 +111,74 @@ TEST_CASE("unlikely for this plot given block and treatment means") {
   CHECK(has(check_entry(tr, "150", c), "unlikely", Severity::confirm));
   CHECK(check_entry(tr, "122", c).empty());
   CHECK_FALSE(expect_from_means({1, 2, 3}, {0, 0, 0}, {0, 1, 2}, 0, 1).has_value());   // too little data
+}
+
+}  // namespace
+}  // namespace furrow
+
+namespace furrow {
+namespace {
+
+// The direct computation check_entry falls back on: median and robust SD of
+// the other values.
+SlipStats direct_slip(const std::vector<double>& others) {
+  std::vector<double> v = others;
+  std::sort(v.begin(), v.end());
+  const auto med = [](std::vector<double> s) {
+    std::sort(s.begin(), s.end());
+    const size_t n = s.size();
+    return n % 2 ? s[n / 2] : 0.5 * (s[n / 2 - 1] + s[n / 2]);
+  };
+  const double m = med(v);
+  std::vector<double> dev;
+  for (double x : v) dev.push_back(std::abs(x - m));
+  return {m, 1.4826 * med(dev)};
+}
+
+TEST_CASE("leave-one-out statistics equal the direct computation from the other values") {
+  std::mt19937 rng(11);
+  for (int trial = 0; trial < 40; ++trial) {
+    // Blocks and treatments of varying sizes, values with ties (whole numbers)
+    // and without, some cells empty, now and then a value alone in its treatment.
+    const int blocks = 2 + static_cast<int>(rng() % 5), treatments = 3 + static_cast<int>(rng() % 20);
+    std::vector<double> values;
+    std::vector<int> block, treatment;
+    std::normal_distribution<double> noise(0, 6);
+    for (int b = 0; b < blocks; ++b)
+      for (int t = 0; t < treatments; ++t) {
+        if (rng() % 9 == 0) continue;
+        double v = 100 + 3 * b - 2 * t + noise(rng);
+        if (trial % 2) v = std::round(v);
+        values.push_back(v);
+        block.push_back(b);
+        treatment.push_back(1000 + t);
+      }
+    const LeaveOneOut loo(values, block, treatment);
+    for (size_t k = 0; k < values.size(); ++k) {
+      std::vector<double> others;
+      std::vector<int> ob, ot;
+      for (size_t j = 0; j < values.size(); ++j)
+        if (j != k) {
+          others.push_back(values[j]);
+          ob.push_back(block[j]);
+          ot.push_back(treatment[j]);
+        }
+      const auto s = loo.slip(k);
+      REQUIRE(s.has_value() == (static_cast<int>(others.size()) >= kMinValuesForSlip));
+      if (s) {
+        const SlipStats d = direct_slip(others);
+        CHECK(s->median == d.median);   // the same values, the same arithmetic
+        CHECK(s->sd == d.sd);
+      }
+      const auto e = loo.expectation(k);
+      const auto de = expect_from_means(others, ob, ot, block[k], treatment[k]);
+      REQUIRE(e.has_value() == de.has_value());
+      if (e) {
+        CHECK(e->expected == doctest::Approx(de->expected).epsilon(1e-10));
+        CHECK(e->sd == doctest::Approx(de->sd).epsilon(1e-9));
+      }
+    }
+  }
 }
 
 }  // namespace
