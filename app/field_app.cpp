@@ -231,7 +231,12 @@ class FieldApp {
         station_ui_.message.clear();
         break;
       case StationAction::Kind::write_bundle: report(write_device_bundle(trial_path_, bundle_folder()), "Bundle written:"); break;
-      case StationAction::Kind::export_data: report(export_clean_data(trial_path_, export_folder()), "Data written:"); break;
+      case StationAction::Kind::export_data:
+        report(export_clean_data(trial_path_, export_folder()), "Data written:");
+        if (!station_ui_.message_is_problem && !station_->conflicts.empty())
+          station_ui_.message += " (" + std::to_string(station_->conflicts.size()) +
+                                 " conflicts not settled yet are marked in it: settle them and export again)";
+        break;
       case StationAction::Kind::export_report: report(export_report(trial_path_, export_folder()), "Report written:"); break;
       case StationAction::Kind::keep:
       case StationAction::Kind::new_value:
