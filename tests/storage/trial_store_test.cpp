@@ -106,6 +106,66 @@ TEST_CASE("a database from a newer schema is refused, not changed") {
   CHECK(open.problem().message.find("newer Furrow") != std::string::npos);
 }
 
+TEST_CASE("a schema-1 database migrates to schema 2: log kept, a trial identity added, role station") {
+  const std::string path = test::fresh_demo_trial("schema1.furrow");
+  std::string uid_before;
+  {
+    auto open = open_trial_database(path);
+    REQUIRE(open.ok());
+    uid_before = open->trial.uid;
+    REQUIRE(append_observation(open->db, open->trial.device_id, value_for(open->trial, 0, 1, "95"), utc_now()).ok());
+  }
+  // Take the file back to schema 1 as it was written before bundles existed:
+  // the trial table without uid and role, no station_holding or merged_bundle.
+  {
+    auto db = Database::open(path, false);
+    REQUIRE(db.ok());
+    REQUIRE(db->exec(R"sql(
+      PRAGMA foreign_keys = OFF;
+      PRAGMA legacy_alter_table = ON;
+      BEGIN;
+      ALTER TABLE trial RENAME TO trial_v2;
+      CREATE TABLE trial (
+        id INTEGER PRIMARY KEY,
+        name TEXT NOT NULL, site TEXT NOT NULL, season TEXT NOT NULL,
+        design TEXT NOT NULL, replicates INTEGER NOT NULL,
+        grid_rows INTEGER NOT NULL, grid_columns INTEGER NOT NULL,
+        plot_length_m REAL NOT NULL, plot_width_m REAL NOT NULL,
+        block_shape TEXT NOT NULL, block_rows INTEGER NOT NULL, block_columns INTEGER NOT NULL,
+        walk TEXT NOT NULL, seed TEXT NOT NULL,
+        sites TEXT NOT NULL,
+        status TEXT NOT NULL CHECK (status IN ('planning', 'collecting', 'closed')),
+        created_at TEXT NOT NULL, closed_at TEXT
+      ) STRICT;
+      INSERT INTO trial SELECT id, name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m,
+        plot_width_m, block_shape, block_rows, block_columns, walk, seed, sites, status, created_at, closed_at
+        FROM trial_v2;
+      DROP TABLE trial_v2;
+      DROP TABLE station_holding;
+      DROP TABLE merged_bundle;
+      PRAGMA user_version = 1;
+      COMMIT;
+    )sql").ok());
+  }
+  auto open = open_trial_database(path);
+  REQUIRE(open.ok());
+  CHECK(open->trial.uid.size() == 32);
+  CHECK(open->trial.uid != uid_before);   // schema 1 had none: the migration gave it a new one
+  CHECK(open->trial.role == "station");
+  CHECK(open->trial.plan.name == "Harrow Ridge hulless oat variety trial 2026");
+  auto live = live_observations(open->db, 0);
+  REQUIRE(live.ok());
+  REQUIRE(live->size() == 1);
+  CHECK(*live->front().value == "95");
+  auto version = open->db.prepare("PRAGMA user_version");
+  REQUIRE(version.ok());
+  REQUIRE(version->step());
+  CHECK(version->integer(0) == kSchemaVersion);
+  auto fk = open->db.prepare("PRAGMA foreign_key_check");
+  REQUIRE(fk.ok());
+  CHECK_FALSE(fk->step());   // no dangling references
+}
+
 TEST_CASE("exports: layout in walking order, wide table marks conflicts") {
   auto open = open_trial_database(test::fresh_demo_trial("export.furrow"));
   REQUIRE(open.ok());
