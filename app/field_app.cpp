@@ -226,7 +226,8 @@ class FieldApp {
     switch (action->kind) {
       case StationAction::Kind::import_bundles:
         std::filesystem::create_directories(bundle_folder());
-        import_.emplace(bundle_folder(), folder_);
+        import_.emplace(bundle_folder(), folder_,
+                        trial_path_.empty() ? std::vector<std::string>{} : std::vector<std::string>{trial_path_});
         import_reported_ = false;
         station_ui_.message.clear();
         break;

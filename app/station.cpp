@@ -23,10 +23,17 @@ std::vector<std::string> list_bundle_files(const std::string& folder) {
   return out;
 }
 
-StationImport::StationImport(const std::string& bundle_folder, const std::string& trial_folder)
+StationImport::StationImport(const std::string& bundle_folder, const std::string& trial_folder,
+                             const std::vector<std::string>& also)
     : files_(list_bundle_files(bundle_folder)) {
-  for (const TrialSummary& s : list_trials(trial_folder))
-    if (s.problem.empty()) trials_.push_back({s.uid, s.path});
+  std::vector<TrialSummary> trials = list_trials(trial_folder);
+  for (const std::string& path : also) trials.push_back(summarise_trial(path));
+  for (const TrialSummary& s : trials)
+    if (s.problem.empty() && std::none_of(trials_.begin(), trials_.end(), [&](const auto& t) {
+          std::error_code ec;
+          return fs::equivalent(t.second, s.path, ec);
+        }))
+      trials_.push_back({s.uid, s.path});
 }
 
 const std::string& StationImport::current_file() const {

@@ -25,9 +25,10 @@ struct BundleOutcome {
 
 class StationImport {
  public:
-  // Bundles in `bundle_folder`; trials in `trial_folder` (matched by the
-  // trial's identity in each bundle).
-  StationImport(const std::string& bundle_folder, const std::string& trial_folder);
+  // Bundles in `bundle_folder`; trials in `trial_folder` and `also` (the
+  // open trial may live elsewhere), matched by the trial's identity in each bundle.
+  StationImport(const std::string& bundle_folder, const std::string& trial_folder,
+                const std::vector<std::string>& also = {});
   bool done() const { return next_ >= files_.size(); }
   size_t total() const { return files_.size(); }
   size_t finished() const { return next_; }

@@ -75,6 +75,16 @@ TEST_CASE("a folder of bundles goes into the right trials, one bundle per step, 
   }
   CHECK(merged == 2);
   CHECK(no_trial + refused == 2);
+  // The open trial may live outside the data folder: passed along, its bundle
+  // finds it; the folder's trials are not listed twice.
+  {
+    StationImport again((data / "bundles").string(), data.string(),
+                        {(devices / "other.furrow").string(), station});
+    while (!again.done()) again.step();
+    int merged_now = 0;
+    for (const BundleOutcome& o : again.outcomes()) merged_now += o.merged;
+    CHECK(merged_now == 3);   // a, b (nothing new) and the other trial's bundle; not the stray file
+  }
   // The two devices disagree on plot 101: the station lists it.
   auto open = open_trial_database(station);
   REQUIRE(open.ok());
