@@ -74,17 +74,11 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
                                              float top_px, CheckScreenState* st) {
   st->targets.clear();
   std::optional<CheckAction> action;
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::PushStyleColor(ImGuiCol_TableHeaderBg, to_imgui(t.panel));
-  ImGui::PushStyleColor(ImGuiCol_TableRowBgAlt, to_imgui(t.panel));
-  ImGui::PushStyleColor(ImGuiCol_TableBorderStrong, to_imgui(t.muted_text));
-  ImGui::PushStyleColor(ImGuiCol_TableBorderLight, to_imgui(t.muted_text));
-  ImGui::Begin("Check", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                     ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Check", t, top_px,
+                            {{ImGuiCol_TableHeaderBg, t.panel},
+                             {ImGuiCol_TableRowBgAlt, t.panel},
+                             {ImGuiCol_TableBorderStrong, t.muted_text},
+                             {ImGuiCol_TableBorderLight, t.muted_text}});
   const float h = kTouchTargetPx * scale;
   const ButtonLook plain{t.button, t.button_text};
   banner(kInterimCaution, t.confirm, t.confirm_text);
@@ -103,8 +97,6 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   if (!a) {
     ImGui::TextWrapped("No analysis yet: %s", problem.c_str());
     ImGui::EndChild();
-    ImGui::End();
-    ImGui::PopStyleColor(6);
     return action;
   }
   const float width = ImGui::GetContentRegionAvail().x;
@@ -285,8 +277,6 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   for (const std::string& n : a->notes) ImGui::TextWrapped("note: %s", n.c_str());
   ImGui::Dummy(ImVec2(0, h));
   ImGui::EndChild();
-  ImGui::End();
-  ImGui::PopStyleColor(6);
   return action;
 }
 

@@ -9,12 +9,7 @@
 namespace furrow {
 
 void draw_help_screen(const Theme& t, float scale, float top_px) {
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::Begin("Help", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Help", t, top_px);
   drag_to_scroll(scale);
   ImGui::PushStyleColor(ImGuiCol_ChildBg, to_imgui(t.confirm));
   ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.confirm_text));
@@ -50,8 +45,6 @@ void draw_help_screen(const Theme& t, float scale, float top_px) {
       "the station imports them all (Import bundles), settles each conflict by keeping one value, entering another "
       "or marking it missing, and exports the data and the report.");
   ImGui::TextWrapped("%s", kInterimCaution);
-  ImGui::End();
-  ImGui::PopStyleColor(2);
 }
 
 }  // namespace furrow

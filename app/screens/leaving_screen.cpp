@@ -12,13 +12,7 @@ std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const The
                                             LeavingScreenState* st) {
   st->targets.clear();
   std::optional<OpenItem> open;
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::Begin("Before leaving", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                              ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Before leaving", t, top_px);
   ImGui::TextWrapped("Before leaving the field: %d conflicts, %d outlier plots, %d values to check, %d values not "
                      "recorded. Tap a line to open that plot.",
                      list.conflicts, list.outliers, list.flagged, list.missing);
@@ -46,8 +40,6 @@ std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const The
       open = OpenItem{item.plot_index, item.trait_index, item.occasion};
   }
   ImGui::EndChild();
-  ImGui::End();
-  ImGui::PopStyleColor(2);
   return open;
 }
 

@@ -49,14 +49,7 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
                                          MapScreenState* st) {
   st->targets.clear();
   std::optional<MapAction> action;
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::PushStyleColor(ImGuiCol_ChildBg, to_imgui(t.panel));
-  ImGui::Begin("Field map", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                          ImGuiWindowFlags_NoSavedSettings | ImGuiWindowFlags_NoScrollWithMouse);
+  const ScreenWindow window("Field map", t, top_px, {{ImGuiCol_ChildBg, t.panel}}, ImGuiWindowFlags_NoScrollWithMouse);
   const float h = kTouchTargetPx * scale;
   const ButtonLook plain{t.button, t.button_text};
   const ButtonLook chosen{t.accent, t.accent_text};
@@ -220,8 +213,6 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
   }
   if (!map.scale_low.empty())
     ImGui::Text("Low: %s    High: %s", map.scale_low.c_str(), map.scale_high.c_str());
-  ImGui::End();
-  ImGui::PopStyleColor(3);
   return action;
 }
 

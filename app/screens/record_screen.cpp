@@ -46,16 +46,11 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   std::vector<RecordCommand> out;
   st->targets.clear();
   const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(theme.text));
-  ImGui::PushStyleColor(ImGuiCol_FrameBg, to_imgui(theme.panel));
-  ImGui::PushStyleColor(ImGuiCol_FrameBgActive, to_imgui(theme.panel));
-  ImGui::PushStyleColor(ImGuiCol_FrameBgHovered, to_imgui(theme.panel));
-  ImGui::PushStyleColor(ImGuiCol_Border, to_imgui(theme.text));
-  ImGui::Begin("Record", nullptr,
-               ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Record", theme, top_px,
+                            {{ImGuiCol_FrameBg, theme.panel},
+                             {ImGuiCol_FrameBgActive, theme.panel},
+                             {ImGuiCol_FrameBgHovered, theme.panel},
+                             {ImGuiCol_Border, theme.text}});
   const float target = kTouchTargetPx * scale;
   const float key = kKeyPx * scale;
   const float width = ImGui::GetContentRegionAvail().x;
@@ -167,8 +162,6 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
     st->jump_label[0] = 0;
   }
   ImGui::EndGroup();
-  ImGui::End();
-  ImGui::PopStyleColor(6);
   return out;
 }
 

@@ -33,14 +33,7 @@ std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t
     std::snprintf(st->observer, sizeof st->observer, "%s", cur.observer.c_str());
     st->observer_loaded = true;
   }
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::PushStyleColor(ImGuiCol_FrameBg, to_imgui(t.panel));
-  ImGui::Begin("Settings", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                        ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Settings", t, top_px, {{ImGuiCol_FrameBg, t.panel}});
   const float h = kTouchTargetPx * scale * 1.3f;
   const float w = 4.5f * kTouchTargetPx * scale;
 
@@ -95,8 +88,6 @@ std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t
     next.blind_scoring = !cur.blind_scoring;
     changed = next;
   }
-  ImGui::End();
-  ImGui::PopStyleColor(3);
   return changed;
 }
 

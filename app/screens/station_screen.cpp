@@ -12,15 +12,7 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
                                                  StationScreenState* st) {
   st->targets.clear();
   std::optional<StationAction> action;
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::PushStyleColor(ImGuiCol_FrameBg, to_imgui(t.panel));
-  ImGui::PushStyleColor(ImGuiCol_PlotHistogram, to_imgui(t.accent));
-  ImGui::Begin("Station", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                       ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Station", t, top_px, {{ImGuiCol_FrameBg, t.panel}, {ImGuiCol_PlotHistogram, t.accent}});
   ImGui::BeginChild("station", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
   drag_to_scroll(scale);
   const float h = kTouchTargetPx * scale;
@@ -121,8 +113,6 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
   }
   ImGui::Dummy(ImVec2(0, h));
   ImGui::EndChild();
-  ImGui::End();
-  ImGui::PopStyleColor(4);
   return action;
 }
 

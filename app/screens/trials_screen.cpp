@@ -23,14 +23,7 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
                                                TrialsScreenState* st) {
   st->targets.clear();
   std::optional<TrialsAction> action;
-  const ImGuiViewport* vp = ImGui::GetMainViewport();
-  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
-  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
-  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
-  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
-  ImGui::PushStyleColor(ImGuiCol_FrameBg, to_imgui(t.panel));
-  ImGui::Begin("Trials", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                      ImGuiWindowFlags_NoSavedSettings);
+  const ScreenWindow window("Trials", t, top_px, {{ImGuiCol_FrameBg, t.panel}});
   ImGui::BeginChild("list", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
   drag_to_scroll(scale);
   const float h = kTouchTargetPx * scale;
@@ -88,8 +81,6 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
       st->plan_path[0])
     action = TrialsAction{TrialsAction::Kind::create_from_plan, st->plan_path};
   ImGui::EndChild();
-  ImGui::End();
-  ImGui::PopStyleColor(3);
   return action;
 }
 

@@ -9,6 +9,24 @@ namespace furrow {
 // A finger that moves this far (at scale 1) while down is scrolling, not tapping.
 constexpr float kDragScrollPx = 12.0f;
 
+ScreenWindow::ScreenWindow(const char* name, const Theme& t, float top_px,
+                           std::initializer_list<std::pair<ImGuiCol, Rgb>> extra, ImGuiWindowFlags flags) {
+  const ImGuiViewport* vp = ImGui::GetMainViewport();
+  ImGui::SetNextWindowPos(ImVec2(vp->WorkPos.x, vp->WorkPos.y + top_px));
+  ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
+  ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
+  ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
+  for (const auto& [slot, colour] : extra) ImGui::PushStyleColor(slot, to_imgui(colour));
+  colours_ = 2 + static_cast<int>(extra.size());
+  ImGui::Begin(name, nullptr,
+               ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings | flags);
+}
+
+ScreenWindow::~ScreenWindow() {
+  ImGui::End();
+  ImGui::PopStyleColor(colours_);
+}
+
 void note_target(const std::string& label, std::vector<TapTarget>* targets) {
   const ImVec2 a = ImGui::GetItemRectMin(), b = ImGui::GetItemRectMax();
   targets->push_back({label, a.x, a.y, b.x, b.y});

@@ -5,6 +5,8 @@
 
 #include <imgui.h>
 
+#include <initializer_list>
+#include <utility>
 #include <vector>
 
 #include "app/screens/record_screen.h"
@@ -20,6 +22,22 @@ struct ButtonLook {
   float border_px = 0;        // 0: no border
   Rgb border;
   bool align_left = false;
+};
+
+// One screen's window: the full width below the navigation bar (`top_px`),
+// no decoration, in the theme's background and text colours plus `extra`
+// colours, all pushed before the window begins so that they hold for all of
+// it. The window ends and the colours are popped when this goes out of scope.
+class ScreenWindow {
+ public:
+  ScreenWindow(const char* name, const Theme& theme, float top_px,
+               std::initializer_list<std::pair<ImGuiCol, Rgb>> extra = {}, ImGuiWindowFlags flags = 0);
+  ~ScreenWindow();
+  ScreenWindow(const ScreenWindow&) = delete;
+  ScreenWindow& operator=(const ScreenWindow&) = delete;
+
+ private:
+  int colours_ = 0;
 };
 
 // A button in one solid colour (no hover change: fingers do not hover).
