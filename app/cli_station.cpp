@@ -116,10 +116,7 @@ int run_settle(const SettleRequest& r) {
       return fail("settle: --keep is DEVICE/SEQUENCE, as furrow conflicts lists them");
     }
   } else if (!r.value.empty()) {
-    const Trait& trait = t.plan.traits[cell->trait_index];
-    for (const Finding& f : check_entry(trait, r.value, EntryContext{}))
-      if (f.severity == Severity::refuse) return fail("settle: " + r.value + " refused: " + f.message);
-    auto parsed = parse_trait_value(trait, r.value);
+    auto parsed = parse_acceptable_value(t.plan.traits[cell->trait_index], r.value);
     if (!parsed) return fail("settle: " + parsed.problem().message);
     s.kind = Settlement::Kind::new_value;
     s.value = parsed->text;

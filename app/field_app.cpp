@@ -253,14 +253,7 @@ class FieldApp {
       s.kind = Settlement::Kind::keep;
       s.keep = cell.rows.at(a.row).key;
     } else if (a.kind == StationAction::Kind::new_value) {
-      const Trait& trait = session_->trial().plan.traits[cell.trait_index];
-      for (const Finding& f : check_entry(trait, a.text, EntryContext{}))
-        if (f.severity == Severity::refuse) {
-          station_ui_.message = a.text + " cannot be saved: " + f.message;
-          station_ui_.message_is_problem = true;
-          return;
-        }
-      auto parsed = parse_trait_value(trait, a.text);
+      auto parsed = parse_acceptable_value(session_->trial().plan.traits[cell.trait_index], a.text);
       if (!parsed) {
         station_ui_.message = parsed.problem().message;
         station_ui_.message_is_problem = true;

@@ -2,8 +2,6 @@
 
 #include <cmath>
 #include <cstdio>
-#include <filesystem>
-#include <fstream>
 #include <map>
 #include <set>
 #include <sstream>
@@ -14,6 +12,7 @@
 #include "app/trial_summary.h"
 #include "core/design.h"
 #include "storage/settle.h"
+#include "storage/text_file.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
@@ -307,17 +306,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
 Status write_report(const std::string& db_path, const std::string& out_path, const ReportOptions& options) {
   auto html = report_html(db_path, options);
   if (!html) return html.problem();
-  const std::string part = out_path + ".part";
-  {
-    std::ofstream f(part, std::ios::binary);
-    if (!f) return make_problem("cannot write " + out_path);
-    f << *html;
-    if (!f) return make_problem("cannot write " + out_path);
-  }
-  std::error_code ec;
-  std::filesystem::rename(part, out_path, ec);
-  if (ec) return make_problem("cannot write " + out_path + ": " + ec.message());
-  return ok_status();
+  return write_text_file(out_path, *html);
 }
 
 }  // namespace furrow

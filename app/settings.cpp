@@ -1,9 +1,10 @@
 #include "app/settings.h"
 
-#include <filesystem>
 #include <fstream>
 #include <nlohmann/json.hpp>
 #include <sstream>
+
+#include "storage/text_file.h"
 
 namespace furrow {
 
@@ -60,17 +61,7 @@ Status save_settings(const std::string& path, const Settings& s) {
                       {"theme", s.theme == ThemeKind::daylight ? "daylight" : "dark"},
                       {"alpha", s.alpha},
                       {"blind_scoring", s.blind_scoring}};
-  const std::string tmp = path + ".tmp";
-  {
-    std::ofstream out(tmp, std::ios::trunc);
-    if (!(out << j.dump(2) << "\n")) return make_problem("cannot write " + tmp);
-    out.flush();
-    if (!out) return make_problem("cannot write " + tmp);
-  }
-  std::error_code ec;
-  std::filesystem::rename(tmp, path, ec);
-  if (ec) return make_problem("cannot replace " + path + ": " + ec.message());
-  return ok_status();
+  return write_text_file(path, j.dump(2) + "\n");
 }
 
 }  // namespace furrow

@@ -2,12 +2,12 @@
 
 #include <algorithm>
 #include <filesystem>
-#include <fstream>
 
 #include "app/report.h"
 #include "app/trial_summary.h"
 #include "storage/bundle.h"
 #include "storage/plan_file.h"
+#include "storage/text_file.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
@@ -101,14 +101,7 @@ Result<std::string> export_clean_data(const std::string& db_path, const std::str
   std::error_code ec;
   fs::create_directories(folder, ec);
   const std::string out = (fs::path(folder) / (fs::path(db_path).stem().string() + ".csv")).string();
-  const std::string part = out + ".part";
-  {
-    std::ofstream f(part, std::ios::binary);
-    f << wide_data_csv(open->trial, *live);
-    if (!f) return make_problem("cannot write " + out);
-  }
-  fs::rename(part, out, ec);
-  if (ec) return make_problem("cannot write " + out + ": " + ec.message());
+  if (auto s = write_text_file(out, wide_data_csv(open->trial, *live)); !s) return s.problem();
   return out;
 }
 

@@ -178,6 +178,12 @@ std::vector<Finding> check_entry(const Trait& trait, const std::string& text, co
   return out;
 }
 
+Result<ParsedValue> parse_acceptable_value(const Trait& trait, const std::string& text) {
+  for (const Finding& f : check_entry(trait, text, EntryContext{}))
+    if (f.severity == Severity::refuse) return make_problem(text + " refused: " + f.message);
+  return parse_trait_value(trait, text);
+}
+
 std::optional<Severity> worst(const std::vector<Finding>& findings) {
   std::optional<Severity> w;
   for (const Finding& f : findings)

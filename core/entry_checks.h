@@ -72,6 +72,11 @@ Result<ParsedValue> parse_trait_value(const Trait& trait, const std::string& tex
 // gives one refuse finding.
 std::vector<Finding> check_entry(const Trait& trait, const std::string& text, const EntryContext& context);
 
+// A value typed with no plot to compare it with (a station settling a
+// conflict): the parsed value, or a Problem "<text> refused: <reason>" when a
+// check refuses it.
+Result<ParsedValue> parse_acceptable_value(const Trait& trait, const std::string& text);
+
 // The worst severity in the findings, or nullopt when there are none.
 std::optional<Severity> worst(const std::vector<Finding>& findings);
 

@@ -18,12 +18,6 @@ constexpr std::int64_t kBundleApplicationId = 0x46524231;   // "FRB1"
 constexpr const char* kFormat = "furrow-bundle";
 constexpr const char* kVersion = "1";
 
-#define FURROW_TRY(expr)                                    \
-  do {                                                      \
-    auto furrow_status_ = (expr);                           \
-    if (!furrow_status_) return furrow_status_.problem();   \
-  } while (0)
-
 // SHA-1 over length-prefixed fields, so that no two different sequences of
 // fields give the same stream.
 class Digest {
@@ -59,15 +53,6 @@ class Digest {
  private:
   boost::uuids::detail::sha1 h_;
 };
-
-std::optional<std::string> opt_text(const Statement& s, int col) {
-  if (s.is_null(col)) return std::nullopt;
-  return s.text(col);
-}
-std::optional<double> opt_real(const Statement& s, int col) {
-  if (s.is_null(col)) return std::nullopt;
-  return s.real(col);
-}
 
 std::string opt_key(const std::optional<double>& v) {
   if (!v) return "~";
@@ -173,9 +158,9 @@ Row read_row(const Statement& s) {
   r.plot_label = s.text(2);
   r.trait_code = s.text(3);
   r.occasion = s.integer(4);
-  r.value = opt_text(s, 5);
-  r.number = opt_real(s, 6);
-  r.missing_reason = opt_text(s, 7);
+  r.value = s.optional_text(5);
+  r.number = s.optional_real(6);
+  r.missing_reason = s.optional_text(7);
   r.note = s.text(8);
   r.observer = s.text(9);
   r.recorded_at = s.text(10);

@@ -56,6 +56,14 @@ std::string Statement::text(int col) const {
            : std::string();
 }
 bool Statement::is_null(int col) const { return sqlite3_column_type(stmt_, col) == SQLITE_NULL; }
+std::optional<std::string> Statement::optional_text(int col) const {
+  if (is_null(col)) return std::nullopt;
+  return text(col);
+}
+std::optional<double> Statement::optional_real(int col) const {
+  if (is_null(col)) return std::nullopt;
+  return real(col);
+}
 
 Database& Database::operator=(Database&& o) noexcept {
   if (this != &o) {

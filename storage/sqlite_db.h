@@ -40,6 +40,8 @@ class Statement {
   double real(int col) const;
   std::string text(int col) const;
   bool is_null(int col) const;
+  std::optional<std::string> optional_text(int col) const;   // nullopt for NULL
+  std::optional<double> optional_real(int col) const;
   bool failed() const { return !error_.empty(); }
   const std::string& error() const { return error_; }
 
@@ -78,6 +80,14 @@ class Database {
  private:
   sqlite3* db_ = nullptr;
 };
+
+// Returns the Problem of a failed Status or Result from the enclosing
+// function (which returns Status or a Result).
+#define FURROW_TRY(expr)                                  \
+  do {                                                    \
+    auto furrow_status_ = (expr);                         \
+    if (!furrow_status_) return furrow_status_.problem(); \
+  } while (0)
 
 // Runs `body` inside BEGIN IMMEDIATE ... COMMIT; rolls back when it fails.
 template <class F>

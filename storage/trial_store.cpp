@@ -173,12 +173,6 @@ std::vector<std::string> split_categories(const std::string& s) {
   return out;
 }
 
-#define FURROW_TRY(expr)              \
-  do {                                \
-    auto furrow_status_ = (expr);     \
-    if (!furrow_status_) return furrow_status_.problem(); \
-  } while (0)
-
 Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout, const TrialIdentity& id) {
   auto st = db.prepare(
       "INSERT INTO trial (name, site, season, design, replicates, grid_rows, grid_columns, plot_length_m, "
@@ -246,15 +240,6 @@ Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout, cons
   return ds->run();
 }
 
-std::optional<double> opt_real(const Statement& s, int col) {
-  if (s.is_null(col)) return std::nullopt;
-  return s.real(col);
-}
-std::optional<std::string> opt_text(const Statement& s, int col) {
-  if (s.is_null(col)) return std::nullopt;
-  return s.text(col);
-}
-
 }  // namespace
 
 Status close_trial(Database& db) {
@@ -274,7 +259,7 @@ std::string utc_now() {
   const auto ms = std::chrono::duration_cast<std::chrono::milliseconds>(now.time_since_epoch()).count() % 1000;
   std::tm tm{};
   gmtime_r(&t, &tm);
-  char buf[40];
+  char buf[80];
   std::snprintf(buf, sizeof buf, "%04d-%02d-%02dT%02d:%02d:%02d.%03dZ", tm.tm_year + 1900, tm.tm_mon + 1, tm.tm_mday,
                 tm.tm_hour, tm.tm_min, tm.tm_sec, static_cast<int>(ms));
   return buf;
@@ -424,10 +409,10 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
       tr.unit = s->text(3);
       tr.kind = parse_trait_kind(s->text(4)).value_or(TraitKind::text);
       tr.decimals = static_cast<int>(s->integer(5));
-      tr.hard_min = opt_real(*s, 6);
-      tr.hard_max = opt_real(*s, 7);
-      tr.soft_min = opt_real(*s, 8);
-      tr.soft_max = opt_real(*s, 9);
+      tr.hard_min = s->optional_real(6);
+      tr.hard_max = s->optional_real(7);
+      tr.soft_min = s->optional_real(8);
+      tr.soft_max = s->optional_real(9);
       tr.required = s->integer(10) != 0;
       tr.occasions = static_cast<int>(s->integer(11));
       tr.scale_min = static_cast<int>(s->integer(12));
@@ -500,9 +485,9 @@ Result<std::vector<LiveObservation>> read_observations(Database& db, const std::
     o.plot_id = s->integer(2);
     o.trait_id = s->integer(3);
     o.occasion = static_cast<int>(s->integer(4));
-    o.value = opt_text(*s, 5);
-    o.number = opt_real(*s, 6);
-    o.missing_reason = opt_text(*s, 7);
+    o.value = s->optional_text(5);
+    o.number = s->optional_real(6);
+    o.missing_reason = s->optional_text(7);
     o.note = s->text(8);
     o.observer = s->text(9);
     o.recorded_at = s->text(10);

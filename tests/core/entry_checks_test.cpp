@@ -183,3 +183,31 @@ TEST_CASE("leave-one-out statistics equal the direct computation from the other 
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("a settlement's value is parsed and checked like an entry, with no plot to compare it with") {
+  Trait height;   // limits as in the demo plan (common practice for plant height in cm)
+  height.code = "height_cm";
+  height.name = "plant height";
+  height.kind = TraitKind::decimal;
+  height.decimals = 1;
+  height.hard_min = 0;
+  height.hard_max = 250;
+  height.soft_min = 60;
+  height.soft_max = 140;
+  const auto ok = parse_acceptable_value(height, "98.5");
+  REQUIRE(ok.ok());
+  CHECK(*ok->number == doctest::Approx(98.5));
+  // Outside the usual range only asks for confirmation at entry: a settler has looked already.
+  CHECK(parse_acceptable_value(height, "150").ok());
+  const auto past = parse_acceptable_value(height, "900");
+  REQUIRE_FALSE(past.ok());
+  CHECK(past.problem().message.rfind("900 refused: ", 0) == 0);
+  CHECK_FALSE(parse_acceptable_value(height, "tall").ok());
+  CHECK_FALSE(parse_acceptable_value(height, "98.55").ok());   // more decimals than the trait keeps
+}
+
+}  // namespace
+}  // namespace furrow
