@@ -106,9 +106,10 @@ RecordView RecordSession::view() const {
   else if (values.size() > 1) v.current = "CONFLICT";
   v.position = static_cast<int>(plot_) + 1;
   v.plots = static_cast<int>(t.layout.plots.size());
-  const TrialProgress progress = trial_progress(t, live_);
-  v.cells_done = progress.cells_done;
-  v.cells_required = progress.cells_required;
+  // Counted once per change of the log, not once per drawn frame.
+  if (!progress_ || progress_->first != revision_) progress_.emplace(revision_, trial_progress(t, live_));
+  v.cells_done = progress_->second.cells_done;
+  v.cells_required = progress_->second.cells_required;
   v.has_pending = pending_.has_value();
   return v;
 }

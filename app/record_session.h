@@ -9,9 +9,11 @@
 
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "app/before_leaving.h"
+#include "app/trial_summary.h"
 #include "core/entry_checks.h"
 #include "storage/trial_store.h"
 
@@ -95,6 +97,7 @@ class RecordSession {
   std::string observer_;
   std::vector<LiveObservation> live_;   // cached live rows, refreshed after each save
   std::uint64_t revision_ = 0;
+  mutable std::optional<std::pair<std::uint64_t, TrialProgress>> progress_;   // at revision_
   size_t plot_ = 0, trait_ = 0;
   int occasion_ = 1;
   WalkMode walk_ = WalkMode::one_trait_across_plots;
