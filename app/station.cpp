@@ -26,14 +26,17 @@ std::vector<std::string> list_bundle_files(const std::string& folder) {
 StationImport::StationImport(const std::string& bundle_folder, const std::string& trial_folder,
                              const std::vector<std::string>& also)
     : files_(list_bundle_files(bundle_folder)) {
-  std::vector<TrialSummary> trials = list_trials(trial_folder);
-  for (const std::string& path : also) trials.push_back(summarise_trial(path));
-  for (const TrialSummary& s : trials)
-    if (s.problem.empty() && std::none_of(trials_.begin(), trials_.end(), [&](const auto& t) {
+  // Only each trial's identity is needed: open the files, read no log.
+  std::vector<std::string> paths = list_trial_files(trial_folder);
+  paths.insert(paths.end(), also.begin(), also.end());
+  for (const std::string& path : paths) {
+    if (std::any_of(trials_.begin(), trials_.end(), [&](const auto& t) {
           std::error_code ec;
-          return fs::equivalent(t.second, s.path, ec);
+          return fs::equivalent(t.second, path, ec);
         }))
-      trials_.push_back({s.uid, s.path});
+      continue;
+    if (auto open = open_trial_database(path)) trials_.push_back({open->trial.uid, path});
+  }
 }
 
 const std::string& StationImport::current_file() const {

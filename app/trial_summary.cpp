@@ -61,13 +61,18 @@ TrialSummary summarise_trial(const std::string& path) {
   return s;
 }
 
+std::vector<std::string> list_trial_files(const std::string& folder) {
+  std::vector<std::string> out;
+  std::error_code ec;
+  for (const auto& entry : fs::directory_iterator(folder, ec))
+    if (entry.is_regular_file(ec) && entry.path().extension() == ".furrow") out.push_back(entry.path().string());
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
 std::vector<TrialSummary> list_trials(const std::string& folder) {
   std::vector<TrialSummary> out;
-  std::error_code ec;
-  for (const auto& entry : fs::directory_iterator(folder, ec)) {
-    if (!entry.is_regular_file(ec) || entry.path().extension() != ".furrow") continue;
-    out.push_back(summarise_trial(entry.path().string()));
-  }
+  for (const std::string& path : list_trial_files(folder)) out.push_back(summarise_trial(path));
   std::sort(out.begin(), out.end(), [](const TrialSummary& a, const TrialSummary& b) {
     return std::tie(b.progress.last_change, a.file_name) < std::tie(a.progress.last_change, b.file_name);
   });

@@ -30,6 +30,9 @@ struct TrialSummary {
 // Reads one trial database for the list.
 TrialSummary summarise_trial(const std::string& path);
 
+// The trial database files (*.furrow) in `folder`, by name.
+std::vector<std::string> list_trial_files(const std::string& folder);
+
 // Every trial database (*.furrow) in `folder`, newest change first; files
 // that cannot be read are listed with their problem.
 std::vector<TrialSummary> list_trials(const std::string& folder);
