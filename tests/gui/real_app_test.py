@@ -60,6 +60,10 @@ sleep 3
 # No window manager under Xvfb: give the window the input focus ourselves
 # (the ImGui GLFW backend reads the pointer only while the window has it).
 xdotool search --sync --name '^Furrow' windowfocus --sync
+# A tap lands on what the last drawn frame showed: move the pointer first so
+# that the app draws a few frames (on a busy machine it may not have yet).
+xdotool mousemove 640 790
+sleep 1
 xdotool mousemove {KEEP_FIRST[0]} {KEEP_FIRST[1]} click 1
 sleep 1
 xdotool mousemove {IMPORT[0]} {IMPORT[1]} click 1
@@ -92,8 +96,12 @@ script = f"""
 app=$!
 sleep 3
 xdotool search --sync --name '^Furrow' windowfocus --sync
+# A tap lands on what the last drawn frame showed: move the pointer first so
+# that the app draws a few frames (on a busy machine it may not have yet).
+xdotool mousemove 640 790
+sleep 1
 xdotool mousemove {PATH_FIELD[0]} {PATH_FIELD[1]} click 1
-sleep 0.5
+sleep 1
 xdotool type --delay 20 '{station}'
 xdotool key Return
 sleep 2
