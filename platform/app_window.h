@@ -37,9 +37,10 @@ class AppWindow {
   // their own sizes so that large text stays sharp.
   static constexpr int kFontNormal = 0, kFontLarge = 1, kFontHuge = 2;
 
+  struct Impl;   // defined by the platform's implementation
+
  private:
   AppWindow() = default;
-  struct Impl;
   std::unique_ptr<Impl> impl_;
   float scale_ = 1.0f;
   float ui_scale_ = 1.0f;

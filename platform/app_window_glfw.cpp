@@ -3,6 +3,7 @@
 #include <imgui_impl_glfw.h>
 #include <imgui_impl_opengl3.h>
 
+#include <bitset>
 #include <vector>
 
 #include "platform/app_window.h"
@@ -26,7 +27,33 @@ struct AppWindow::Impl {
   GLFWwindow* window = nullptr;
   int width = 0, height = 0;
   float clear[3] = {1, 1, 1};
+  // Keys pressed since the last frame began, and releases held back for the
+  // next frame (see key_callback).
+  std::bitset<GLFW_KEY_LAST + 1> pressed;
+  struct Release { int key, scancode, mods; };
+  std::vector<Release> held;
 };
+
+namespace {
+
+// ImGui reads a key's state once per frame. A barcode scanner or a quick
+// keypress delivers press and release together, and the key would never be
+// seen down (Enter after a scanned label lost). A release that follows its
+// press within one frame is therefore held back until the next frame.
+void key_callback(GLFWwindow* w, int key, int scancode, int action, int mods) {
+  auto* impl = static_cast<AppWindow::Impl*>(glfwGetWindowUserPointer(w));
+  if (impl && key >= 0 && key <= GLFW_KEY_LAST) {
+    if (action == GLFW_PRESS) {
+      impl->pressed.set(static_cast<size_t>(key));
+    } else if (action == GLFW_RELEASE && impl->pressed.test(static_cast<size_t>(key))) {
+      impl->held.push_back({key, scancode, mods});
+      return;
+    }
+  }
+  ImGui_ImplGlfw_KeyCallback(w, key, scancode, action, mods);
+}
+
+}  // namespace
 
 Result<std::unique_ptr<AppWindow>> AppWindow::create(const std::string& title, int width, int height, float ui_scale) {
   if (!glfwInit()) return make_problem("cannot start the window system (no display?)");
@@ -52,6 +79,8 @@ Result<std::unique_ptr<AppWindow>> AppWindow::create(const std::string& title, i
   ImGui::GetIO().IniFilename = nullptr;
   out->set_ui_scale(ui_scale);
   ImGui_ImplGlfw_InitForOpenGL(w, true);
+  glfwSetWindowUserPointer(w, out->impl_.get());
+  glfwSetKeyCallback(w, key_callback);   // in place of the backend's own, which it forwards to
   ImGui_ImplOpenGL3_Init("#version 330");
   return out;
 }
@@ -93,6 +122,11 @@ void AppWindow::set_title(const std::string& title) {
 }
 
 void AppWindow::begin_frame(double timeout_s) {
+  // The last frame saw these keys down: now they go up.
+  for (const Impl::Release& r : impl_->held)
+    ImGui_ImplGlfw_KeyCallback(impl_->window, r.key, r.scancode, GLFW_RELEASE, r.mods);
+  impl_->held.clear();
+  impl_->pressed.reset();
   if (timeout_s > 0) glfwWaitEventsTimeout(timeout_s);
   else glfwPollEvents();
   // GLFW reports a new content scale (another monitor, a changed system

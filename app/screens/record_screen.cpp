@@ -2,6 +2,8 @@
 
 #include <imgui.h>
 
+#include <algorithm>
+
 #include "app/screens/widgets.h"
 
 namespace furrow {
@@ -75,28 +77,36 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   ImGui::Text("Recorded: %s", v.current ? v.current->c_str() : "nothing yet");
   ImGui::Text("Done %d of %d required values", v.cells_done, v.cells_required);
 
-  // Banner with what the checks said.
-  if (st->tone != RecordScreenState::Tone::none) {
+  // Banner with what the checks said, as tall as its text (and the Confirm
+  // button when a value waits for it). In landscape it heads the right-hand
+  // column, so that the keypad never moves under the finger; in portrait it
+  // sits above the keypad.
+  const auto draw_banner = [&](float w) {
+    if (st->tone == RecordScreenState::Tone::none) return;
     const Rgb bg = st->tone == RecordScreenState::Tone::saved     ? theme.saved
                    : st->tone == RecordScreenState::Tone::confirm ? theme.confirm
                                                                   : theme.refuse;
     const Rgb fg = st->tone == RecordScreenState::Tone::saved     ? theme.saved_text
                    : st->tone == RecordScreenState::Tone::confirm ? theme.confirm_text
                                                                   : theme.refuse_text;
+    const bool confirm = st->tone == RecordScreenState::Tone::confirm && v.has_pending;
+    const ImVec2 pad = ImGui::GetStyle().WindowPadding;
+    const float text_h = ImGui::CalcTextSize(st->banner.c_str(), nullptr, false, w - 2 * pad.x).y;
+    const float h = text_h + 2 * pad.y + (confirm ? 1.5f * target + ImGui::GetStyle().ItemSpacing.y : 0.0f);
     ImGui::PushStyleColor(ImGuiCol_ChildBg, to_imgui(bg));
     ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(fg));
-    ImGui::BeginChild("banner", ImVec2(width, 2.2f * target), false, ImGuiWindowFlags_NoScrollbar);
-    ImGui::PushTextWrapPos(width - (st->tone == RecordScreenState::Tone::confirm ? 6 * target : 0));
+    ImGui::BeginChild("banner", ImVec2(w, h), false,
+                      ImGuiWindowFlags_NoScrollbar | ImGuiWindowFlags_AlwaysUseWindowPadding);
+    ImGui::PushTextWrapPos(0.0f);
     ImGui::TextUnformatted(st->banner.c_str());
     ImGui::PopTextWrapPos();
-    if (st->tone == RecordScreenState::Tone::confirm && v.has_pending) {
-      ImGui::SameLine(width - 5.5f * target);
-      if (big_button("Confirm value", 5 * target, 1.5f * target, theme.button, theme.button_text, st))
-        out.push_back({RecordCommand::Kind::confirm, {}});
-    }
+    const float confirm_w = std::min(5 * target, w - 2 * pad.x);
+    if (confirm && big_button("Confirm value", confirm_w, 1.5f * target, theme.button, theme.button_text, st))
+      out.push_back({RecordCommand::Kind::confirm, {}});
     ImGui::EndChild();
     ImGui::PopStyleColor(2);
-  }
+  };
+  if (portrait) draw_banner(width);
 
   // The value being typed and the keypad.
   ImGui::PushFont(huge);
@@ -125,6 +135,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const Theme& 
   if (!portrait) ImGui::SameLine(0, 2 * target);
   ImGui::BeginGroup();
   const float cmd = 4.5f * target;
+  if (!portrait) draw_banner(2 * cmd + ImGui::GetStyle().ItemSpacing.x);
   if (big_button("Previous plot", cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::previous, {}});
   ImGui::SameLine();

@@ -1,6 +1,7 @@
 #!/usr/bin/python3
-"""The real field app under Xvfb, driven with real pointer clicks (xdotool),
-as a station manager at day's end: open the Station screen on a trial with
+"""The real field app under Xvfb, driven with real pointer clicks and keys
+(xdotool): a barcode scanner's label and Enter on the Record screen; and, as a
+station manager at day's end: open the Station screen on a trial with
 three conflicts, tap "Keep 96 (Ana)" on the first, tap "Import bundles" to
 merge a late device's bundle from the data folder, then check the trial
 database through the command line: the first conflict settled by the
@@ -122,4 +123,41 @@ if os.path.exists(copy):
     check(uid(copy)[0] == uid(station)[0] and uid(copy)[1] == "device", "same trial identity, as a device")
 bundles = os.listdir(os.path.join(tablet, "bundles")) if os.path.isdir(os.path.join(tablet, "bundles")) else []
 check(len(bundles) == 1 and bundles[0].endswith(".bundle"), f"Write this device's bundle wrote one bundle ({bundles})")
+
+# A crew member with a barcode scanner on the demo day: tap the Go to plot
+# field, the scanner types stake label 307 and Enter at machine speed (press
+# and release of Enter arrive together), then the keypad enters 250 plants
+# and Save. The log must show 250 for plot 307, entered by this observer.
+demo = os.path.join(work, "demo.furrow")
+subprocess.run(["/usr/bin/python3", os.path.join(src, "demo_data", "load_demo_day.py"), furrow, plan,
+                os.path.join(src, "demo_data", "harrow_ridge_oats_2026.csv"), demo], check=True, capture_output=True)
+# Where things are on the Record screen at 1280x800, scale 1 (demo day, plot with a recorded value).
+GO_FIELD = (443, 536)
+KEYS = {"2": (123, 540), "5": (123, 464), "0": (123, 616)}
+SAVE = (123, 692)
+taps = "\n".join(f"xdotool mousemove {KEYS[d][0]} {KEYS[d][1]} click 1\nsleep 0.3" for d in "250")
+script = f"""
+'{furrow}' field --db '{demo}' --observer 'Scanner crew' --demo /nonexistent &
+app=$!
+sleep 3
+xdotool search --sync --name '^Furrow' windowfocus --sync
+xdotool mousemove 640 790
+sleep 1
+xdotool mousemove {GO_FIELD[0]} {GO_FIELD[1]} click 1
+sleep 0.5
+xdotool type --delay 1 '307'
+xdotool key --delay 1 Return
+sleep 1
+{taps}
+xdotool mousemove {SAVE[0]} {SAVE[1]} click 1
+sleep 1.5
+kill $app
+wait $app
+"""
+p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c", script],
+                   env=dict(os.environ, FURROW_DATA_DIR=os.path.join(work, "scanner")), capture_output=True,
+                   text=True, timeout=120)
+rows = [r.split(",") for r in run("export", "--db", demo, "--long").splitlines()[1:]]
+scanned = [r for r in rows if r[0] == "307" and "stand_count" in r and "Scanner crew" in r]
+check(len(scanned) == 1 and "250" in scanned[0], f"the scanned plot 307 got 250 plants from the keypad ({scanned})")
 check.finish()
