@@ -9,7 +9,7 @@
 
 namespace furrow::test {
 
-std::string reference_path(const std::string& relative);   // under shared/reference
+std::string reference_path(const std::string& relative);   // under tests/reference/data
 std::string generated_path(const std::string& relative);   // made by a fixture at test time
 std::string read_text(const std::string& path);
 PlotTable load_csv(const std::string& path);               // fails the test on a bad file
@@ -26,7 +26,7 @@ inline bool close_rel(double x, double c, double rel, double abs_floor = 0.0) {
   return std::abs(x - c) <= std::max(rel * std::abs(c), abs_floor);
 }
 
-// The Clewer & Scarisbrick (2001) wheat RCBD (shared/reference/field-experiments)
+// The Clewer & Scarisbrick (2001) wheat RCBD (tests/reference/data/field-experiments)
 // and its roles: block, gen.
 PlotTable clewer();
 DesignRoles rcbd_roles();

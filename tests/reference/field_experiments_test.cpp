@@ -1,5 +1,5 @@
 // Classic field experiments with published analysis-of-variance tables
-// (shared/reference/field-experiments, SOURCE.md there). The printed tables
+// (tests/reference/data/field-experiments, SOURCE.md there). The printed tables
 // carry 2-6 decimals; each check allows half a unit in the last printed digit.
 
 #include <doctest/doctest.h>

@@ -1,5 +1,5 @@
 // NIST Statistical Reference Datasets, analysis of variance (public domain;
-// shared/reference/nist-strd-anova, SOURCE.md there). Certified values to 15
+// tests/reference/data/nist-strd-anova, SOURCE.md there). Certified values to 15
 // digits; we ask for at least 12 correct digits (log relative error,
 // McCullough 1998, The American Statistician 52, 358-366) on every dataset
 // and with every fitting method that applies to a one-way layout.
@@ -26,51 +26,45 @@ struct NistSet {
   Certified c{};
 };
 
-// Layout (SOURCE.md): certified values from line 41 (the residual SD can
-// spill to line 48 where the label wraps), data from line 61,
-// two columns (treatment label, response). Lines may end in CRLF.
+// Our copy (tests/reference/data/nist-strd-anova, SOURCE.md there): SET.csv
+// holds the observations (group, response as printed), certified.csv one line
+// per set with the certified table.
+std::vector<std::string> split_commas(const std::string& line) {
+  std::vector<std::string> f;
+  std::stringstream ss(line);
+  for (std::string x; std::getline(ss, x, ',');) f.push_back(x);
+  return f;
+}
+
+Certified load_certified(const std::string& name) {
+  std::istringstream in(test::read_text(test::reference_path("nist-strd-anova/certified.csv")));
+  std::string line;
+  std::getline(in, line);
+  REQUIRE(line == "set,between_df,between_ss,between_ms,between_f,within_df,within_ss,within_ms,r_squared,residual_sd");
+  while (std::getline(in, line)) {
+    const auto f = split_commas(line);
+    REQUIRE(f.size() == 10);
+    if (f[0] != name) continue;
+    Certified c;
+    c.between_df = std::stod(f[1]); c.between_ss = std::stod(f[2]); c.between_ms = std::stod(f[3]); c.f = std::stod(f[4]);
+    c.within_df = std::stod(f[5]); c.within_ss = std::stod(f[6]); c.within_ms = std::stod(f[7]);
+    c.r_squared = std::stod(f[8]); c.residual_sd = std::stod(f[9]);
+    return c;
+  }
+  FAIL("no certified values for " << name);
+  return {};
+}
+
 NistSet load_nist(const std::string& name) {
-  std::istringstream in(test::read_text(test::reference_path("nist-strd-anova/" + name + ".dat")));
-  std::vector<std::string> lines;
-  for (std::string l; std::getline(in, l);) {
-    if (!l.empty() && l.back() == '\r') l.pop_back();
-    lines.push_back(l);
-  }
-  REQUIRE(lines.size() >= 61);
   NistSet s;
-  auto numbers_after_label = [](const std::string& line) {
-    // "Between Treatment   8   1.68  2.1E-01  2.1E+01": take the numbers.
-    std::istringstream ls(line);
-    std::vector<double> v;
-    for (std::string w; ls >> w;) {
-      try { size_t used = 0; const double x = std::stod(w, &used); if (used == w.size()) v.push_back(x); } catch (...) {}
-    }
-    return v;
-  };
-  for (int i = 30; i < 60; ++i) {
-    const std::string& l = lines[i];
-    const auto v = numbers_after_label(l);
-    if (l.find("Between") != std::string::npos) {
-      REQUIRE(v.size() == 4);
-      s.c.between_df = v[0]; s.c.between_ss = v[1]; s.c.between_ms = v[2]; s.c.f = v[3];
-    } else if (l.find("Within") != std::string::npos) {
-      REQUIRE(v.size() == 3);
-      s.c.within_df = v[0]; s.c.within_ss = v[1]; s.c.within_ms = v[2];
-    } else if (l.find("R-Squared") != std::string::npos) {
-      s.c.r_squared = v.back();
-    } else if (l.find("Standard Deviation") != std::string::npos) {
-      s.c.residual_sd = v.back();
-    }
-  }
-  REQUIRE(s.c.within_df > 0);
-  s.table.columns = {{"group", {}}, {"y", {}}};
-  for (size_t i = 60; i < lines.size(); ++i) {
-    std::istringstream ls(lines[i]);
-    std::string g, y;
-    if (!(ls >> g >> y)) continue;
-    s.table.columns[0].cells.push_back(g);
-    s.table.columns[1].cells.push_back(y);   // kept as text: read exactly
-  }
+  s.c = load_certified(name);
+  s.table = test::load_csv(test::reference_path("nist-strd-anova/" + name + ".csv"));   // cells kept as text: read exactly
+  REQUIRE(s.table.columns.size() == 2);
+  REQUIRE(s.table.columns[0].name == "group");
+  REQUIRE(s.table.columns[1].name == "response");
+  // Observation counts stated by NIST for each set (SOURCE.md).
+  const size_t n = s.table.columns[0].cells.size();
+  CHECK(double(n) == s.c.between_df + s.c.within_df + 1);
   return s;
 }
 
@@ -81,7 +75,7 @@ void check_dataset(const std::string& name, FitMethod method) {
   roles.treatments = {"group"};
   AnalysisOptions options;
   options.method = method;
-  const auto r = analyse(s.table, roles, "y", options);
+  const auto r = analyse(s.table, roles, "response", options);
   if (!r.ok()) FAIL(r.problem().message);
   const Analysis& a = *r;
   const AnovaRow& between = test::row(a, "group");
