@@ -7,7 +7,7 @@
 #include <sstream>
 
 #include "storage/csv_table.h"
-#include "app/record_session.h"
+#include "app/work/record_session.h"
 #include "storage/plan_file.h"
 #include "storage/trial_store.h"
 

@@ -32,7 +32,7 @@ data = os.path.join(work, "data")
 os.makedirs(data)
 shutil.copy(db, os.path.join(data, "demo.furrow"))
 env = dict(os.environ, FURROW_DATA_DIR=data)
-# Colours the screens must show (app/theme.cpp, daylight): collected plots and
+# Colours the screens must show (app/work/theme.cpp, daylight): collected plots and
 # the banner of the interim analysis.
 must_show = {"map": (0x00, 0x72, 0xB2), "check": (0xFF, 0xD5, 0x4F)}
 shots = [(f"{view}_{shape}", size, screen, view)

@@ -15,7 +15,7 @@
 #include <set>
 #include <sstream>
 
-#include "app/record_session.h"
+#include "app/work/record_session.h"
 #include "storage/plan_file.h"
 #include "storage/settle.h"
 #include "tests/test_support.h"

@@ -1,0 +1,214 @@
+#include "app/cli/analysis_output.h"
+
+#include <cmath>
+#include <cstdio>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "app/work/number_text.h"
+
+namespace furrow {
+namespace {
+
+
+std::string num(double v, int digits = 6) { return table_number(v, digits); }
+
+std::string pad(const std::string& s, size_t width, bool right = true) {
+  if (s.size() >= width) return s;
+  return right ? std::string(width - s.size(), ' ') + s : s + std::string(width - s.size(), ' ');
+}
+
+nlohmann::json opt(const std::optional<double>& v) { return v ? nlohmann::json(*v) : nlohmann::json(nullptr); }
+
+}  // namespace
+
+std::string analysis_text(const Analysis& a, const RecordNames& records) {
+  std::ostringstream o;
+  o << "== " << a.response << "  |  " << design_kind_title(a.design) << "  |  " << a.n << " plots analysed";
+  if (a.n_missing) o << ", " << a.n_missing << " without a value";
+  o << "\n" << kInterimCaution << "\n\n";
+  o << "Analysis of variance (" << sums_kind_key(a.sums) << " sums of squares)\n";
+  size_t w = 8;
+  for (const AnovaRow& r : a.table) w = std::max(w, r.source.size() + 2);
+  o << pad("Source", w, false) << pad("DF", 6) << pad("SS", 16) << pad("MS", 16) << pad("F", 11) << pad("P", 9)
+    << "   Error term\n";
+  for (const AnovaRow& r : a.table) {
+    o << pad(r.source, w, false) << pad(df_text(r.df), 6) << pad(num(r.ss, 10), 16)
+      << pad(r.ms ? num(*r.ms, 10) : "", 16) << pad(r.f ? num(*r.f, 5) : "", 11) << pad(r.p ? p_text(*r.p) : "", 9)
+      << "   " << r.error_term << "\n";
+  }
+  o << "\nGrand mean " << num(a.grand_mean) << "   CV " << num(a.cv_percent, 3) << " %   R squared "
+    << num(a.r_squared, 4) << "   residual SD " << num(a.residual_sd) << " on " << df_text(a.residual_df) << " DF\n";
+  const int pct = static_cast<int>(std::lround(a.alpha * 100));
+  for (const TermMeans& m : a.means) {
+    o << "\nMeans of " << m.term << (m.adjusted ? " (adjusted for the other terms)" : "") << ", SE from '"
+      << m.error_term << "'\n";
+    size_t lw = 7;
+    for (const MeanRow& r : m.levels) lw = std::max(lw, r.label.size() + 2);
+    const bool letters = !m.pairs.empty();
+    o << pad("Level", lw, false) << pad("n", 5) << pad("Mean", 14) << pad("SE", 12);
+    if (m.adjusted) o << pad("Plain mean", 14);
+    if (letters) o << "   LSD group  HSD group";
+    o << "\n";
+    for (const MeanRow& r : m.levels) {
+      o << pad(r.label, lw, false) << pad(std::to_string(r.n), 5)
+        << pad(r.estimable ? num(r.mean) : "not estimable", 14) << pad(r.estimable ? num(r.se, 4) : "", 12);
+      if (m.adjusted) o << pad(num(r.raw_mean), 14);
+      if (letters) o << "   " << pad(r.group_lsd, 9, false) << "  " << r.group_hsd;
+      o << "\n";
+    }
+    if (m.sed > 0) {
+      o << "SE of a difference " << num(m.sed, 4) << "   LSD (" << pct << " %) " << num(m.lsd, 4);
+      if (m.lsd_max > m.lsd_min * (1 + 1e-9)) o << " (pairs " << num(m.lsd_min, 4) << " to " << num(m.lsd_max, 4) << ")";
+      if (m.q_critical > 0) o << "   Tukey HSD (" << pct << " %) " << num(m.hsd, 4);
+      o << "\n";
+    }
+    if (!m.note.empty()) o << m.note << "\n";
+  }
+  if (a.mdd_percent)
+    o << "\nSmallest difference detectable with 80 % power at alpha " << a.alpha << ": " << num(*a.mdd_percent, 3)
+      << " % of the mean\n";
+  const VarianceComponents& vc = a.variance_components;
+  o << "\nVariance components\n";
+  if (vc.error) o << "  error (plot to plot)        " << num(*vc.error) << "\n";
+  if (vc.main_plot_error) o << "  main-plot error             " << num(*vc.main_plot_error) << "\n";
+  if (vc.treatment) o << "  treatment                   " << num(*vc.treatment) << "\n";
+  if (vc.treatment_by_site) o << "  treatment x site            " << num(*vc.treatment_by_site) << "\n";
+  if (vc.heritability)
+    o << "  heritability (entry means)  " << num(*vc.heritability, 3) << "  (r = " << num(vc.replicates, 4)
+      << (vc.sites > 1 ? ", s = " + num(vc.sites, 3) : "") << ")\n";
+  o << "  share of total SS:";
+  for (const VarianceShare& s : vc.shares) o << "  " << s.source << " " << num(100 * s.share, 3) << " %";
+  o << "\n";
+  for (const std::string& n : vc.notes) o << "  note: " << n << "\n";
+  o << "\nOutlier plots (" << a.outlier_rule << "): ";
+  if (a.outliers.empty()) o << "none\n";
+  else {
+    o << a.outliers.size() << "\n";
+    for (const OutlierPlot& p : a.outliers) {
+      o << "  " << records.word << " " << records.name(p.record) << ": value " << value_text(p.value) << ", the other plots predict "
+        << value_text(p.expected) << ", studentized residual " << num(p.studentized_external, 3);
+      if (p.p_holm) o << ", adjusted P " << p_text(*p.p_holm);
+      o << "\n";
+    }
+  }
+  o << "Missing cells: ";
+  if (a.missing_cells.empty()) o << "none\n";
+  else {
+    o << a.missing_cells.size() << "\n";
+    for (const MissingCell& c : a.missing_cells) {
+      o << "  " << c.label;
+      for (int r : c.records) o << " (" << records.word << " " << records.name(r) << ")";
+      o << "\n";
+    }
+  }
+  for (const std::string& n : a.notes) o << "Note: " << n << "\n";
+  return o.str();
+}
+
+std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNames& records) {
+  nlohmann::json all = nlohmann::json::array();
+  for (const Analysis& a : analyses) {
+    nlohmann::json j;
+    j["design"] = design_kind_key(a.design);
+    j["response"] = a.response;
+    j["n"] = a.n;
+    j["n_missing"] = a.n_missing;
+    j["sums"] = sums_kind_key(a.sums);
+    j["method"] = fit_method_name(a.method);
+    j["caution"] = kInterimCaution;
+    j["table"] = nlohmann::json::array();
+    for (const AnovaRow& r : a.table) {
+      j["table"].push_back({{"source", r.source},
+                            {"df", r.df},
+                            {"ss", r.ss},
+                            {"ms", opt(r.ms)},
+                            {"f", opt(r.f)},
+                            {"p", opt(r.p)},
+                            {"error_term", r.error_term.empty() ? nlohmann::json(nullptr) : nlohmann::json(r.error_term)},
+                            {"share_of_total", r.share_of_total}});
+    }
+    j["grand_mean"] = a.grand_mean;
+    j["cv_percent"] = a.cv_percent;
+    j["r_squared"] = a.r_squared;
+    j["residual_sd"] = a.residual_sd;
+    j["residual_df"] = a.residual_df;
+    j["alpha"] = a.alpha;
+    j["means"] = nlohmann::json::array();
+    j["comparisons"] = nlohmann::json::array();
+    for (const TermMeans& m : a.means) {
+      for (const MeanRow& r : m.levels) {
+        j["means"].push_back({{"term", m.term},
+                              {"level", r.label},
+                              {"levels", r.levels},
+                              {"n", r.n},
+                              {"mean", r.estimable ? nlohmann::json(r.mean) : nlohmann::json(nullptr)},
+                              {"se", r.estimable ? nlohmann::json(r.se) : nlohmann::json(nullptr)},
+                              {"plain_mean", r.raw_mean},
+                              {"group_lsd", r.group_lsd},
+                              {"group_hsd", r.group_hsd}});
+      }
+      nlohmann::json c = {{"term", m.term},
+                          {"error_term", m.error_term},
+                          {"error_ms", m.error_ms},
+                          {"error_df", m.error_df},
+                          {"sed", m.sed},
+                          {"lsd", m.lsd},
+                          {"lsd_min", m.lsd_min},
+                          {"lsd_max", m.lsd_max},
+                          {"t_critical", m.t_critical},
+                          {"hsd", m.q_critical > 0 ? nlohmann::json(m.hsd) : nlohmann::json(nullptr)},
+                          {"q_critical", m.q_critical > 0 ? nlohmann::json(m.q_critical) : nlohmann::json(nullptr)}};
+      c["pairs"] = nlohmann::json::array();
+      for (const PairComparison& p : m.pairs)
+        c["pairs"].push_back({{"first", m.levels[p.first].label},
+                              {"second", m.levels[p.second].label},
+                              {"difference", p.difference},
+                              {"se", p.se},
+                              {"lsd", p.lsd},
+                              {"hsd", p.hsd}});
+      if (!m.note.empty()) c["note"] = m.note;
+      j["comparisons"].push_back(c);
+    }
+    j["lsd"] = opt(a.lsd);
+    j["hsd"] = opt(a.hsd);
+    j["mdd_percent"] = opt(a.mdd_percent);
+    const VarianceComponents& vc = a.variance_components;
+    nlohmann::json v = {{"treatments_random", vc.treatments_random},
+                        {"error", opt(vc.error)},
+                        {"treatment", opt(vc.treatment)},
+                        {"treatment_by_site", opt(vc.treatment_by_site)},
+                        {"main_plot_error", opt(vc.main_plot_error)},
+                        {"heritability", opt(vc.heritability)},
+                        {"replicates", vc.replicates},
+                        {"sites", vc.sites},
+                        {"notes", vc.notes}};
+    v["shares"] = nlohmann::json::array();
+    for (const VarianceShare& s : vc.shares) v["shares"].push_back({{"source", s.source}, {"share", s.share}});
+    j["variance_components"] = v;
+    j["outlier_rule"] = a.outlier_rule;
+    j["outliers"] = nlohmann::json::array();
+    for (const OutlierPlot& p : a.outliers)
+      j["outliers"].push_back({{records.word, records.word == "line" ? nlohmann::json(std::stoi(records.name(p.record)))
+                                                                     : nlohmann::json(records.name(p.record))},
+                               {"record", p.record + 1},
+                               {"value", p.value},
+                               {"fitted", p.fitted},
+                               {"expected", p.expected},
+                               {"studentized", p.studentized_external},
+                               {"studentized_internal", p.studentized},
+                               {"p_holm", opt(p.p_holm)}});
+    j["missing_cells"] = nlohmann::json::array();
+    for (const MissingCell& c : a.missing_cells) {
+      nlohmann::json ls = nlohmann::json::array();
+      for (int r : c.records)
+        ls.push_back(records.word == "line" ? nlohmann::json(std::stoi(records.name(r))) : nlohmann::json(records.name(r)));
+      j["missing_cells"].push_back({{"cell", c.label}, {records.word + "s", ls}});
+    }
+    j["notes"] = a.notes;
+    all.push_back(j);
+  }
+  return (analyses.size() == 1 ? all[0] : all).dump(2) + "\n";
+}
+
+}  // namespace furrow

@@ -1,0 +1,80 @@
+#include "app/cli/cli_analyze.h"
+
+#include <iostream>
+
+#include "app/cli/analysis_output.h"
+#include "storage/csv_table.h"
+
+namespace furrow {
+namespace {
+
+constexpr int kExitBadInput = 2;
+
+int report(const std::string& file, int line, const std::string& column, const std::string& message) {
+  std::cerr << file;
+  if (line > 0) std::cerr << ":" << line;
+  std::cerr << ": ";
+  if (!column.empty()) std::cerr << "column '" << column << "': ";
+  std::cerr << message << "\n";
+  return kExitBadInput;
+}
+
+}  // namespace
+
+int run_analyze(const AnalyzeRequest& q) {
+  const auto kind = parse_design_kind(q.design);
+  if (!kind)
+    return report(q.csv_path, 0, {}, "unknown design '" + q.design +
+                                         "'; choose one of crd, rcbd, latin, factorial, split-plot, multi-site");
+  DesignRoles roles;
+  roles.kind = *kind;
+  roles.treatments = q.treatments;
+  roles.block = q.block;
+  roles.row = q.row;
+  roles.column = q.column;
+  roles.main_plot = q.main_plot;
+  roles.sub_plot = q.sub_plot;
+  roles.site = q.site;
+  roles.sites_random = q.sites_random;
+  roles.treatments_random = q.treatments_random;
+  if (*kind == DesignKind::split_plot && roles.treatments.empty() == false &&
+      (roles.main_plot.empty() || roles.sub_plot.empty()) && roles.treatments.size() != 2)
+    return report(q.csv_path, 0, {}, "split-plot needs --main-plot and --sub-plot (or two --treatment columns)");
+  if (*kind == DesignKind::split_plot && !roles.main_plot.empty() && !roles.sub_plot.empty())
+    roles.treatments.clear();
+  AnalysisOptions options;
+  options.alpha = q.alpha;
+  if (q.sums == "sequential") options.sums = SumsKind::sequential;
+  else if (q.sums == "partial") options.sums = SumsKind::partial;
+  else return report(q.csv_path, 0, {}, "--sums must be sequential or partial, not '" + q.sums + "'");
+  if (q.outliers == "holm") options.outlier_rule = OutlierRule::bonferroni_holm;
+  else if (q.outliers != "threshold")
+    return report(q.csv_path, 0, {}, "--outliers must be threshold or holm, not '" + q.outliers + "'");
+
+  const CsvRead read = read_csv_file(q.csv_path);
+  if (!read.ok) return report(q.csv_path, read.problem.line, read.problem.column, read.problem.message);
+  const std::vector<int>& lines = read.csv.line_of_record;
+  RecordNames names;
+  for (int l : lines) names.names.push_back(std::to_string(l));
+  const auto results = analyse_all(read.csv.table, roles, q.responses, options);
+  std::vector<Analysis> done;
+  for (const auto& r : results) {
+    if (!r) {
+      const Problem& p = r.problem();
+      // A problem with a column as a whole points at the header line.
+      const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record]
+                       : !p.column.empty()                                       ? read.csv.header_line
+                                                                                 : 0;
+      return report(q.csv_path, line, p.column, p.message);
+    }
+    done.push_back(*r);
+  }
+  if (q.json) {
+    std::cout << analysis_json(done, names);
+  } else {
+    for (size_t i = 0; i < done.size(); ++i) std::cout << (i ? "\n" : "") << analysis_text(done[i], names);
+  }
+  return 0;
+}
+
+}  // namespace furrow

@@ -1,0 +1,152 @@
+#include "app/cli/cli_station.h"
+
+#include <iostream>
+#include <nlohmann/json.hpp>
+
+#include "core/entry_checks.h"
+#include "storage/bundle.h"
+#include "storage/settle.h"
+#include "storage/trial_store.h"
+
+namespace furrow {
+namespace {
+
+constexpr int kExitBadInput = 2;
+
+int fail(const std::string& message) {
+  std::cerr << message << "\n";
+  return kExitBadInput;
+}
+
+std::string row_text(const LiveObservation& r) {
+  return r.key.device_id + "/" + std::to_string(r.key.sequence) + "  " +
+         (r.value ? *r.value : "missing: " + r.missing_reason.value_or("")) + "  by " + r.observer + " at " +
+         r.recorded_at;
+}
+
+}  // namespace
+
+int run_bundle(const std::string& db_path, const std::string& out, bool everything) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  auto m = write_bundle(open->db, open->trial, out, everything);
+  if (!m) return fail(m.problem().message);
+  std::cout << "bundle " << out << ": " << m->observations << " observations, " << m->replacements
+            << " links, from " << m->maker_role << " " << m->maker_device_id << ", checksum " << m->checksum << "\n";
+  return 0;
+}
+
+int run_merge(const std::string& db_path, const std::vector<std::string>& bundles) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  int refused = 0;
+  for (const std::string& b : bundles) {
+    auto out = merge_bundle(open->db, open->trial, b);
+    if (!out) {
+      std::cerr << "refused " << out.problem().message << "\n";
+      ++refused;
+      continue;
+    }
+    std::cout << "merged " << b << " (from " << out->manifest.maker_role << " " << out->manifest.maker_device_id
+              << "): " << out->observations_added << " new observations, " << out->replacements_added
+              << " new links\n";
+  }
+  auto conflicts = list_conflicts(open->db, open->trial);
+  if (conflicts) std::cout << conflicts->size() << " conflicts to settle\n";
+  return refused ? kExitBadInput : 0;
+}
+
+int run_conflicts(const std::string& db_path, bool json) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  auto conflicts = list_conflicts(open->db, open->trial);
+  if (!conflicts) return fail(db_path + ": " + conflicts.problem().message);
+  const StoredTrial& t = open->trial;
+  if (json) {
+    nlohmann::json out = nlohmann::json::array();
+    for (const ConflictCell& c : *conflicts) {
+      nlohmann::json rows = nlohmann::json::array();
+      for (const auto& r : c.rows)
+        rows.push_back({{"device", r.key.device_id}, {"sequence", r.key.sequence},
+                        {"value", r.value ? nlohmann::json(*r.value) : nlohmann::json(nullptr)},
+                        {"missing_reason", r.missing_reason ? nlohmann::json(*r.missing_reason) : nlohmann::json(nullptr)},
+                        {"observer", r.observer}, {"recorded_at", r.recorded_at}, {"note", r.note}});
+      out.push_back({{"plot", t.layout.plots[c.plot_index].label}, {"trait", t.plan.traits[c.trait_index].code},
+                     {"occasion", c.occasion}, {"rows", rows}});
+    }
+    std::cout << out.dump(2) << "\n";
+    return 0;
+  }
+  std::cout << conflicts->size() << " conflicts\n";
+  for (const ConflictCell& c : *conflicts) {
+    std::cout << "plot " << t.layout.plots[c.plot_index].label << ", " << t.plan.traits[c.trait_index].code
+              << ", occasion " << c.occasion << ":\n";
+    for (const auto& r : c.rows) std::cout << "  " << row_text(r) << "\n";
+  }
+  return 0;
+}
+
+int run_settle(const SettleRequest& r) {
+  const int ways = !r.keep.empty() + !r.value.empty() + !r.missing.empty();
+  if (ways != 1) return fail("settle: give exactly one of --keep DEVICE/SEQUENCE, --value V or --missing REASON");
+  auto open = open_trial_database(r.db);
+  if (!open) return fail(r.db + ": " + open.problem().message);
+  const StoredTrial& t = open->trial;
+  auto conflicts = list_conflicts(open->db, t);
+  if (!conflicts) return fail(r.db + ": " + conflicts.problem().message);
+  const ConflictCell* cell = nullptr;
+  for (const ConflictCell& c : *conflicts)
+    if (t.layout.plots[c.plot_index].label == r.plot && t.plan.traits[c.trait_index].code == r.trait &&
+        c.occasion == r.occasion)
+      cell = &c;
+  if (!cell)
+    return fail(r.db + ": plot " + r.plot + ", trait " + r.trait + ", occasion " + std::to_string(r.occasion) +
+                " is not in conflict (see furrow conflicts)");
+  Settlement s;
+  s.by = r.by;
+  s.note = r.note;
+  if (!r.keep.empty()) {
+    s.kind = Settlement::Kind::keep;
+    const auto slash = r.keep.find('/');
+    if (slash == std::string::npos) return fail("settle: --keep is DEVICE/SEQUENCE, as furrow conflicts lists them");
+    s.keep.device_id = r.keep.substr(0, slash);
+    try {
+      s.keep.sequence = std::stoll(r.keep.substr(slash + 1));
+    } catch (...) {
+      return fail("settle: --keep is DEVICE/SEQUENCE, as furrow conflicts lists them");
+    }
+  } else if (!r.value.empty()) {
+    auto parsed = parse_acceptable_value(t.plan.traits[cell->trait_index], r.value);
+    if (!parsed) return fail("settle: " + parsed.problem().message);
+    s.kind = Settlement::Kind::new_value;
+    s.value = parsed->text;
+    s.number = parsed->number;
+  } else {
+    s.kind = Settlement::Kind::missing;
+    s.missing_reason = r.missing;
+  }
+  auto key = settle_conflict(open->db, t, *cell, s);
+  if (!key) return fail(r.db + ": " + key.problem().message);
+  std::cout << "settled plot " << r.plot << ", " << r.trait << " as " << key->device_id << "/" << key->sequence
+            << " by " << r.by << "\n";
+  return 0;
+}
+
+int run_trial_close(const std::string& db_path) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  if (auto s = close_trial(open->db); !s) return fail(db_path + ": " + s.problem().message);
+  std::cout << "closed " << open->trial.plan.name << "\n";
+  return 0;
+}
+
+int run_trial_copy(const std::string& station_path, const std::string& device_path) {
+  if (auto s = copy_trial_for_device(station_path, device_path); !s) return fail(s.problem().message);
+  auto open = open_trial_database(device_path);
+  if (!open) return fail(device_path + ": " + open.problem().message);
+  std::cout << "copied " << open->trial.plan.name << " to " << device_path << " (device " << open->trial.device_id
+            << ")\n";
+  return 0;
+}
+
+}  // namespace furrow

@@ -1,0 +1,149 @@
+#include "app/cli/cli_trial.h"
+
+#include <fstream>
+#include <iostream>
+#include <map>
+#include <set>
+
+#include "app/cli/analysis_output.h"
+#include "app/work/record_session.h"
+#include "app/work/trial_analysis.h"
+#include "app/work/trial_summary.h"
+#include "core/analysis.h"
+#include "core/entry_checks.h"
+#include "storage/plan_file.h"
+#include "storage/trial_store.h"
+
+namespace furrow {
+namespace {
+
+constexpr int kExitBadInput = 2;
+
+int fail(const std::string& where, const std::string& message) {
+  std::cerr << where << ": " << message << "\n";
+  return kExitBadInput;
+}
+
+const Trait* find_trait(const StoredTrial& t, const std::string& code, size_t* index) {
+  for (size_t i = 0; i < t.plan.traits.size(); ++i)
+    if (t.plan.traits[i].code == code) { *index = i; return &t.plan.traits[i]; }
+  return nullptr;
+}
+
+}  // namespace
+
+int run_trial_new(const std::string& plan_path, const std::string& db_path) {
+  auto made = create_trial_from_plan(plan_path, db_path);
+  if (!made) {
+    std::cerr << made.problem().message << "\n";
+    return kExitBadInput;
+  }
+  std::cout << "created " << db_path << ": " << *made << "\n";
+  return 0;
+}
+
+int run_trial_show(const std::string& db_path) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path, open.problem().message);
+  const StoredTrial& t = open->trial;
+  auto live = live_observations(open->db, 0);
+  if (!live) return fail(db_path, live.problem().message);
+  std::map<std::int64_t, size_t> trait_of;
+  for (size_t i = 0; i < t.trait_ids.size(); ++i) trait_of[t.trait_ids[i]] = i;
+  std::map<size_t, std::set<std::pair<std::int64_t, int>>> filled;
+  for (const auto& o : *live)
+    if (o.value) filled[trait_of[o.trait_id]].insert({o.plot_id, o.occasion});
+  std::cout << t.plan.name << "\n  site " << t.plan.site << ", season " << t.plan.season << "\n  "
+            << design_kind_title(t.plan.design) << ", " << t.plan.replicates << " replicates, grid " << t.plan.rows
+            << " x " << t.plan.columns << ", " << t.layout.plots.size() << " plots, status " << t.status << "\n";
+  for (const auto& f : t.plan.factors) std::cout << "  factor " << f.name << ": " << f.levels.size() << " levels\n";
+  std::cout << "  traits (collected / plots x occasions):\n";
+  for (size_t i = 0; i < t.plan.traits.size(); ++i) {
+    const Trait& tr = t.plan.traits[i];
+    const size_t need = t.layout.plots.size() * static_cast<size_t>(tr.occasions);
+    std::cout << "    " << tr.code << "  " << tr.name << " (" << (tr.unit.empty() ? "-" : tr.unit) << ", "
+              << trait_kind_key(tr.kind) << (tr.required ? ", required" : "") << "): " << filled[i].size() << " / "
+              << need << "\n";
+  }
+  std::cout << "  device " << t.device_id << ", created " << t.created_at << "\n";
+  return 0;
+}
+
+int run_record(const RecordRequest& r) {
+  if (r.observer.empty()) return fail(r.db, "say who measured: --observer NAME");
+  if (r.value.empty() == r.missing.empty()) return fail(r.db, "give either --value or --missing REASON");
+  auto session = RecordSession::open(r.db, r.observer);
+  if (!session) return fail(r.db, session.problem().message);
+  for (const Status& s : {session->jump_to(r.plot), session->set_trait(r.trait), session->set_occasion(r.occasion)})
+    if (!s) return fail(r.db, s.problem().message);
+  const RecordView where = session->view();
+  session->set_pending_note(r.note);
+  if (!r.missing.empty()) {
+    if (auto s = session->record_missing(r.missing, r.note); !s) return fail(r.db, "not saved: " + s.problem().message);
+    std::cout << "saved " << where.plot_label << " " << where.trait_code << " = missing (" << r.missing << ")\n";
+    return 0;
+  }
+  EntryOutcome out = session->enter(r.value);
+  for (const Finding& f : out.findings) std::cerr << severity_key(f.severity) << ": " << f.message << "\n";
+  if (out.kind == EntryOutcome::Kind::refused) return kExitBadInput;
+  if (out.kind == EntryOutcome::Kind::needs_confirmation) {
+    if (!r.confirm) {
+      std::cerr << "not saved: confirm with --confirm if the value is right\n";
+      return kExitNeedsConfirmation;
+    }
+    out = session->confirm();
+  }
+  if (out.kind != EntryOutcome::Kind::saved) return fail(r.db, out.message);
+  std::cout << out.message << (where.occasion > 1 ? " #" + std::to_string(where.occasion) : "") << "\n";
+  return 0;
+}
+
+int run_export(const std::string& db_path, const std::string& kind, const std::string& out) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path, open.problem().message);
+  std::string text;
+  if (kind == "layout") {
+    text = layout_csv(open->trial);
+  } else {
+    auto live = live_observations(open->db, 0);
+    if (!live) return fail(db_path, live.problem().message);
+    text = kind == "long" ? long_data_csv(open->trial, *live) : wide_data_csv(open->trial, *live);
+  }
+  if (out.empty()) {
+    std::cout << text;
+    return 0;
+  }
+  std::ofstream f(out, std::ios::binary);
+  if (!(f << text)) return fail(out, "cannot write the file");
+  return 0;
+}
+
+int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json, double alpha,
+                   const std::string& sums) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path, open.problem().message);
+  const StoredTrial& t = open->trial;
+  size_t trait_index = 0;
+  const Trait* trait = find_trait(t, trait_code, &trait_index);
+  if (!trait) return fail(db_path, "trait '" + trait_code + "' is not measured in this trial");
+  auto live = live_observations(open->db, t.trait_ids[trait_index]);
+  if (!live) return fail(db_path, live.problem().message);
+  AnalysisOptions options;
+  options.alpha = alpha;
+  options.sums = sums == "sequential" ? SumsKind::sequential : SumsKind::partial;
+  auto a = analyse_trial_trait(t, *live, trait_index, occasion, options);
+  if (!a) {
+    std::string where = db_path;
+    if (a.problem().record >= 0) where += ": plot " + t.layout.plots[a.problem().record].label;
+    return fail(where, a.problem().message);
+  }
+  // Records are plots in walking order: name them by label in the output.
+  RecordNames names;
+  names.word = "plot";
+  for (const PlannedPlot& p : t.layout.plots) names.names.push_back(p.label);
+  if (json) std::cout << analysis_json({*a}, names);
+  else std::cout << analysis_text(*a, names);
+  return 0;
+}
+
+}  // namespace furrow

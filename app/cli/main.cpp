@@ -1,0 +1,199 @@
+// furrow: the command-line entry point. Subcommands are thin: they parse
+// arguments and hand over to core/ and storage/.
+
+#include <CLI/CLI.hpp>
+#include <cstdio>
+#include <iostream>
+
+#include "app/cli/cli_analyze.h"
+#include "app/cli/cli_station.h"
+#include "app/cli/cli_trial.h"
+#include "app/field/field_app.h"
+#include "app/work/report.h"
+
+int main(int argc, char** argv) {
+  CLI::App app{"Furrow: plot-by-plot field trial data checks and interim analysis"};
+  app.require_subcommand(1);
+
+  furrow::AnalyzeRequest q;
+  std::string response_list;
+  std::string treatment_list;
+  auto* analyze = app.add_subcommand("analyze", "Interim analysis of variance of a trait (CSV file or trial database)");
+  std::string db_path, trait_code;
+  int occasion = 1;
+  auto* csv_opt = analyze->add_option("--csv", q.csv_path, "CSV file, one line per plot, first line column names");
+  auto* db_opt = analyze->add_option("--db", db_path, "trial database (analysed with its own design)");
+  csv_opt->excludes(db_opt);
+  analyze->add_option("--trait", trait_code, "trait code (with --db)");
+  analyze->add_option("--occasion", occasion, "occasion of a repeated trait (with --db, default 1)");
+  analyze->add_option("--design", q.design, "crd | rcbd | latin | factorial | split-plot | multi-site");
+  analyze->add_option("--response", response_list, "trait column(s) to analyse, comma separated");
+  analyze->add_option("--treatment", treatment_list, "treatment column(s), comma separated");
+  analyze->add_option("--block", q.block, "block (replicate) column");
+  analyze->add_option("--row", q.row, "row column (Latin square)");
+  analyze->add_option("--column", q.column, "column column (Latin square)");
+  analyze->add_option("--main-plot", q.main_plot, "main-plot factor column (split-plot)");
+  analyze->add_option("--sub-plot", q.sub_plot, "sub-plot factor column (split-plot)");
+  analyze->add_option("--site", q.site, "site column (several sites)");
+  analyze->add_flag("--sites-random", q.sites_random, "sites are a random sample: test treatments against site x treatment");
+  analyze->add_flag("--treatments-random", q.treatments_random, "treatments (e.g. genotypes) are random: variance components and heritability");
+  analyze->add_option("--alpha", q.alpha, "significance level for LSD, HSD and letters (default 0.05)");
+  analyze->add_option("--sums", q.sums, "sequential | partial (default partial)");
+  analyze->add_option("--outliers", q.outliers, "threshold | holm (default threshold: |studentized residual| > 3)");
+  analyze->add_flag("--json", q.json, "print one JSON object instead of tables");
+
+  // trial new / trial show
+  auto* trial = app.add_subcommand("trial", "Create or show a trial database");
+  trial->require_subcommand(1);
+  std::string plan_path, trial_db;
+  auto* trial_new = trial->add_subcommand("new", "Randomise a plan file into a new trial database");
+  trial_new->add_option("--plan", plan_path, "plan file (furrow-plan CSV)")->required();
+  trial_new->add_option("--db", trial_db, "trial database to create")->required();
+  auto* trial_show = trial->add_subcommand("show", "Show a trial's plan and progress");
+  trial_show->add_option("--db", trial_db, "trial database")->required();
+  auto* trial_close = trial->add_subcommand("close", "Mark the trial's collection as over");
+  trial_close->add_option("--db", trial_db, "trial database")->required();
+  std::string copy_from;
+  auto* trial_copy = trial->add_subcommand("copy", "Make a device's copy of the station's trial (new device id)");
+  trial_copy->add_option("--from", copy_from, "the station's trial database")->required();
+  trial_copy->add_option("--db", trial_db, "the device's trial database to create")->required();
+
+  // Day's end: bundles, merging, conflicts.
+  std::string station_db, bundle_out;
+  bool bundle_all = false, conflicts_json = false;
+  std::vector<std::string> bundle_files;
+  auto* bundle = app.add_subcommand("bundle", "Write the log rows the station has not seen to a bundle file");
+  bundle->add_option("--db", station_db, "trial database")->required();
+  bundle->add_option("--out", bundle_out, "bundle file to write")->required();
+  bundle->add_flag("--all", bundle_all, "every row of the log, not only what the station has not seen");
+  auto* merge = app.add_subcommand("merge", "Merge bundles into a trial database (any order, any number of times)");
+  merge->add_option("--db", station_db, "trial database")->required();
+  merge->add_option("bundles", bundle_files, "bundle files")->required();
+  auto* conflicts = app.add_subcommand("conflicts", "List cells where devices recorded different values");
+  conflicts->add_option("--db", station_db, "trial database")->required();
+  conflicts->add_flag("--json", conflicts_json, "JSON instead of text");
+  std::string report_db, report_out;
+  furrow::ReportOptions report_options;
+  auto* report = app.add_subcommand("report", "Write the trial's report as one self-contained HTML file");
+  report->add_option("--db", report_db, "trial database")->required();
+  report->add_option("--out", report_out, "HTML file to write")->required();
+  report->add_option("--map-trait", report_options.map_trait, "trait code that colours the field map");
+  report->add_option("--alpha", report_options.alpha, "significance level (default 0.05)");
+  furrow::SettleRequest settle_req;
+  auto* settle = app.add_subcommand("settle", "Settle one conflict with a new log row");
+  settle->add_option("--db", settle_req.db, "trial database")->required();
+  settle->add_option("--plot", settle_req.plot, "plot label")->required();
+  settle->add_option("--trait", settle_req.trait, "trait code")->required();
+  settle->add_option("--occasion", settle_req.occasion, "occasion (default 1)");
+  settle->add_option("--keep", settle_req.keep, "keep this row's value: DEVICE/SEQUENCE as listed");
+  settle->add_option("--value", settle_req.value, "a new value (checked like an entry)");
+  settle->add_option("--missing", settle_req.missing, "no value, with the reason");
+  settle->add_option("--by", settle_req.by, "who settles")->required();
+  settle->add_option("--note", settle_req.note, "why");
+
+  furrow::RecordRequest rec;
+  auto* record = app.add_subcommand("record", "Check and save one value (exit 2 refused, 3 needs --confirm)");
+  record->add_option("--db", rec.db, "trial database")->required();
+  record->add_option("--plot", rec.plot, "plot label as on the stake")->required();
+  record->add_option("--trait", rec.trait, "trait code")->required();
+  record->add_option("--occasion", rec.occasion, "occasion of a repeated trait (default 1)");
+  record->add_option("--value", rec.value, "the value");
+  record->add_option("--missing", rec.missing, "no value, with the reason (damaged, plants missing, flooded, ...)");
+  record->add_option("--observer", rec.observer, "who measured")->required();
+  record->add_option("--note", rec.note, "a note for this plot");
+  record->add_flag("--confirm", rec.confirm, "save a value that needs confirmation");
+
+  std::string export_db, export_out;
+  bool long_table = false, wide_table = false, layout_table = false;
+  auto* exp = app.add_subcommand("export", "Write the layout or the data as CSV");
+  exp->add_option("--db", export_db, "trial database")->required();
+  auto* f_long = exp->add_flag("--long", long_table, "one line per observation");
+  auto* f_wide = exp->add_flag("--wide", wide_table, "one line per plot, one column per trait and occasion");
+  auto* f_layout = exp->add_flag("--layout", layout_table, "the field layout for maps and stake labels");
+  f_long->excludes(f_wide)->excludes(f_layout);
+  f_wide->excludes(f_layout);
+  exp->add_option("--out", export_out, "file to write (default: standard output)");
+
+  furrow::FieldAppOptions field_options;
+  std::string field_size;
+  auto* field = app.add_subcommand("field", "Open the touch app (on a trial database, else on the Trials screen)");
+  field->add_option("--db", field_options.db, "trial database to open on the Record screen");
+  field_options.demo_db = FURROW_DEMO_DB;
+  field->add_option("--demo", field_options.demo_db, "the demo trial the Trials screen offers")->capture_default_str();
+  field->add_option("--bench-frames", field_options.bench_frames,
+                    "benchmark: draw this many frames, print frame times, exit");
+  field->add_option("--observer", field_options.observer, "who is measuring (else the saved setting)");
+  field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
+  field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
+  std::string field_screen;
+  field->add_option("--screen", field_screen, "screen to open: trials, record (default), map, check, leaving, station, settings or help")
+      ->check(CLI::IsMember({"trials", "record", "map", "check", "leaving", "station", "settings", "help"}));
+
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    app.exit(e);
+    return 2;
+  }
+  auto split = [](const std::string& s) {
+    std::vector<std::string> out;
+    std::string cur;
+    for (char c : s) {
+      if (c == ',') { out.push_back(cur); cur.clear(); } else cur += c;
+    }
+    if (!s.empty()) out.push_back(cur);
+    return out;
+  };
+  q.responses = split(response_list);
+  q.treatments = split(treatment_list);
+  if (field->parsed()) {
+    if (!field_size.empty() &&
+        std::sscanf(field_size.c_str(), "%dx%d", &field_options.width, &field_options.height) != 2) {
+      std::cerr << "field: --size is WIDTHxHEIGHT, for example 800x1280\n";
+      return 2;
+    }
+    if (!field_screen.empty()) field_options.start_screen = field_screen;
+    return furrow::run_field_app(field_options);
+  }
+  if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
+  if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
+  if (trial_copy->parsed()) return furrow::run_trial_copy(copy_from, trial_db);
+  if (trial_close->parsed()) return furrow::run_trial_close(trial_db);
+  if (bundle->parsed()) return furrow::run_bundle(station_db, bundle_out, bundle_all);
+  if (merge->parsed()) return furrow::run_merge(station_db, bundle_files);
+  if (conflicts->parsed()) return furrow::run_conflicts(station_db, conflicts_json);
+  if (settle->parsed()) return furrow::run_settle(settle_req);
+  if (report->parsed()) {
+    if (auto s = furrow::write_report(report_db, report_out, report_options); !s) {
+      std::cerr << s.problem().message << "\n";
+      return 2;
+    }
+    std::cout << "report written to " << report_out << "\n";
+    return 0;
+  }
+  if (record->parsed()) return furrow::run_record(rec);
+  if (exp->parsed()) {
+    if (!long_table && !wide_table && !layout_table) {
+      std::cerr << "export: choose --long, --wide or --layout\n";
+      return 2;
+    }
+    return furrow::run_export(export_db, long_table ? "long" : wide_table ? "wide" : "layout", export_out);
+  }
+  if (analyze->parsed()) {
+    if (!db_path.empty()) {
+      if (trait_code.empty()) {
+        std::cerr << "analyze: --db needs --trait CODE\n";
+        return 2;
+      }
+      return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums);
+    }
+    if (q.csv_path.empty() || q.design.empty() || response_list.empty()) {
+      std::cerr << "analyze: give --db FILE --trait CODE, or --csv FILE --design KIND --response COL\n";
+      return 2;
+    }
+    return furrow::run_analyze(q);
+  }
+  return 2;
+}

@@ -1,0 +1,283 @@
+#include "app/field/screens/check_screen.h"
+
+#include <imgui.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <map>
+
+#include "app/work/number_text.h"
+#include "app/field/screens/widgets.h"
+
+namespace furrow {
+namespace {
+
+ImU32 colour(const Rgb& c, float alpha = 1.0f) {
+  ImVec4 v = to_imgui(c);
+  v.w = alpha;
+  return ImGui::ColorConvertFloat4ToU32(v);
+}
+
+void heading(const char* text) {
+  ImGui::Spacing();
+  ImGui::PushFont(ImGui::GetIO().Fonts->Fonts.size() > 1 ? ImGui::GetIO().Fonts->Fonts[1] : ImGui::GetFont());
+  ImGui::TextUnformatted(text);
+  ImGui::PopFont();
+}
+
+// A frame for a chart: the plotting rectangle inside room for axis labels.
+struct Chart {
+  ImVec2 a, b;            // plotting area in screen pixels
+  double y_lo = 0, y_hi = 1, x_lo = 0, x_hi = 1;
+  float y(double v) const { return b.y - static_cast<float>((v - y_lo) / (y_hi - y_lo)) * (b.y - a.y); }
+  float x(double v) const { return a.x + static_cast<float>((v - x_lo) / (x_hi - x_lo)) * (b.x - a.x); }
+};
+
+void widen(double* lo, double* hi) {
+  if (*hi <= *lo) { *lo -= 1; *hi += 1; }
+  const double pad = (*hi - *lo) * 0.06;
+  *lo -= pad;
+  *hi += pad;
+}
+
+Chart begin_chart(const char* title, double y_lo, double y_hi, float height, const Theme& t, float scale) {
+  ImGui::TextUnformatted(title);
+  const float label_w = ImGui::CalcTextSize("-0000.00").x + 8 * scale;
+  const ImVec2 at = ImGui::GetCursorScreenPos();
+  const float width = ImGui::GetContentRegionAvail().x;
+  ImGui::Dummy(ImVec2(width, height));
+  Chart c;
+  c.a = ImVec2(at.x + label_w, at.y + 6 * scale);
+  c.b = ImVec2(at.x + width - 8 * scale, at.y + height - ImGui::GetTextLineHeight() - 8 * scale);
+  widen(&y_lo, &y_hi);
+  c.y_lo = y_lo;
+  c.y_hi = y_hi;
+  ImDrawList* dl = ImGui::GetWindowDrawList();
+  dl->AddRectFilled(c.a, c.b, colour(t.background));
+  dl->AddRect(c.a, c.b, colour(t.muted_text));
+  for (int k = 0; k <= 4; ++k) {
+    const double v = y_lo + (y_hi - y_lo) * k / 4.0;
+    const float yy = c.y(v);
+    dl->AddLine(ImVec2(c.a.x, yy), ImVec2(c.b.x, yy), colour(t.muted_text, 0.25f));
+    const std::string s = table_number(v, 4);
+    const float w = ImGui::CalcTextSize(s.c_str()).x;
+    dl->AddText(ImVec2(c.a.x - w - 4 * scale, yy - ImGui::GetTextLineHeight() / 2), colour(t.text), s.c_str());
+  }
+  return c;
+}
+
+}  // namespace
+
+std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Analysis* a, const std::string& problem,
+                                             const std::string& trait_title, const Theme& t, float scale,
+                                             float top_px, CheckScreenState* st) {
+  st->targets.clear();
+  std::optional<CheckAction> action;
+  const ScreenWindow window("Check", t, top_px,
+                            {{ImGuiCol_TableHeaderBg, t.panel},
+                             {ImGuiCol_TableRowBgAlt, t.panel},
+                             {ImGuiCol_TableBorderStrong, t.muted_text},
+                             {ImGuiCol_TableBorderLight, t.muted_text}});
+  const float h = kTouchTargetPx * scale;
+  const ButtonLook plain{t.button, t.button_text};
+  banner(kInterimCaution, t.confirm, t.confirm_text);
+  if (solid_button("<##trait", ImVec2(button_width("<", scale), h), plain, &st->targets, "previous trait"))
+    action = CheckAction{CheckAction::Kind::previous_trait, 0};
+  ImGui::SameLine();
+  ImGui::SetCursorPosY(ImGui::GetCursorPosY() + (h - ImGui::GetTextLineHeight()) / 2);
+  ImGui::TextUnformatted(trait_title.c_str());
+  ImGui::SameLine();
+  ImGui::SetCursorPosY(ImGui::GetCursorPosY() - (h - ImGui::GetTextLineHeight()) / 2);
+  if (solid_button(">##trait", ImVec2(button_width(">", scale), h), plain, &st->targets, "next trait"))
+    action = CheckAction{CheckAction::Kind::next_trait, 0};
+
+  ImGui::BeginChild("analysis", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
+  drag_to_scroll(scale);
+  if (!a) {
+    ImGui::TextWrapped("No analysis yet: %s", problem.c_str());
+    ImGui::EndChild();
+    return action;
+  }
+  const float width = ImGui::GetContentRegionAvail().x;
+  ImGui::TextWrapped("%s, %d plots analysed%s. Grand mean %s, CV %s %%, R squared %s, residual SD %s.",
+                     design_kind_title(a->design), a->n,
+                     a->n_missing ? (", " + std::to_string(a->n_missing) + " without a value").c_str() : "",
+                     table_number(a->grand_mean, 5).c_str(), table_number(a->cv_percent, 3).c_str(),
+                     table_number(a->r_squared, 3).c_str(), table_number(a->residual_sd, 4).c_str());
+  const int pct = static_cast<int>(std::lround(100 * (1 - a->alpha)));
+  if (a->lsd || a->hsd || a->mdd_percent) {
+    std::string line;
+    if (a->lsd) line += "LSD (" + std::to_string(pct) + " %) " + table_number(*a->lsd, 4) + ".  ";
+    if (a->hsd) line += "Tukey HSD (" + std::to_string(pct) + " %) " + table_number(*a->hsd, 4) + ".  ";
+    if (a->mdd_percent)
+      line += "Smallest difference detectable with 80 % power: " + table_number(*a->mdd_percent, 3) + " % of the mean.";
+    ImGui::TextWrapped("%s", line.c_str());
+  }
+
+  // Analysis-of-variance table.
+  heading(("Analysis of variance (" + std::string(sums_kind_key(a->sums)) + " sums of squares)").c_str());
+  const ImGuiTableFlags tf = ImGuiTableFlags_Borders | ImGuiTableFlags_RowBg | ImGuiTableFlags_SizingStretchProp;
+  if (ImGui::BeginTable("anova", 7, tf)) {
+    for (const char* c : {"Term", "DF", "SS", "MS", "F", "P", "tested against"}) ImGui::TableSetupColumn(c);
+    ImGui::TableHeadersRow();
+    for (const AnovaRow& r : a->table) {
+      ImGui::TableNextRow();
+      const std::string cells[7] = {r.source, df_text(r.df), table_number(r.ss), r.ms ? table_number(*r.ms) : "",
+                                    r.f ? table_number(*r.f, 4) : "", r.p ? p_text(*r.p) : "", r.error_term};
+      for (int k = 0; k < 7; ++k) {
+        ImGui::TableSetColumnIndex(k);
+        ImGui::TextUnformatted(cells[k].c_str());
+      }
+    }
+    ImGui::EndTable();
+  }
+
+  // Means of each treatment term.
+  for (const TermMeans& m : a->means) {
+    heading(("Means of " + m.term + (m.adjusted ? " (adjusted for missing plots)" : "")).c_str());
+    const bool letters = !m.levels.empty() && !m.levels.front().group_lsd.empty();
+    const int cols = letters ? 6 : 4;
+    if (ImGui::BeginTable(("means" + m.term).c_str(), cols, tf)) {
+      ImGui::TableSetupColumn(m.term.c_str());
+      ImGui::TableSetupColumn("plots");
+      ImGui::TableSetupColumn("mean");
+      ImGui::TableSetupColumn("SE");
+      if (letters) {
+        ImGui::TableSetupColumn("LSD group");
+        ImGui::TableSetupColumn("HSD group");
+      }
+      ImGui::TableHeadersRow();
+      for (const MeanRow& r : m.levels) {
+        ImGui::TableNextRow();
+        const std::string cells[6] = {r.label, std::to_string(r.n), r.estimable ? table_number(r.mean, 5) : "-",
+                                      r.estimable ? table_number(r.se, 3) : "-", r.group_lsd, r.group_hsd};
+        for (int k = 0; k < cols; ++k) {
+          ImGui::TableSetColumnIndex(k);
+          ImGui::TextUnformatted(cells[k].c_str());
+        }
+      }
+      ImGui::EndTable();
+    }
+    std::string line = "SE of a difference " + table_number(m.sed, 4) + ", LSD " + table_number(m.lsd, 4);
+    if (m.lsd_max > m.lsd_min * (1 + 1e-9))
+      line += " (pairs " + table_number(m.lsd_min, 4) + " to " + table_number(m.lsd_max, 4) + ")";
+    if (m.q_critical > 0) line += ", Tukey HSD " + table_number(m.hsd, 4);
+    line += "; error: " + m.error_term + ". Means sharing a letter do not differ at alpha " + value_text(a->alpha) + ".";
+    ImGui::TextWrapped("%s", line.c_str());
+    if (!m.note.empty()) ImGui::TextWrapped("%s", m.note.c_str());
+  }
+
+  // Chart: every plot's value by treatment, with the treatment's mean.
+  std::map<std::string, std::vector<double>> by_treatment;
+  double lo = 0, hi = 0;
+  for (size_t k = 0; k < a->fits.size(); ++k) {
+    const PlotFit& f = a->fits[k];
+    const PlannedPlot& p = trial.layout.plots[f.record];
+    by_treatment[treatment_label(trial.plan, p.levels)].push_back(f.value);
+    lo = k ? std::min(lo, f.value) : f.value;
+    hi = k ? std::max(hi, f.value) : f.value;
+  }
+  std::vector<std::pair<double, std::string>> order;
+  for (const auto& [name, v] : by_treatment) {
+    double s = 0;
+    for (double x : v) s += x;
+    order.push_back({s / v.size(), name});
+  }
+  std::sort(order.begin(), order.end());
+  heading("Charts");
+  {
+    Chart c = begin_chart("Plot values by treatment (lowest mean on the left; bar: treatment mean)", lo, hi,
+                          260 * scale, t, scale);
+    c.x_lo = -0.5;
+    c.x_hi = std::max<double>(order.size(), 1) - 0.5;
+    ImDrawList* dl = ImGui::GetWindowDrawList();
+    const float step = (c.b.x - c.a.x) / std::max<size_t>(order.size(), 1);
+    const float dot = std::clamp(step * 0.18f, 2.0f * scale, 5.0f * scale);
+    for (size_t k = 0; k < order.size(); ++k) {
+      const float cx = c.x(static_cast<double>(k));
+      for (double v : by_treatment[order[k].second]) dl->AddCircleFilled(ImVec2(cx, c.y(v)), dot, colour(t.collected));
+      dl->AddLine(ImVec2(cx - std::max(step * 0.35f, 3.0f), c.y(order[k].first)),
+                  ImVec2(cx + std::max(step * 0.35f, 3.0f), c.y(order[k].first)), colour(t.text), 2.5f * scale);
+    }
+    if (!order.empty()) {
+      const std::string left = order.front().second + "  ...  " + order.back().second;
+      dl->AddText(ImVec2(c.a.x, c.b.y + 4 * scale), colour(t.text), left.c_str());
+    }
+  }
+  {
+    double flo = 0, fhi = 0, rlo = -3, rhi = 3;
+    for (size_t k = 0; k < a->fits.size(); ++k) {
+      flo = k ? std::min(flo, a->fits[k].fitted) : a->fits[k].fitted;
+      fhi = k ? std::max(fhi, a->fits[k].fitted) : a->fits[k].fitted;
+      rlo = std::min(rlo, a->fits[k].studentized);
+      rhi = std::max(rhi, a->fits[k].studentized);
+    }
+    Chart c = begin_chart("Studentized residual against fitted value (lines at 0 and +/-3)", rlo, rhi, 260 * scale, t,
+                          scale);
+    widen(&flo, &fhi);
+    c.x_lo = flo;
+    c.x_hi = fhi;
+    ImDrawList* dl = ImGui::GetWindowDrawList();
+    for (double level : {-3.0, 0.0, 3.0})
+      dl->AddLine(ImVec2(c.a.x, c.y(level)), ImVec2(c.b.x, c.y(level)), colour(level == 0 ? t.text : t.flagged),
+                  (level == 0 ? 1.5f : 2.0f) * scale);
+    for (const PlotFit& f : a->fits) {
+      const bool far = std::abs(f.studentized) > 3.0;
+      dl->AddCircleFilled(ImVec2(c.x(f.fitted), c.y(f.studentized)), (far ? 6.0f : 4.0f) * scale,
+                          colour(far ? t.flagged : t.collected));
+    }
+    const std::string axis = "fitted " + table_number(flo, 4) + " to " + table_number(fhi, 4);
+    dl->AddText(ImVec2(c.a.x, c.b.y + 4 * scale), colour(t.text), axis.c_str());
+  }
+
+  // Variance components.
+  heading("Variance components");
+  const VarianceComponents& vc = a->variance_components;
+  if (vc.error) ImGui::Text("error (plot to plot): %s", table_number(*vc.error).c_str());
+  if (vc.main_plot_error) ImGui::Text("main-plot error: %s", table_number(*vc.main_plot_error).c_str());
+  if (vc.treatment) ImGui::Text("treatment: %s", table_number(*vc.treatment).c_str());
+  if (vc.treatment_by_site) ImGui::Text("treatment x site: %s", table_number(*vc.treatment_by_site).c_str());
+  if (vc.heritability) ImGui::Text("heritability (entry means): %s", table_number(*vc.heritability, 3).c_str());
+  {
+    std::string shares = "share of total SS:";
+    for (const VarianceShare& s : vc.shares) shares += "  " + s.source + " " + table_number(100 * s.share, 3) + " %";
+    ImGui::TextWrapped("%s", shares.c_str());
+  }
+  for (const std::string& n : vc.notes) ImGui::TextWrapped("note: %s", n.c_str());
+
+  // Outlier plots and missing cells: rows that open the plot.
+  const float row = h * 1.2f;
+  heading(("Outlier plots: " + std::to_string(a->outliers.size())).c_str());
+  ImGui::TextWrapped("Rule: %s. Tap a row to open the plot and re-measure or confirm it.", a->outlier_rule.c_str());
+  ButtonLook item_look{t.confirm, t.confirm_text};
+  item_look.align_left = true;
+  for (size_t k = 0; k < a->outliers.size(); ++k) {
+    const OutlierPlot& o = a->outliers[k];
+    const std::string& label = trial.layout.plots[o.record].label;
+    char text[256];
+    std::snprintf(text, sizeof text, "Plot %s: %s, expected about %s (studentized residual %s)##out%zu", label.c_str(),
+                  value_text(o.value).c_str(), value_text(o.expected).c_str(),
+                  table_number(o.studentized_external, 3).c_str(), k);
+    if (solid_button(text, ImVec2(width, row), item_look, &st->targets, "outlier " + label))
+      action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(o.record)};
+  }
+  heading(("Missing treatment cells: " + std::to_string(a->missing_cells.size())).c_str());
+  ButtonLook missing_look{t.panel, t.text};
+  missing_look.align_left = true;
+  for (size_t k = 0; k < a->missing_cells.size(); ++k) {
+    const MissingCell& m = a->missing_cells[k];
+    if (m.records.empty()) continue;
+    const std::string& label = trial.layout.plots[m.records.front()].label;
+    char text[300];
+    std::snprintf(text, sizeof text, "%s: plot %s##miss%zu", m.label.c_str(), label.c_str(), k);
+    if (solid_button(text, ImVec2(width, row), missing_look, &st->targets, "missing " + label))
+      action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(m.records.front())};
+  }
+  for (const std::string& n : a->notes) ImGui::TextWrapped("note: %s", n.c_str());
+  ImGui::Dummy(ImVec2(0, h));
+  ImGui::EndChild();
+  return action;
+}
+
+}  // namespace furrow

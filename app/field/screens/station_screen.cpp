@@ -1,0 +1,119 @@
+#include "app/field/screens/station_screen.h"
+
+#include <imgui.h>
+
+#include <cstdio>
+
+#include "app/field/screens/widgets.h"
+
+namespace furrow {
+
+std::optional<StationAction> draw_station_screen(const StationView& v, const Theme& t, float scale, float top_px,
+                                                 StationScreenState* st) {
+  st->targets.clear();
+  std::optional<StationAction> action;
+  const ScreenWindow window("Station", t, top_px, {{ImGuiCol_FrameBg, t.panel}, {ImGuiCol_PlotHistogram, t.accent}});
+  ImGui::BeginChild("station", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
+  drag_to_scroll(scale);
+  const float h = kTouchTargetPx * scale;
+  const float width = ImGui::GetContentRegionAvail().x;
+  const ButtonLook plain{t.button, t.button_text};
+  // Day's-end actions.
+  const struct { const char* label; StationAction::Kind kind; bool needs_trial; } buttons[] = {
+      {"Import bundles", StationAction::Kind::import_bundles, false},
+      {"Write this device's bundle", StationAction::Kind::write_bundle, true},
+      {"Export data (CSV)", StationAction::Kind::export_data, true},
+      {"Write report (HTML)", StationAction::Kind::export_report, true}};
+  bool first = true;
+  for (const auto& b : buttons) {
+    if (b.needs_trial && !v.trial) continue;
+    const float w = button_width(b.label, scale);
+    if (!first) flow_next(w);
+    first = false;
+    if (solid_button(b.label, ImVec2(w, h), plain, &st->targets) && !v.importing) action = StationAction{b.kind, 0, 0, {}};
+  }
+  // The outcome goes below the actions, so that they stay where the finger expects them.
+  if (!st->message.empty())
+    banner(st->message.c_str(), st->message_is_problem ? t.refuse : t.saved,
+           st->message_is_problem ? t.refuse_text : t.saved_text);
+  ImGui::TextWrapped("Bundles are read from %s; exports go to %s.", v.bundle_folder.c_str(), v.export_folder.c_str());
+  if (v.importing || v.to_import) {
+    char overlay[300];
+    std::snprintf(overlay, sizeof overlay, v.importing ? "Importing %zu of %zu: %s" : "Imported %zu of %zu%s",
+                  v.imported + (v.importing ? 1 : 0), v.to_import, v.importing ? v.importing_file.c_str() : "");
+    ImGui::ProgressBar(v.to_import ? static_cast<float>(v.imported) / static_cast<float>(v.to_import) : 1.0f,
+                       ImVec2(width, h), overlay);
+  }
+  for (const BundleOutcome& o : v.outcomes)
+    ImGui::TextWrapped("%s %s: %s", o.merged ? "merged" : "REFUSED", o.file.c_str(), o.message.c_str());
+
+  // Conflicts of the open trial.
+  if (v.trial) {
+    ImGui::Spacing();
+    ImGui::Text("%zu conflicts to settle in %s", v.conflicts.size(), v.trial->plan.name.c_str());
+    ImGui::TextWrapped("Each settlement is saved as a new record with your name; nothing is overwritten.");
+    for (size_t c = 0; c < v.conflicts.size(); ++c) {
+      const ConflictCell& cell = v.conflicts[c];
+      const std::string label = "plot " + v.trial->layout.plots[cell.plot_index].label;
+      ImGui::Separator();
+      ImGui::Text("%s, %s%s", label.c_str(), v.trial->plan.traits[cell.trait_index].name.c_str(),
+                  cell.occasion > 1 ? (", occasion " + std::to_string(cell.occasion)).c_str() : "");
+      first = true;
+      for (size_t r = 0; r < cell.rows.size(); ++r) {
+        const LiveObservation& row = cell.rows[r];
+        const std::string shown = "Keep " + (row.value ? *row.value : "missing: " + row.missing_reason.value_or("")) +
+                                  " (" + row.observer + ")";
+        const std::string id = shown + "##keep" + std::to_string(c) + "_" + std::to_string(r);
+        const float w = button_width(shown.c_str(), scale);
+        if (!first) flow_next(w);
+        first = false;
+        if (solid_button(id.c_str(), ImVec2(w, h), plain, &st->targets, "keep " + label + " " + std::to_string(r)))
+          action = StationAction{StationAction::Kind::keep, c, r, {}};
+      }
+      const std::string other = "Other value or missing##other" + std::to_string(c);
+      flow_next(button_width("Other value or missing", scale));
+      if (solid_button(other.c_str(), ImVec2(button_width("Other value or missing", scale), h), plain, &st->targets,
+                       "other " + label)) {
+        st->editing = static_cast<int>(c);
+        st->typed[0] = 0;
+      }
+      if (st->editing == static_cast<int>(c)) {
+        ImGui::PushItemWidth(std::min(width, 12 * h));
+        ImGui::PushStyleVar(ImGuiStyleVar_FramePadding,
+                            ImVec2(ImGui::GetStyle().FramePadding.x, (h - ImGui::GetFontSize()) / 2));
+        ImGui::InputTextWithHint(("##typed" + std::to_string(c)).c_str(), "value, or why it is missing", st->typed,
+                                 sizeof st->typed);
+        note_target("typed " + label, &st->targets);
+        ImGui::PopStyleVar();
+        ImGui::PopItemWidth();
+        flow_next(button_width("Save as value", scale));
+        if (solid_button(("Save as value##v" + std::to_string(c)).c_str(), ImVec2(button_width("Save as value", scale), h),
+                         plain, &st->targets, "save value " + label) && st->typed[0])
+          action = StationAction{StationAction::Kind::new_value, c, 0, st->typed};
+        flow_next(button_width("Save as missing", scale));
+        if (solid_button(("Save as missing##m" + std::to_string(c)).c_str(),
+                         ImVec2(button_width("Save as missing", scale), h), plain, &st->targets,
+                         "save missing " + label) && st->typed[0])
+          action = StationAction{StationAction::Kind::mark_missing, c, 0, st->typed};
+      }
+    }
+  }
+
+  // Every trial's completeness.
+  ImGui::Spacing();
+  ImGui::Separator();
+  ImGui::Text("Trials on this device");
+  for (const TrialSummary& s : v.trials) {
+    if (!s.problem.empty()) {
+      ImGui::TextWrapped("%s: cannot be read: %s", s.file_name.c_str(), s.problem.c_str());
+      continue;
+    }
+    ImGui::TextWrapped("%s: %.0f %% collected (%d of %d cells), last change %s", s.name.c_str(), s.progress.percent(),
+                       s.progress.cells_done, s.progress.cells_required, s.progress.last_change.substr(0, 16).c_str());
+  }
+  ImGui::Dummy(ImVec2(0, h));
+  ImGui::EndChild();
+  return action;
+}
+
+}  // namespace furrow

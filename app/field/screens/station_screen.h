@@ -1,0 +1,48 @@
+#pragma once
+// The Station screen, for day's end: import every bundle in a folder (with
+// progress), settle the conflicts of the open trial (keep one of the values,
+// enter a new one, or mark the cell missing), see every trial's
+// completeness, write this device's bundle, export clean data and the report.
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "app/field/screens/record_screen.h"
+#include "app/work/station.h"
+#include "app/work/theme.h"
+#include "app/work/trial_summary.h"
+#include "storage/settle.h"
+
+namespace furrow {
+
+struct StationView {
+  std::string bundle_folder, export_folder;
+  bool importing = false;
+  size_t imported = 0, to_import = 0;
+  std::string importing_file;
+  std::vector<BundleOutcome> outcomes;       // of the last import
+  const StoredTrial* trial = nullptr;        // the open trial, if any
+  std::vector<ConflictCell> conflicts;       // of the open trial
+  std::vector<TrialSummary> trials;          // in the data folder
+};
+
+struct StationScreenState {
+  int editing = -1;                  // conflict whose value or reason is being typed
+  char typed[64] = {};
+  std::string message;               // outcome of the last action
+  bool message_is_problem = false;
+  std::vector<TapTarget> targets;    // rebuilt every frame
+};
+
+struct StationAction {
+  enum class Kind { import_bundles, write_bundle, export_data, export_report, keep, new_value, mark_missing } kind =
+      Kind::import_bundles;
+  size_t conflict = 0, row = 0;      // keep: which conflict and which of its rows
+  std::string text;                  // new_value: the value; mark_missing: the reason
+};
+
+std::optional<StationAction> draw_station_screen(const StationView& view, const Theme& theme, float scale,
+                                                 float top_px, StationScreenState* state);
+
+}  // namespace furrow

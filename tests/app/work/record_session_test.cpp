@@ -1,0 +1,110 @@
+// The Record screen's state and commands, driven headlessly on the demo plan.
+
+#include "app/work/record_session.h"
+
+#include <doctest/doctest.h>
+
+#include "tests/test_support.h"
+
+#include <filesystem>
+
+#include "storage/plan_file.h"
+
+namespace furrow {
+namespace {
+
+size_t live_count(const std::string& path) {
+  auto open = open_trial_database(path);
+  REQUIRE(open.ok());
+  return live_observations(open->db, 0)->size();
+}
+
+TEST_CASE("an accepted value is committed, the walk moves on, the database holds it") {
+  const std::string db = test::fresh_demo_trial("enter.furrow");
+  auto s = RecordSession::open(db, "Ana");
+  REQUIRE(s.ok());
+  s->set_trait(1);   // height
+  CHECK(s->view().plot_label == "101");
+  const auto out = s->enter("95");
+  CHECK(out.kind == EntryOutcome::Kind::saved);
+  CHECK(s->view().plot_label == "102");
+  CHECK(s->view().cells_done == 1);
+  CHECK(live_count(db) == 1);
+  s->previous();
+  CHECK(*s->view().current == "95");
+}
+
+TEST_CASE("a refused value saves nothing; a soft-limit value waits for confirmation") {
+  const std::string db = test::fresh_demo_trial("refuse.furrow");
+  auto s = RecordSession::open(db, "Ana");
+  REQUIRE(s.ok());
+  s->set_trait(1);
+  auto out = s->enter("400");
+  CHECK(out.kind == EntryOutcome::Kind::refused);
+  CHECK(out.message.find("possible range") != std::string::npos);
+  CHECK(live_count(db) == 0);
+  out = s->enter("150");
+  CHECK(out.kind == EntryOutcome::Kind::needs_confirmation);
+  CHECK(s->view().has_pending);
+  CHECK(live_count(db) == 0);
+  CHECK(s->view().plot_label == "101");
+  out = s->confirm();
+  CHECK(out.kind == EntryOutcome::Kind::saved);
+  CHECK(live_count(db) == 1);
+}
+
+TEST_CASE("skip with a reason, jump by label, undo as a new log row") {
+  const std::string db = test::fresh_demo_trial("skip.furrow");
+  auto s = RecordSession::open(db, "Ana");
+  REQUIRE(s.ok());
+  CHECK_FALSE(s->skip("other", "").ok());   // 'other' needs a note
+  REQUIRE(s->skip("flooded", "storm").ok());
+  CHECK(s->view().plot_label == "102");
+  CHECK_FALSE(s->jump_to("999").ok());
+  REQUIRE(s->jump_to(" 305 ").ok());
+  CHECK(s->view().plot_label == "305");
+  REQUIRE(s->enter("240").kind == EntryOutcome::Kind::saved);
+  REQUIRE(s->jump_to("305").ok());
+  REQUIRE(s->enter("241").kind == EntryOutcome::Kind::saved);   // an edit
+  REQUIRE(s->undo().ok());                                       // back to 240
+  CHECK(s->view().plot_label == "305");
+  CHECK(*s->view().current == "240");
+  REQUIRE(s->undo().ok());                                       // 305 withdrawn
+  CHECK(s->view().plot_label == "305");
+  CHECK(*s->view().current == "missing: withdrawn");
+  REQUIRE(s->undo().ok());                                       // the skip of 101 withdrawn
+  CHECK(s->view().plot_label == "101");
+  CHECK(*s->view().current == "missing: withdrawn");
+  CHECK_FALSE(s->undo().ok());
+  auto open = open_trial_database(db);
+  CHECK(all_observations(open->db)->size() == 6);                // nothing overwritten
+  // The session's cached rows agree with a fresh read of the log.
+  auto fresh = RecordSession::open(db, "Ana");
+  REQUIRE(fresh.ok());
+  for (const char* label : {"101", "305"}) {
+    REQUIRE(s->jump_to(label).ok());
+    REQUIRE(fresh->jump_to(label).ok());
+    CHECK(s->view().current == fresh->view().current);
+    CHECK(s->view().cells_done == fresh->view().cells_done);
+  }
+}
+
+TEST_CASE("blind scoring hides the treatment; walking all traits per plot") {
+  const std::string db = test::fresh_demo_trial("blind.furrow");
+  auto s = RecordSession::open(db, "Ana");
+  REQUIRE(s.ok());
+  CHECK(s->view().treatment == "Quillon");
+  s->set_blind(true);
+  CHECK(s->view().treatment == "hidden");
+  s->set_walk(WalkMode::all_traits_per_plot);
+  s->next();
+  CHECK(s->view().plot_label == "101");
+  CHECK(s->view().trait_code == "height_cm");
+  for (int i = 0; i < 4; ++i) s->next();
+  CHECK(s->view().plot_label == "102");
+  CHECK(s->view().trait_code == "stand_count");
+  CHECK_FALSE(RecordSession::open(db, "").ok());
+}
+
+}  // namespace
+}  // namespace furrow
