@@ -31,6 +31,21 @@ std::string number_text(double v) {
   return buf;
 }
 
+// The slip's likely value as the crew would type it: no more decimals than
+// the trait is measured to (so that it passes the decimals check), trailing
+// zeros dropped.
+std::string slip_suggestion(const Trait& trait, double meant) {
+  const int decimals = trait.kind == TraitKind::count || trait.kind == TraitKind::score ? 0 : std::max(0, trait.decimals);
+  char buf[48];
+  std::snprintf(buf, sizeof buf, "%.*f", decimals, meant);
+  std::string t = buf;
+  if (t.find('.') != std::string::npos) {
+    while (t.back() == '0') t.pop_back();
+    if (t.back() == '.') t.pop_back();
+  }
+  return t;
+}
+
 double median(std::vector<double> v) {
   const size_t n = v.size();
   const auto mid = v.begin() + static_cast<long>(n / 2);
@@ -152,7 +167,8 @@ std::vector<Finding> check_entry(const Trait& trait, const std::string& text, co
           const double meant = z_times < z_tenth ? 10 * v : v / 10;
           out.push_back({Severity::confirm, "decimal_slip",
                          shown + " looks like a decimal slip: the other plots are near " + number_text(med) + unit +
-                             ". Did you mean " + number_text(meant) + unit + "?"});
+                             ". Did you mean " + number_text(meant) + unit + "?",
+                         slip_suggestion(trait, meant)});
         }
       }
     }
@@ -174,7 +190,13 @@ std::vector<Finding> check_entry(const Trait& trait, const std::string& text, co
       std::all_of(prev.end() - (kRepeatRun - 1), prev.end(), [&](const std::string& p) { return p == parsed->text; }))
     out.push_back({Severity::note, "repeated",
                    "the same value as the last " + std::to_string(kRepeatRun - 1) + " plots: was each one measured?"});
-  std::stable_sort(out.begin(), out.end(), [](const Finding& a, const Finding& b) { return a.severity > b.severity; });
+  const auto usefulness = [](const Finding& f) {
+    return f.check == "decimal_slip" ? 0 : f.check == "unlikely" ? 1 : f.check == "soft_limit" ? 2 : 3;
+  };
+  std::stable_sort(out.begin(), out.end(), [&](const Finding& a, const Finding& b) {
+    if (a.severity != b.severity) return a.severity > b.severity;
+    return usefulness(a) < usefulness(b);
+  });
   return out;
 }
 

@@ -24,6 +24,7 @@ struct Finding {
   std::string check;     // short key: hard_limit, soft_limit, decimals, scale, category, date, number,
                          // decimal_slip, repeated, unlikely
   std::string message;
+  std::string suggestion;   // decimal_slip: the value the crew probably meant, as text to enter (else empty)
 };
 
 // A decimal slip is considered once a trait has this many other values, and
@@ -68,7 +69,9 @@ struct ParsedValue {
 };
 Result<ParsedValue> parse_trait_value(const Trait& trait, const std::string& text);
 
-// All findings for a value, most severe first. A value that does not parse
+// All findings for a value, most severe first and, within a severity, most
+// useful first (a likely slip with its suggestion, unlikely for the plot,
+// outside the usual range, the rest). A value that does not parse
 // gives one refuse finding.
 std::vector<Finding> check_entry(const Trait& trait, const std::string& text, const EntryContext& context);
 

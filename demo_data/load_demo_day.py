@@ -39,4 +39,6 @@ for trait in ("stand_count", "height_cm", "heading_days"):
         if p.returncode != 0:
             sys.exit(f"demo day: {' '.join(args[2:])}: {p.stderr.strip()}")
         saved += 1
+# Today's walk on the device: stand count and height on every plot.
+subprocess.run([furrow, "walk", "--db", db, "--traits", "stand_count,height_cm"], check=True, capture_output=True)
 print(f"demo day recorded: {saved} entries ({confirmed} confirmed after a warning) in {db}")

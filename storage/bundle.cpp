@@ -16,7 +16,7 @@ namespace {
 
 constexpr std::int64_t kBundleApplicationId = 0x46524231;   // "FRB1"
 constexpr const char* kFormat = "furrow-bundle";
-constexpr const char* kVersion = "1";
+constexpr const char* kVersion = "2";   // 2: rows carry `confirmed_checks`
 
 // SHA-1 over length-prefixed fields, so that no two different sequences of
 // fields give the same stream.
@@ -71,11 +71,12 @@ struct Row {
   std::optional<double> number;
   std::optional<std::string> missing_reason;
   std::string note, observer, recorded_at;
+  std::string confirmed_checks;
   bool operator==(const Row& o) const {
     return device_id == o.device_id && sequence == o.sequence && plot_label == o.plot_label &&
            trait_code == o.trait_code && occasion == o.occasion && value == o.value &&
            opt_key(number) == opt_key(o.number) && missing_reason == o.missing_reason && note == o.note &&
-           observer == o.observer && recorded_at == o.recorded_at;
+           observer == o.observer && recorded_at == o.recorded_at && confirmed_checks == o.confirmed_checks;
   }
 };
 struct Link {
@@ -97,6 +98,7 @@ void digest_row(Digest& d, const Row& r) {
   d.field(r.note);
   d.field(r.observer);
   d.field(r.recorded_at);
+  d.field(r.confirmed_checks);
   d.end_row();
 }
 void digest_link(Digest& d, const Link& l) {
@@ -149,7 +151,7 @@ Result<std::map<std::string, std::int64_t>> holdings(Database& db) {
 
 const char* kRowColumns =
     "o.device_id, o.sequence, p.label, t.code, o.occasion, o.value, o.number, o.missing_reason, o.note, o.observer, "
-    "o.recorded_at";
+    "o.recorded_at, o.confirmed_checks";
 
 Row read_row(const Statement& s) {
   Row r;
@@ -164,6 +166,7 @@ Row read_row(const Statement& s) {
   r.note = s.text(8);
   r.observer = s.text(9);
   r.recorded_at = s.text(10);
+  r.confirmed_checks = s.text(11);
   return r;
 }
 
@@ -240,7 +243,7 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
   std::int64_t rows = 0, links = 0;
   {
     auto s = b.db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, missing_reason, "
-                          "note, observer, recorded_at FROM observation ORDER BY device_id, sequence");
+                          "note, observer, recorded_at, confirmed_checks FROM observation ORDER BY device_id, sequence");
     if (!s) return fail("damaged or truncated: " + s.problem().message);
     while (s->step()) {
       digest_row(d, read_row(*s));
@@ -273,6 +276,7 @@ CREATE TABLE observation (
   plot_label TEXT NOT NULL, trait_code TEXT NOT NULL, occasion INTEGER NOT NULL,
   value TEXT, number REAL, missing_reason TEXT,
   note TEXT NOT NULL, observer TEXT NOT NULL, recorded_at TEXT NOT NULL,
+  confirmed_checks TEXT NOT NULL,
   PRIMARY KEY (device_id, sequence)
 ) STRICT, WITHOUT ROWID;
 CREATE TABLE replacement (
@@ -406,13 +410,13 @@ Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, cons
         hs->bind(1, dev).bind(2, n);
         FURROW_TRY(hs->run());
       }
-      auto os = b->prepare("INSERT INTO observation VALUES (?,?,?,?,?,?,?,?,?,?,?)");
+      auto os = b->prepare("INSERT INTO observation VALUES (?,?,?,?,?,?,?,?,?,?,?,?)");
       if (!os) return os.problem();
       for (const Row& r : rows) {
         os->reset();
         os->bind(1, r.device_id).bind(2, r.sequence).bind(3, r.plot_label).bind(4, r.trait_code).bind(5, r.occasion)
             .bind(6, r.value).bind(7, r.number).bind(8, r.missing_reason).bind(9, r.note).bind(10, r.observer)
-            .bind(11, r.recorded_at);
+            .bind(11, r.recorded_at).bind(12, r.confirmed_checks);
         FURROW_TRY(os->run());
       }
       auto ls = b->prepare("INSERT INTO replacement VALUES (?,?,?,?)");
@@ -466,10 +470,10 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
   MergeOutcome out{m, 0, 0};
   Status merged = in_transaction(db, [&]() -> Status {
     auto read = b->db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, "
-                              "missing_reason, note, observer, recorded_at FROM observation ORDER BY device_id, sequence");
+                              "missing_reason, note, observer, recorded_at, confirmed_checks FROM observation ORDER BY device_id, sequence");
     if (!read) return read.problem();
     auto insert = db.prepare("INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, "
-                             "missing_reason, note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?) "
+                             "missing_reason, note, observer, recorded_at, confirmed_checks) VALUES (?,?,?,?,?,?,?,?,?,?,?,?) "
                              "ON CONFLICT DO NOTHING");
     if (!insert) return insert.problem();
     auto held = db.prepare(std::string("SELECT ") + kRowColumns +
@@ -486,7 +490,7 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
       insert->reset();
       insert->bind(1, r.device_id).bind(2, r.sequence).bind(3, p->second).bind(4, t->second).bind(5, r.occasion)
           .bind(6, r.value).bind(7, r.number).bind(8, r.missing_reason).bind(9, r.note).bind(10, r.observer)
-          .bind(11, r.recorded_at);
+          .bind(11, r.recorded_at).bind(12, r.confirmed_checks);
       FURROW_TRY(insert->run());
       if (db.changes() == 1) {
         ++out.observations_added;
@@ -544,7 +548,7 @@ Result<std::string> canonical_log(Database& db) {
       const Row r = read_row(*s);
       out += "o|" + r.device_id + "|" + std::to_string(r.sequence) + "|" + r.plot_label + "|" + r.trait_code + "|" +
              std::to_string(r.occasion) + "|" + r.value.value_or("~") + "|" + opt_key(r.number) + "|" +
-             r.missing_reason.value_or("~") + "|" + r.note + "|" + r.observer + "|" + r.recorded_at + "\n";
+             r.missing_reason.value_or("~") + "|" + r.note + "|" + r.observer + "|" + r.recorded_at + "|" + r.confirmed_checks + "\n";
     }
   }
   {

@@ -3,13 +3,14 @@
 //
 // A bundle is one SQLite file (PRAGMA application_id 0x46524231, "FRB1";
 // journal mode DELETE, so the file stands alone) with these tables:
-//   manifest(key, value)   format "furrow-bundle", version 1, trial_uid,
+//   manifest(key, value)   format "furrow-bundle", version 2, trial_uid,
 //                          trial_name, plan_hash, maker_device_id, maker_role
 //                          ("station" or "device"), created_at, observations,
 //                          replacements, checksum
 //   observation(...)       log rows: device_id, sequence, plot_label,
 //                          trait_code, occasion, value, number,
-//                          missing_reason, note, observer, recorded_at
+//                          missing_reason, note, observer, recorded_at,
+//                          confirmed_checks
 //   replacement(...)       device_id, sequence, replaced_device_id,
 //                          replaced_sequence
 //   holding(device_id, max_sequence)  what the maker holds of each device's log

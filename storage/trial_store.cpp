@@ -129,6 +129,20 @@ CREATE TABLE merged_bundle (
 ) STRICT;
 )sql";
 
+// Version 3: which checks' questions the crew answered "the value is right"
+// for (check keys, comma-separated: data, not words in a note), and this device's choice of today's walk (never
+// bundled: each device walks its own).
+constexpr const char* kSchemaV3 = R"sql(
+ALTER TABLE observation ADD COLUMN confirmed_checks TEXT NOT NULL DEFAULT '';
+CREATE TABLE walk_choice (
+  only_row INTEGER PRIMARY KEY CHECK (only_row = 1),
+  traits TEXT NOT NULL,
+  occasion INTEGER NOT NULL CHECK (occasion >= 1),
+  blocks TEXT NOT NULL,
+  every_trait_per_plot INTEGER NOT NULL CHECK (every_trait_per_plot IN (0, 1))
+) STRICT;
+)sql";
+
 std::string random_hex(int bytes) {
   std::random_device rd;
   std::string out;
@@ -286,6 +300,10 @@ Status migrate(Database& db) {
       u->bind(1, random_hex(16));
       FURROW_TRY(u->run());
       FURROW_TRY(db.exec("PRAGMA user_version = 2"));
+    }
+    if (version < 3) {
+      FURROW_TRY(db.exec(kSchemaV3));
+      FURROW_TRY(db.exec("PRAGMA user_version = 3"));
     }
     return ok_status();
   });
@@ -447,10 +465,10 @@ Result<ObservationKey> ObservationWriter::append(const std::string& device_id, c
     next_sequence_->reset();   // finish the read before writing
     FURROW_TRY(prepare(insert_,
                        "INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, "
-                       "missing_reason, note, observer, recorded_at) VALUES (?,?,?,?,?,?,?,?,?,?,?)"));
+                       "missing_reason, note, observer, recorded_at, confirmed_checks) VALUES (?,?,?,?,?,?,?,?,?,?,?,?)"));
     insert_->bind(1, device_id).bind(2, key.sequence).bind(3, o.plot_id).bind(4, o.trait_id).bind(5, o.occasion)
         .bind(6, o.value).bind(7, o.number).bind(8, o.missing_reason).bind(9, o.note).bind(10, o.observer)
-        .bind(11, recorded_at);
+        .bind(11, recorded_at).bind(12, o.confirmed_checks);
     FURROW_TRY(insert_->run());
     for (const ObservationKey& r : o.replaces) {
       FURROW_TRY(prepare(replace_, "INSERT INTO replacement VALUES (?,?,?,?)"));
@@ -491,13 +509,15 @@ Result<std::vector<LiveObservation>> read_observations(Database& db, const std::
     o.note = s->text(8);
     o.observer = s->text(9);
     o.recorded_at = s->text(10);
+    o.confirmed_checks = s->text(11);
     out.push_back(std::move(o));
   }
   if (s->failed()) return make_problem(s->error());
   return out;
 }
 constexpr const char* kColumns =
-    "device_id, sequence, plot_id, trait_id, occasion, value, number, missing_reason, note, observer, recorded_at";
+    "device_id, sequence, plot_id, trait_id, occasion, value, number, missing_reason, note, observer, recorded_at, "
+    "confirmed_checks";
 }  // namespace
 
 Result<std::vector<LiveObservation>> live_observations(Database& db, std::int64_t trait_id) {
@@ -523,4 +543,63 @@ Result<std::vector<LiveObservation>> all_observations(Database& db) {
                            [](Statement&) {});
 }
 
+}  // namespace furrow
+
+namespace furrow {
+
+namespace {
+std::string join_with(const std::vector<std::string>& items, char sep) {
+  std::string s;
+  for (const auto& x : items) s += (s.empty() ? "" : std::string(1, sep)) + x;
+  return s;
+}
+std::vector<std::string> split_on(const std::string& s, char sep) {
+  std::vector<std::string> out;
+  if (s.empty()) return out;
+  std::string cur;
+  for (char ch : s) {
+    if (ch == sep) { out.push_back(cur); cur.clear(); } else cur += ch;
+  }
+  out.push_back(cur);
+  return out;
+}
+}  // namespace
+
+Result<WalkChoice> load_walk_choice(Database& db) {
+  auto s = db.prepare("SELECT traits, occasion, blocks, every_trait_per_plot FROM walk_choice");
+  if (!s) return s.problem();
+  WalkChoice w;
+  if (!s->step()) {
+    if (s->failed()) return make_problem(s->error());
+    return w;
+  }
+  w.trait_codes = split_on(s->text(0), '\x1f');
+  w.occasion = static_cast<int>(s->integer(1));
+  for (const std::string& b : split_on(s->text(2), ',')) w.blocks.push_back(std::atoi(b.c_str()));
+  w.every_trait_per_plot = s->integer(3) != 0;
+  return w;
+}
+
+Status save_walk_choice(Database& db, const WalkChoice& w) {
+  std::vector<std::string> blocks;
+  for (int b : w.blocks) blocks.push_back(std::to_string(b));
+  auto s = db.prepare("INSERT OR REPLACE INTO walk_choice VALUES (1, ?, ?, ?, ?)");
+  if (!s) return s.problem();
+  s->bind(1, join_with(w.trait_codes, '\x1f')).bind(2, w.occasion).bind(3, join_with(blocks, ','))
+      .bind(4, w.every_trait_per_plot ? 1 : 0);
+  return s->run();
+}
+
+}  // namespace furrow
+
+namespace furrow {
+bool has_check(const std::string& checks, const std::string& key) {
+  size_t start = 0;
+  while (start <= checks.size()) {
+    const size_t end = std::min(checks.find(',', start), checks.size());
+    if (checks.compare(start, end - start, key) == 0 && end - start == key.size()) return true;
+    start = end + 1;
+  }
+  return false;
+}
 }  // namespace furrow

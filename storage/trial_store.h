@@ -21,7 +21,7 @@
 
 namespace furrow {
 
-inline constexpr int kSchemaVersion = 2;
+inline constexpr int kSchemaVersion = 3;
 
 // Brings the schema to kSchemaVersion. A database from a newer Furrow is
 // refused (its user_version is higher than ours).
@@ -60,6 +60,9 @@ Result<OpenTrial> open_trial_database(const std::string& path);
 // caution). Closing a closed trial is refused.
 Status close_trial(Database& db);
 
+// The missing reason of an undone entry: the cell counts as not recorded.
+inline constexpr const char* kWithdrawnReason = "withdrawn";
+
 struct ObservationKey {
   std::string device_id;
   std::int64_t sequence = 0;
@@ -72,6 +75,7 @@ struct NewObservation {
   std::optional<double> number;              // numeric value when the trait has one
   std::optional<std::string> missing_reason; // instead of a value: damaged, flooded, withdrawn, ...
   std::string note, observer;
+  std::string confirmed_checks;              // checks the crew answered "the value is right" (keys, comma-separated)
   std::vector<ObservationKey> replaces;      // rows this one supersedes
 };
 
@@ -103,6 +107,7 @@ struct LiveObservation {
   std::optional<double> number;
   std::optional<std::string> missing_reason;
   std::string note, observer, recorded_at;
+  std::string confirmed_checks;   // checks the crew answered "the value is right" (keys, comma-separated)
 };
 
 // Rows nobody replaced, for one trait (all traits when trait_id is 0),
@@ -114,6 +119,20 @@ Result<std::vector<LiveObservation>> replaced_by(Database& db, const Observation
 
 // Every row of the log in key order (for exports and audits).
 Result<std::vector<LiveObservation>> all_observations(Database& db);
+
+// This device's choice of what it records today (kept in the trial file,
+// never bundled). Empty `trait_codes`: no choice saved yet.
+struct WalkChoice {
+  std::vector<std::string> trait_codes;   // in the order they are walked
+  int occasion = 1;
+  std::vector<int> blocks;                // empty: every block
+  bool every_trait_per_plot = false;      // all chosen traits on a plot before the next plot
+};
+Result<WalkChoice> load_walk_choice(Database& db);
+Status save_walk_choice(Database& db, const WalkChoice& choice);
+
+// Whether `key` is among the comma-separated `checks`.
+bool has_check(const std::string& checks, const std::string& key);
 
 // Current time as ISO 8601 UTC with milliseconds.
 std::string utc_now();

@@ -1,5 +1,6 @@
 #include "app/cli/cli_trial.h"
 
+#include <algorithm>
 #include <fstream>
 #include <iostream>
 #include <map>
@@ -95,6 +96,27 @@ int run_record(const RecordRequest& r) {
   }
   if (out.kind != EntryOutcome::Kind::saved) return fail(r.db, out.message);
   std::cout << out.message << (where.occasion > 1 ? " #" + std::to_string(where.occasion) : "") << "\n";
+  return 0;
+}
+
+int run_walk(const WalkRequest& r) {
+  auto session = RecordSession::open(r.db, "command line");
+  if (!session) return fail(r.db, session.problem().message);
+  if (!r.traits.empty()) {
+    for (const std::string& code : r.traits)
+      if (auto s = session->set_trait(code); !s) return fail(r.db, s.problem().message);
+    for (int b : r.blocks) {
+      const auto& plots = session->trial().layout.plots;
+      if (std::none_of(plots.begin(), plots.end(), [&](const PlannedPlot& p) { return p.block == b; }))
+        return fail(r.db, "block " + std::to_string(b) + " is not in this trial");
+    }
+    if (auto s = session->set_walk(WalkChoice{r.traits, r.occasion, r.blocks, r.every_trait_per_plot}); !s)
+      return fail(r.db, s.problem().message);
+  }
+  const RecordView v = session->view();
+  std::cout << "today's walk: " << v.walk_summary << "\n";
+  std::cout << "done " << v.walk_done << " of " << v.walk_total << " values"
+            << (v.walk_complete ? "" : "; next: plot " + v.plot_label + ", " + v.trait_name) << "\n";
   return 0;
 }
 

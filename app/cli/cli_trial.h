@@ -5,6 +5,7 @@
 
 #include <optional>
 #include <string>
+#include <vector>
 
 namespace furrow {
 
@@ -19,6 +20,18 @@ struct RecordRequest {
   bool confirm = false;
 };
 int run_record(const RecordRequest& r);
+
+// `furrow walk`: with no traits, prints today's walk and its progress; with
+// traits, saves the walk in the trial file (this device's choice, never
+// bundled) first.
+struct WalkRequest {
+  std::string db;
+  std::vector<std::string> traits;
+  std::vector<int> blocks;
+  int occasion = 1;
+  bool every_trait_per_plot = false;
+};
+int run_walk(const WalkRequest& r);
 
 // kind: "long", "wide" or "layout"; out empty: stdout.
 int run_export(const std::string& db_path, const std::string& kind, const std::string& out);

@@ -103,6 +103,14 @@ int main(int argc, char** argv) {
   record->add_option("--note", rec.note, "a note for this plot");
   record->add_flag("--confirm", rec.confirm, "save a value that needs confirmation");
 
+  furrow::WalkRequest walk_req;
+  auto* walk = app.add_subcommand("walk", "Show or choose today's walk on this device (traits, occasion, blocks)");
+  walk->add_option("--db", walk_req.db, "trial database")->required();
+  walk->add_option("--traits", walk_req.traits, "trait codes, comma-separated, in the order walked")->delimiter(',');
+  walk->add_option("--occasion", walk_req.occasion, "occasion of repeated traits (default 1)");
+  walk->add_option("--blocks", walk_req.blocks, "blocks walked today, comma-separated (default every block)")->delimiter(',');
+  walk->add_flag("--every-trait-per-plot", walk_req.every_trait_per_plot, "record every walked trait on a plot before the next");
+
   std::string export_db, export_out;
   bool long_table = false, wide_table = false, layout_table = false;
   auto* exp = app.add_subcommand("export", "Write the layout or the data as CSV");
@@ -124,6 +132,8 @@ int main(int argc, char** argv) {
                     "benchmark: draw this many frames, print frame times, exit");
   field->add_option("--observer", field_options.observer, "who is measuring (else the saved setting)");
   field->add_option("--screenshot", field_options.screenshot, "draw, save this PNG and exit (for checks)");
+  field->add_option("--targets-out", field_options.targets_out,
+                    "for checks: write every tappable item's label and rectangle here after each frame");
   field->add_option("--size", field_size, "window size WIDTHxHEIGHT (default 1280x800)");
   std::string field_screen;
   field->add_option("--screen", field_screen, "screen to open: trials, record (default), map, check, leaving, station, settings or help")
@@ -174,6 +184,7 @@ int main(int argc, char** argv) {
     return 0;
   }
   if (record->parsed()) return furrow::run_record(rec);
+  if (walk->parsed()) return furrow::run_walk(walk_req);
   if (exp->parsed()) {
     if (!long_table && !wide_table && !layout_table) {
       std::cerr << "export: choose --long, --wide or --layout\n";

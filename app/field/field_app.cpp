@@ -5,27 +5,11 @@
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
-#include <filesystem>
 #include <iostream>
-#include <optional>
+#include <vector>
 
-#include "app/work/field_map.h"
-#include "app/work/record_session.h"
-#include "app/field/screens/check_screen.h"
-#include "app/field/screens/help_screen.h"
-#include "app/field/screens/leaving_screen.h"
-#include "app/field/screens/map_screen.h"
-#include "app/field/screens/record_screen.h"
-#include "app/field/screens/settings_screen.h"
-#include "app/field/screens/station_screen.h"
-#include "app/field/screens/trials_screen.h"
-#include "app/field/screens/widgets.h"
+#include "app/field/field_app_state.h"
 #include "app/field/settings.h"
-#include "app/work/station.h"
-#include "app/work/trial_analysis.h"
-#include "core/entry_checks.h"
-#include "storage/bundle.h"
-#include "storage/settle.h"
 #include "platform/app_window.h"
 #include "platform/data_folder.h"
 
@@ -35,413 +19,30 @@ namespace {
 using Clock = std::chrono::steady_clock;
 
 // While nothing happens the loop sleeps in the window system this long at a
-// time (battery: no frames are drawn without input).
-constexpr double kIdleWaitSeconds = 10.0;
+// time: short enough that a change made by another program (a merge, a
+// settlement) shows within a second, long enough to cost no battery.
+constexpr double kIdleWaitSeconds = 0.5;
 // Frames drawn without waiting after any input (see the main loop).
 constexpr int kFramesAfterInput = 3;
 // Frames drawn before a screenshot, so that fonts and layout have settled.
 constexpr int kScreenshotFrames = 3;
 
-enum class Screen { trials, record, map, check, leaving, station, settings, help };
-
-struct Tab {
-  const char* label;
-  Screen screen;
-  bool needs_trial;
-};
-constexpr Tab kTabs[] = {{"Trials", Screen::trials, false},       {"Record", Screen::record, true},
-                         {"Field map", Screen::map, true},        {"Check", Screen::check, true},
-                         {"Before leaving", Screen::leaving, true}, {"Station", Screen::station, false},
-                         {"Settings", Screen::settings, false},      {"Help", Screen::help, false}};
-
-Screen screen_named(const std::string& name) {
-  for (const auto& [key, s] : {std::pair{"trials", Screen::trials}, {"record", Screen::record}, {"map", Screen::map},
-                               {"check", Screen::check}, {"leaving", Screen::leaving}, {"station", Screen::station},
-                               {"settings", Screen::settings},
-                               {"help", Screen::help}})
-    if (name == key) return s;
-  return Screen::record;
+void write_targets(const std::string& path, const std::vector<TapTarget>& targets, std::string* last) {
+  std::string text;
+  char buf[96];
+  for (const TapTarget& t : targets) {
+    std::snprintf(buf, sizeof buf, "%.0f %.0f %.0f %.0f ", t.x0, t.y0, t.x1, t.y1);
+    text += buf + t.label + "\n";
+  }
+  if (text == *last) return;
+  *last = text;
+  const std::string tmp = path + ".tmp";
+  if (FILE* f = std::fopen(tmp.c_str(), "w")) {
+    std::fwrite(text.data(), 1, text.size(), f);
+    std::fclose(f);
+    std::rename(tmp.c_str(), path.c_str());
+  }
 }
-
-// Everything the app holds between frames. Derived views (the Before
-// leaving list, the map, the analysis) are kept until the log, the trait or
-// the colouring changes.
-class FieldApp {
- public:
-  FieldApp(const FieldAppOptions& o, Settings settings, std::string settings_path, std::string folder)
-      : options_(o), settings_(std::move(settings)), settings_path_(std::move(settings_path)),
-        folder_(std::move(folder)), theme_(make_theme(settings_.theme)) {}
-
-  // Opens a trial database; on failure the current trial stays open.
-  Status open_trial(const std::string& path) {
-    auto s = RecordSession::open(path, observer());
-    if (!s) return make_problem(path + ": " + s.problem().message);
-    session_.emplace(std::move(s).value());
-    session_->set_blind(settings_.blind_scoring);
-    trial_path_ = path;
-    record_ui_ = RecordScreenState{};
-    map_.reset();
-    analysis_.reset();
-    leaving_.reset();
-    return ok_status();
-  }
-
-  void set_screen(Screen s) {
-    screen_ = s;
-    if (s == Screen::trials) trials_.reset();
-    if (s == Screen::station) station_.reset();
-  }
-  // Work is under way that needs frames without waiting for input.
-  bool busy() const { return import_ && !import_->done(); }
-  bool has_trial() const { return session_.has_value(); }
-  const std::string& trial_name() const { return session_->trial().plan.name; }
-
-  // Draws one frame's screens; returns changed settings, if any.
-  std::optional<Settings> draw(float scale) {
-    const float top = draw_navigation(scale);
-    if (!session_ && kTabs[static_cast<int>(screen_)].needs_trial) screen_ = Screen::trials;
-    switch (screen_) {
-      case Screen::trials: draw_trials(scale, top); break;
-      case Screen::record:
-        for (const RecordCommand& c : draw_record_screen(session_->view(), theme_, scale, &record_ui_, top))
-          apply_record_command(c, *session_, &record_ui_);
-        break;
-      case Screen::map: draw_map(scale, top); break;
-      case Screen::check: draw_check(scale, top); break;
-      case Screen::leaving: {
-        const BeforeLeaving& list = before_leaving();
-        if (auto item = draw_leaving_screen(list, theme_, scale, top, &leaving_ui_))
-          open_plot(item->plot_index, item->trait_index, item->occasion);
-        break;
-      }
-      case Screen::help: draw_help_screen(theme_, scale, top); break;
-      case Screen::station: draw_station(scale, top); break;
-      case Screen::settings: return draw_settings_screen(settings_, theme_, scale, top, &settings_ui_);
-    }
-    return std::nullopt;
-  }
-
-  void apply_settings(const Settings& changed) {
-    settings_ = changed;
-    theme_ = make_theme(settings_.theme);
-    map_.reset();   // colours come from the theme
-    if (session_) {
-      session_->set_blind(settings_.blind_scoring);
-      if (!settings_.observer.empty()) session_->set_observer(settings_.observer);
-    }
-    leaving_.reset();   // alpha changes the outliers
-    analysis_.reset();
-    if (!settings_path_.empty())
-      if (auto s = save_settings(settings_path_, settings_); !s) std::cerr << s.problem().message << "\n";
-  }
-
-  const Theme& theme() const { return theme_; }
-  const Settings& settings() const { return settings_; }
-
- private:
-  std::string observer() const { return options_.observer.empty() ? settings_.observer : options_.observer; }
-
-  // The bar of screens; wraps to a second row in a narrow window. Returns
-  // where the screens start.
-  float draw_navigation(float scale) {
-    const ImGuiViewport* vp = ImGui::GetMainViewport();
-    const float h = kTouchTargetPx * scale * 1.25f;
-    ImGui::SetNextWindowPos(vp->WorkPos);
-    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, nav_height_ > 0 ? nav_height_ : h * 2));
-    ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme_.panel));
-    ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
-                                           ImGuiWindowFlags_NoSavedSettings);
-    nav_targets_.clear();
-    bool first = true;
-    for (const Tab& tab : kTabs) {
-      const float w = button_width(tab.label, scale);
-      if (!first) flow_next(w);
-      first = false;
-      const bool current = screen_ == tab.screen;
-      const bool usable = session_ || !tab.needs_trial;
-      const ButtonLook look{current ? theme_.accent : theme_.background,
-                            current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
-      if (solid_button(tab.label, ImVec2(w, h), look, &nav_targets_) && usable) {
-        set_screen(tab.screen);
-        leaving_.reset();   // opened afresh each time
-      }
-    }
-    const float used = ImGui::GetCursorPosY() + ImGui::GetStyle().WindowPadding.y - ImGui::GetStyle().ItemSpacing.y;
-    ImGui::End();
-    ImGui::PopStyleColor();
-    nav_height_ = used;
-    return used;
-  }
-
-  std::string bundle_folder() const { return folder_ + "/bundles"; }
-  std::string export_folder() const { return folder_ + "/exports"; }
-
-  void draw_station(float scale, float top) {
-    if (import_) {
-      if (!import_->done()) {
-        import_->step();   // one bundle per frame: the progress bar moves
-      } else if (!import_reported_) {
-        import_reported_ = true;
-        station_.reset();
-        if (session_) {
-          (void)session_->refresh();
-          map_.reset();
-          analysis_.reset();
-          leaving_.reset();
-        }
-        int merged = 0;
-        for (const auto& o : import_->outcomes()) merged += o.merged;
-        station_ui_.message = "Imported " + std::to_string(merged) + " of " + std::to_string(import_->total()) +
-                              " bundles from " + bundle_folder();
-        station_ui_.message_is_problem = merged < static_cast<int>(import_->total());
-      }
-    }
-    if (!station_) {
-      station_.emplace();
-      station_->bundle_folder = bundle_folder();
-      station_->export_folder = export_folder();
-      station_->trials = list_trials(folder_);
-      station_->trial = session_ ? &session_->trial() : nullptr;
-      if (session_) {
-        auto open = open_trial_database(trial_path_);
-        if (open) {
-          auto c = list_conflicts(open->db, open->trial);
-          if (c) station_->conflicts = std::move(c).value();
-        }
-      }
-    }
-    station_->importing = busy();
-    if (import_) {
-      station_->imported = import_->finished();
-      station_->to_import = import_->total();
-      station_->importing_file = import_->current_file();
-      station_->outcomes = import_->outcomes();
-    }
-    const auto action = draw_station_screen(*station_, theme_, scale, top, &station_ui_);
-    if (!action) return;
-    const auto report = [&](const Result<std::string>& r, const std::string& what) {
-      station_ui_.message = r ? what + " " + *r : r.problem().message;
-      station_ui_.message_is_problem = !r;
-    };
-    switch (action->kind) {
-      case StationAction::Kind::import_bundles:
-        std::filesystem::create_directories(bundle_folder());
-        import_.emplace(bundle_folder(), folder_,
-                        trial_path_.empty() ? std::vector<std::string>{} : std::vector<std::string>{trial_path_});
-        import_reported_ = false;
-        station_ui_.message.clear();
-        break;
-      case StationAction::Kind::write_bundle: report(write_device_bundle(trial_path_, bundle_folder()), "Bundle written:"); break;
-      case StationAction::Kind::export_data:
-        report(export_clean_data(trial_path_, export_folder()), "Data written:");
-        if (!station_ui_.message_is_problem && !station_->conflicts.empty())
-          station_ui_.message += " (" + std::to_string(station_->conflicts.size()) +
-                                 " conflicts not settled yet are marked in it: settle them and export again)";
-        break;
-      case StationAction::Kind::export_report: report(export_report(trial_path_, export_folder()), "Report written:"); break;
-      case StationAction::Kind::keep:
-      case StationAction::Kind::new_value:
-      case StationAction::Kind::mark_missing: settle(*action); break;
-    }
-  }
-
-  void settle(const StationAction& a) {
-    const ConflictCell& cell = station_->conflicts.at(a.conflict);
-    Settlement s;
-    s.by = observer();
-    if (a.kind == StationAction::Kind::keep) {
-      s.kind = Settlement::Kind::keep;
-      s.keep = cell.rows.at(a.row).key;
-    } else if (a.kind == StationAction::Kind::new_value) {
-      auto parsed = parse_acceptable_value(session_->trial().plan.traits[cell.trait_index], a.text);
-      if (!parsed) {
-        station_ui_.message = parsed.problem().message;
-        station_ui_.message_is_problem = true;
-        return;
-      }
-      s.kind = Settlement::Kind::new_value;
-      s.value = parsed->text;
-      s.number = parsed->number;
-    } else {
-      s.kind = Settlement::Kind::missing;
-      s.missing_reason = a.text;
-    }
-    auto open = open_trial_database(trial_path_);
-    auto key = open ? settle_conflict(open->db, open->trial, cell, s) : Result<ObservationKey>(open.problem());
-    if (!key) {
-      station_ui_.message = key.problem().message;
-      station_ui_.message_is_problem = true;
-    } else {
-      station_ui_.message = "Settled plot " + session_->trial().layout.plots[cell.plot_index].label + " (saved as record " +
-                            key->device_id + "/" + std::to_string(key->sequence) + " by " + s.by + ")";
-      station_ui_.message_is_problem = false;
-      station_ui_.editing = -1;
-      (void)session_->refresh();
-      map_.reset();
-      analysis_.reset();
-      leaving_.reset();
-    }
-    station_.reset();
-  }
-
-  void draw_trials(float scale, float top) {
-    if (!trials_) {
-      trials_.emplace();
-      trials_->folder = folder_;
-      trials_->trials = list_trials(folder_);
-      if (!trial_path_.empty() && std::none_of(trials_->trials.begin(), trials_->trials.end(),
-                                               [&](const TrialSummary& s) { return s.path == trial_path_; }))
-        trials_->trials.insert(trials_->trials.begin(), summarise_trial(trial_path_));
-      trials_->plan_files = list_plan_files(folder_);
-      trials_->demo_available = !options_.demo_db.empty() && std::filesystem::exists(options_.demo_db);
-    }
-    trials_->current = trial_path_;
-    const auto action = draw_trials_screen(*trials_, theme_, scale, top, &trials_ui_);
-    if (!action) return;
-    std::string path = action->path;
-    if (action->kind == TrialsAction::Kind::open_demo) path = options_.demo_db;
-    if (action->kind == TrialsAction::Kind::create_from_plan) {
-      const std::string db = trial_path_for_plan(path, folder_);
-      // A station's trial file becomes this device's own copy; a plan file a new trial.
-      auto made = std::filesystem::path(path).extension() == ".furrow"
-                      ? [&]() -> Result<std::string> {
-                          if (auto s = copy_trial_for_device(path, db); !s) return s.problem();
-                          return std::string("this device's copy of the station's trial");
-                        }()
-                      : create_trial_from_plan(path, db);
-      if (!made) {
-        trials_ui_.message = made.problem().message;
-        trials_ui_.message_is_problem = true;
-        return;
-      }
-      trials_ui_.message = "Created " + db + ": " + *made;
-      trials_ui_.message_is_problem = false;
-      path = db;
-    }
-    if (auto s = open_trial(path); !s) {
-      trials_ui_.message = s.problem().message;
-      trials_ui_.message_is_problem = true;
-      trials_.reset();
-      return;
-    }
-    if (action->kind == TrialsAction::Kind::open) trials_ui_.message.clear();
-    trials_.reset();
-    screen_ = Screen::record;
-  }
-
-  const BeforeLeaving& before_leaving() {
-    if (!leaving_ || leaving_revision_ != session_->revision()) {
-      leaving_ = session_->before_leaving(settings_.alpha);
-      leaving_revision_ = session_->revision();
-    }
-    return *leaving_;
-  }
-
-  std::string trait_title() const {
-    const Trait& tr = session_->trial().plan.traits[session_->trait_index()];
-    std::string s = tr.name + (tr.unit.empty() ? "" : " (" + tr.unit + ")");
-    if (tr.occasions > 1) s += ", occasion " + std::to_string(session_->occasion());
-    return s;
-  }
-
-  // The analysis of the session's trait and occasion, kept until they or the log change.
-  const Result<Analysis>& analysis() {
-    const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0};
-    if (!analysis_ || !(analysis_key_ == key)) {
-      AnalysisOptions options;
-      options.alpha = settings_.alpha;
-      analysis_.emplace(analyse_trial_trait(session_->trial(), session_->live(), key.trait, key.occasion, options));
-      analysis_key_ = key;
-    }
-    return *analysis_;
-  }
-
-  void step_trait(int delta) {
-    const size_t n = session_->trial().plan.traits.size();
-    session_->set_trait((session_->trait_index() + n + delta) % n);
-  }
-
-  void draw_map(float scale, float top) {
-    const Key key{session_->trait_index(), session_->occasion(), session_->revision(),
-                  static_cast<int>(map_ui_.colouring)};
-    if (!map_ || !(map_key_ == key)) {
-      const Result<Analysis>* a = map_ui_.colouring == MapColouring::residual ? &analysis() : nullptr;
-      map_ = build_field_map(session_->trial(), session_->live(), key.trait, key.occasion, map_ui_.colouring, theme_,
-                             map_ui_.colouring == MapColouring::status ? &before_leaving() : nullptr,
-                             a && *a ? &**a : nullptr);
-      map_key_ = key;
-      labels_.clear();
-      for (const PlannedPlot& p : session_->trial().layout.plots) labels_.push_back(p.label);
-    }
-    const auto action = draw_map_screen(*map_, labels_, trait_title(), theme_, scale, top, &map_ui_);
-    if (!action) return;
-    switch (action->kind) {
-      case MapAction::Kind::open_plot:
-        open_plot(action->plot_index, session_->trait_index(), session_->occasion());
-        break;
-      case MapAction::Kind::next_trait: step_trait(1); break;
-      case MapAction::Kind::previous_trait: step_trait(-1); break;
-      case MapAction::Kind::colouring_changed: map_.reset(); break;
-    }
-  }
-
-  void draw_check(float scale, float top) {
-    const Result<Analysis>& a = analysis();
-    const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
-                                          trait_title(), theme_, scale, top, &check_ui_);
-    if (!action) return;
-    switch (action->kind) {
-      case CheckAction::Kind::open_plot:
-        open_plot(action->plot_index, session_->trait_index(), session_->occasion());
-        break;
-      case CheckAction::Kind::next_trait: step_trait(1); break;
-      case CheckAction::Kind::previous_trait: step_trait(-1); break;
-    }
-  }
-
-  void open_plot(size_t plot_index, size_t trait_index, int occasion) {
-    session_->set_trait(trait_index);
-    (void)session_->set_occasion(occasion);
-    (void)session_->jump_to(session_->trial().layout.plots[plot_index].label);
-    screen_ = Screen::record;
-  }
-
-  struct Key {
-    size_t trait = 0;
-    int occasion = 0;
-    std::uint64_t revision = 0;
-    int colouring = 0;
-    bool operator==(const Key&) const = default;
-  };
-
-  const FieldAppOptions& options_;
-  Settings settings_;
-  std::string settings_path_, folder_;
-  Theme theme_;
-  Screen screen_ = Screen::record;
-  std::optional<RecordSession> session_;
-  std::string trial_path_;
-  float nav_height_ = 0;
-  std::vector<TapTarget> nav_targets_;
-  RecordScreenState record_ui_;
-  SettingsScreenState settings_ui_;
-  LeavingScreenState leaving_ui_;
-  MapScreenState map_ui_;
-  CheckScreenState check_ui_;
-  TrialsScreenState trials_ui_;
-  std::optional<TrialsView> trials_;
-  StationScreenState station_ui_;
-  std::optional<StationView> station_;
-  std::optional<StationImport> import_;
-  bool import_reported_ = false;
-  std::optional<BeforeLeaving> leaving_;
-  std::uint64_t leaving_revision_ = 0;
-  std::optional<FieldMap> map_;
-  Key map_key_;
-  std::vector<std::string> labels_;
-  std::optional<Result<Analysis>> analysis_;
-  Key analysis_key_;
-};
 
 void print_frame_times(std::vector<double> ms, double first_frame_ms) {
   std::sort(ms.begin(), ms.end());
@@ -466,7 +67,8 @@ int run_field_app(const FieldAppOptions& o) {
     std::cerr << f.problem().message << "\n";
   }
   if (settings.observer.empty()) settings.observer = o.observer;
-  FieldApp app(o, settings, settings_path, folder);
+  const auto state = FieldAppState::create(o, settings, settings_path, folder);
+  FieldAppState& app = *state;
   app.set_screen(screen_named(o.start_screen));
   if (!o.db.empty()) {
     if (auto s = app.open_trial(o.db); !s) {
@@ -482,6 +84,7 @@ int run_field_app(const FieldAppOptions& o) {
     std::cerr << window.problem().message << "\n";
     return 1;
   }
+  std::string last_targets;
   int frames = 0, eager_frames = 0;
   const bool waits = o.screenshot.empty() && o.bench_frames == 0;
   std::vector<double> frame_ms;
@@ -508,6 +111,7 @@ int run_field_app(const FieldAppOptions& o) {
       if (rescale) (*window)->set_ui_scale(static_cast<float>(changed->ui_scale));
     }
     if (app.has_trial()) (*window)->set_title("Furrow - " + app.trial_name());
+    if (!o.targets_out.empty()) write_targets(o.targets_out, app.targets(), &last_targets);
     ++frames;
     const auto now = Clock::now();
     if (frames == 1) first_frame_ms = std::chrono::duration<double, std::milli>(now - started).count();

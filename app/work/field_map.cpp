@@ -68,7 +68,7 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
     if (x.value) {
       values[it->second].insert(*x.value);
       numbers[it->second] = x.number;
-    } else if (x.missing_reason && *x.missing_reason != "withdrawn") {
+    } else if (x.missing_reason && *x.missing_reason != kWithdrawnReason) {
       values[it->second].insert("missing: " + *x.missing_reason);
       reasoned[it->second] = 1;
     }
@@ -77,7 +77,7 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
   if (leaving)
     for (const LeavingItem& item : leaving->items)
       if (item.trait_index == trait_index && item.occasion == occasion &&
-          (item.kind == LeavingItem::Kind::flagged || item.kind == LeavingItem::Kind::outlier))
+          (item.has(LeavingItem::Kind::flagged) || item.has(LeavingItem::Kind::outlier)))
         to_check[item.plot_index] = 1;
   std::vector<std::optional<double>> residuals(t.layout.plots.size());
   if (analysis)

@@ -1,6 +1,8 @@
 #include "app/work/record_session.h"
 
 #include <algorithm>
+#include <cassert>
+#include <map>
 #include <cstdio>
 #include <set>
 #include <tuple>
@@ -18,15 +20,39 @@ Result<RecordSession> RecordSession::open(const std::string& db_path, const std:
   RecordSession s(std::move(open).value());
   s.observer_ = observer;
   if (auto r = s.reload(); !r) return r.problem();
+  auto choice = load_walk_choice(s.open_.db);
+  if (!choice) return choice.problem();
+  s.walk_ = Walk(s.open_.trial, *choice);
+  s.go_to_first_open();
   return s;
 }
 
+namespace {
+Result<std::int64_t> data_version(Database& db) {
+  auto v = db.prepare("PRAGMA data_version");
+  if (!v) return v.problem();
+  if (!v->step()) return make_problem(v->error());
+  return v->integer(0);
+}
+}  // namespace
+
 Status RecordSession::reload() {
+  auto version = data_version(open_.db);
+  if (!version) return version.problem();
   auto live = live_observations(open_.db, 0);
   if (!live) return live.problem();
   live_ = std::move(live).value();
+  data_version_ = *version;
   ++revision_;
   return ok_status();
+}
+
+Result<bool> RecordSession::refresh_if_changed() {
+  auto version = data_version(open_.db);
+  if (!version) return version.problem();
+  if (*version == data_version_) return false;
+  if (auto s = reload(); !s) return s.problem();
+  return true;
 }
 
 std::vector<ObservationKey> RecordSession::own_live_keys(std::int64_t plot_id, std::int64_t trait_id, int occasion) const {
@@ -37,7 +63,7 @@ std::vector<ObservationKey> RecordSession::own_live_keys(std::int64_t plot_id, s
   return keys;
 }
 
-Result<ObservationKey> RecordSession::save(NewObservation o) {
+Result<ObservationKey> RecordSession::save_row(NewObservation o) {
   o.observer = observer_;
   const std::string recorded_at = utc_now();
   ObservationWriter writer(open_.db);
@@ -53,7 +79,7 @@ Result<ObservationKey> RecordSession::save(NewObservation o) {
                              }),
               live_.end());
   live_.push_back({*key, o.plot_id, o.trait_id, o.occasion, o.value, o.number, o.missing_reason, o.note, o.observer,
-                   recorded_at});
+                   recorded_at, o.confirmed_checks});
   ++revision_;
   return key;
 }
@@ -70,6 +96,33 @@ std::optional<LiveObservation> own_live(const std::vector<LiveObservation>& live
 
 void RecordSession::remember(std::int64_t plot_id, std::int64_t trait_id, int occasion) {
   undo_.push_back({plot_id, trait_id, occasion, own_live(live_, open_.trial.device_id, plot_id, trait_id, occasion)});
+}
+
+
+bool RecordSession::cell_recorded(size_t plot, size_t trait, int occasion) const {
+  const StoredTrial& t = open_.trial;
+  for (const auto& x : live_)
+    if (x.plot_id == t.plot_ids[plot] && x.trait_id == t.trait_ids[trait] && x.occasion == occasion &&
+        (x.value || (x.missing_reason && *x.missing_reason != kWithdrawnReason)))
+      return true;
+  return false;
+}
+
+void RecordSession::go_to(const WalkCell& c) {
+  plot_ = c.plot;
+  trait_ = c.trait;
+  occasion_ = c.occasion;
+}
+
+void RecordSession::go_to_first_open() {
+  for (size_t k = 0; k < walk_.size(); ++k) {
+    const WalkCell c = walk_.at(k);
+    if (!cell_recorded(c.plot, c.trait, c.occasion)) {
+      go_to(c);
+      return;
+    }
+  }
+  if (walk_.size() > 0) go_to(walk_.at(0));
 }
 
 RecordView RecordSession::view() const {
@@ -98,63 +151,156 @@ RecordView RecordSession::view() const {
     v.limits = "usually " + (tr.soft_min ? num(*tr.soft_min) : std::string("")) + " to " +
                (tr.soft_max ? num(*tr.soft_max) : std::string(""));
   v.occasion = occasion_;
+  v.occasions = tr.occasions;
   std::set<std::string> values;
   for (const auto& x : live_)
-    if (x.plot_id == t.plot_ids[plot_] && x.trait_id == t.trait_ids[trait_] && x.occasion == occasion_)
+    if (x.plot_id == t.plot_ids[plot_] && x.trait_id == t.trait_ids[trait_] && x.occasion == occasion_) {
       values.insert(x.value ? *x.value : "missing: " + x.missing_reason.value_or(""));
+      if (!x.note.empty()) v.note = x.note;
+    }
   if (values.size() == 1) v.current = *values.begin();
   else if (values.size() > 1) v.current = "CONFLICT";
-  v.position = static_cast<int>(plot_) + 1;
-  v.plots = static_cast<int>(t.layout.plots.size());
-  // Counted once per change of the log, not once per drawn frame.
-  if (!progress_ || progress_->first != revision_) progress_.emplace(revision_, trial_progress(t, live_));
-  v.cells_done = progress_->second.cells_done;
-  v.cells_required = progress_->second.cells_required;
+  v.typed = typed_;
   v.has_pending = pending_.has_value();
+  v.suggestion = pending_ ? pending_->suggestion : "";
+  v.notice = notice_;
+  // The walk's progress, counted once per change of the log or the walk.
+  if (!progress_ || progress_->first != revision_) progress_.emplace(revision_, walk_progress());
+  const WalkProgress& w = progress_->second;
+  v.in_walk = walk_.contains(plot_, trait_, occasion_);
+  v.walk_plots = static_cast<int>(walk_.plots().size());
+  const auto& wp = walk_.plots();
+  const auto at = std::lower_bound(wp.begin(), wp.end(), plot_);
+  v.walk_position = static_cast<int>(at - wp.begin()) + (at != wp.end() && *at == plot_ ? 1 : 0);
+  v.trait_total = walk_.has_trait(trait_) ? static_cast<int>(wp.size()) : 0;
+  v.trait_done = walk_.has_trait(trait_) ? w.done_per_trait[trait_] : 0;
+  v.walk_done = w.done;
+  v.walk_total = static_cast<int>(walk_.size());
+  v.walk_complete = v.walk_done == v.walk_total;
+  v.walk_summary = walk_.describe(t);
   return v;
 }
 
-BeforeLeaving RecordSession::before_leaving(double alpha) const {
-  return furrow::before_leaving(open_.trial, live_, alpha);
+RecordSession::WalkProgress RecordSession::walk_progress() const {
+  const StoredTrial& t = open_.trial;
+  WalkProgress w;
+  w.done_per_trait.assign(t.plan.traits.size(), 0);
+  std::map<std::int64_t, size_t> plot_of, trait_of;
+  for (size_t i = 0; i < t.plot_ids.size(); ++i) plot_of[t.plot_ids[i]] = i;
+  for (size_t k = 0; k < t.trait_ids.size(); ++k) trait_of[t.trait_ids[k]] = k;
+  std::set<std::tuple<size_t, size_t, int>> counted;
+  for (const auto& x : live_) {
+    if (!x.value && !(x.missing_reason && *x.missing_reason != kWithdrawnReason)) continue;
+    const size_t p = plot_of.at(x.plot_id), k = trait_of.at(x.trait_id);
+    if (!walk_.contains(p, k, x.occasion) || !counted.insert({p, k, x.occasion}).second) continue;
+    ++w.done;
+    ++w.done_per_trait[k];
+  }
+  return w;
 }
 
-EntryOutcome RecordSession::enter(const std::string& text) {
+BeforeLeaving RecordSession::before_leaving(double alpha) const {
+  return furrow::before_leaving(open_.trial, live_, alpha, walk_);
+}
+
+// --- The value being entered (E1-E4) ---------------------------------------
+
+void RecordSession::type(const std::string& keys) {
+  typed_ += keys;
+  pending_.reset();   // E2: the text asked about is no longer on screen
+  notice_.clear();
+}
+
+void RecordSession::erase() {
+  if (!typed_.empty()) {
+    // One character back, whole UTF-8 sequences at a time.
+    size_t n = typed_.size() - 1;
+    while (n > 0 && (static_cast<unsigned char>(typed_[n]) & 0xC0) == 0x80) --n;
+    typed_.erase(n);
+  }
+  pending_.reset();   // E2
+  notice_.clear();
+}
+
+void RecordSession::drop_entry() {
+  if (!typed_.empty())
+    notice_ = typed_ + " typed on plot " + open_.trial.layout.plots[plot_].label + " was not saved";
+  typed_.clear();
   pending_.reset();
-  const StoredTrial& t = open_.trial;
-  const EntryContext ctx = entry_context_for(t, live_, plot_, trait_, occasion_);
-  EntryOutcome out;
-  out.findings = check_entry(t.plan.traits[trait_], text, ctx);
-  const auto w = worst(out.findings);
-  if (w == Severity::refuse) {
-    out.kind = EntryOutcome::Kind::refused;
-    out.message = out.findings.front().message;
-    return out;
-  }
-  if (w == Severity::confirm) {
-    pending_ = text;
-    out.kind = EntryOutcome::Kind::needs_confirmation;
-    out.message = out.findings.front().message;
-    return out;
-  }
-  auto confirmed = confirm_value(text);
-  confirmed.findings = out.findings;
-  return confirmed;
+  note_.clear();
+}
+
+void RecordSession::leave_cell() { drop_entry(); }
+
+namespace {
+// The banner's words: what happened, then every finding in order.
+std::string with_findings(std::string head, const std::vector<Finding>& findings) {
+  for (const Finding& f : findings) head += (head.empty() ? "" : "\n") + f.message;
+  return head;
+}
+}  // namespace
+
+EntryOutcome RecordSession::save() { return check_and_save(false); }
+
+EntryOutcome RecordSession::enter(const std::string& text) {
+  typed_ = text;
+  pending_.reset();
+  notice_.clear();
+  return check_and_save(false);
 }
 
 EntryOutcome RecordSession::confirm() {
   EntryOutcome out;
-  if (!pending_) {
+  // E2: Confirm answers the question about exactly the text on screen.
+  if (!pending_ || pending_->text != typed_) {
+    pending_.reset();
     out.message = "there is no value waiting for confirmation";
     return out;
   }
-  const std::string text = *pending_;
-  pending_.reset();
-  return confirm_value(text);
+  return check_and_save(true);
 }
 
-EntryOutcome RecordSession::confirm_value(const std::string& text) {
+EntryOutcome RecordSession::save_suggestion() {
   EntryOutcome out;
+  if (!pending_ || pending_->text != typed_ || pending_->suggestion.empty()) {
+    out.message = "there is no suggested value to save";
+    return out;
+  }
+  typed_ = pending_->suggestion;   // E4: on screen, then checked like any entry
+  pending_.reset();
+  return check_and_save(false);
+}
+
+EntryOutcome RecordSession::check_and_save(bool confirmed) {
+  EntryOutcome out;
+  notice_.clear();
+  const std::string text = typed_;
+  if (text.empty()) {
+    out.message = "type a value first";
+    return out;
+  }
   const StoredTrial& t = open_.trial;
+  const EntryContext ctx = entry_context_for(t, live_, plot_, trait_, occasion_);
+  out.findings = check_entry(t.plan.traits[trait_], text, ctx);
+  const auto w = worst(out.findings);
+  if (w == Severity::refuse) {
+    pending_.reset();
+    out.kind = EntryOutcome::Kind::refused;
+    out.message = with_findings("not saved:", out.findings);
+    return out;
+  }
+  if (w == Severity::confirm && !confirmed) {
+    Pending p{text, {}};
+    for (const Finding& f : out.findings)
+      if (!f.suggestion.empty() && f.suggestion != text) {
+        p.suggestion = f.suggestion;
+        break;
+      }
+    pending_ = p;
+    out.kind = EntryOutcome::Kind::needs_confirmation;
+    out.message = with_findings("check " + text + " before it is saved:", out.findings);
+    return out;
+  }
   const auto parsed = parse_trait_value(t.plan.traits[trait_], text);
   if (!parsed) {
     out.message = parsed.problem().message;
@@ -166,46 +312,62 @@ EntryOutcome RecordSession::confirm_value(const std::string& text) {
   o.occasion = occasion_;
   o.value = parsed->text;
   o.number = parsed->number;
-  o.note = std::exchange(note_, {});
+  o.note = note_;
+  if (confirmed)
+    for (const Finding& f : out.findings)
+      if (f.severity == Severity::confirm && !has_check(o.confirmed_checks, f.check))
+        o.confirmed_checks += (o.confirmed_checks.empty() ? "" : ",") + f.check;
   o.replaces = own_live_keys(o.plot_id, o.trait_id, o.occasion);
   remember(o.plot_id, o.trait_id, o.occasion);
-  auto key = save(o);
+  auto key = save_row(o);
   if (!key) {
     undo_.pop_back();
-    out.message = "not saved: " + key.problem().message;
+    pending_.reset();
+    out.message = "NOT SAVED: " + key.problem().message;
     return out;
   }
   out.kind = EntryOutcome::Kind::saved;
-  out.message = "saved " + t.layout.plots[plot_].label + " " + t.plan.traits[trait_].code + " = " + parsed->text;
-  next();
+  std::vector<Finding> notes;
+  for (const Finding& f : out.findings)
+    if (f.severity == Severity::note) notes.push_back(f);
+  out.message = with_findings("saved " + t.layout.plots[plot_].label + " " + t.plan.traits[trait_].code + " = " +
+                                  parsed->text + (o.confirmed_checks.empty() ? "" : " (confirmed)"),
+                              notes);
+  typed_.clear();
+  pending_.reset();
+  note_.clear();
+  advance();
   return out;
 }
+
+// --- Other commands -----------------------------------------------------------
 
 Status RecordSession::skip(const std::string& reason, const std::string& note) {
   if (std::find(kSkipReasons.begin(), kSkipReasons.end(), reason) == kSkipReasons.end())
     return make_problem("'" + reason + "' is not one of the skip reasons");
-  if (reason == "other" && note.empty()) return make_problem("say why in a note when the reason is 'other'");
+  if (reason == "other" && note.empty() && note_.empty()) return make_problem("say why in a note when the reason is 'other'");
   return record_missing(reason, note);
 }
 
 Status RecordSession::record_missing(const std::string& reason, const std::string& note) {
   if (reason.empty()) return make_problem("give the reason there is no value");
-  pending_.reset();
   const StoredTrial& t = open_.trial;
   NewObservation o;
   o.plot_id = t.plot_ids[plot_];
   o.trait_id = t.trait_ids[trait_];
   o.occasion = occasion_;
   o.missing_reason = reason;
-  o.note = note.empty() ? std::exchange(note_, {}) : note;
+  o.note = note.empty() ? note_ : note;
   o.replaces = own_live_keys(o.plot_id, o.trait_id, o.occasion);
   remember(o.plot_id, o.trait_id, o.occasion);
-  auto key = save(o);
+  auto key = save_row(o);
   if (!key) {
     undo_.pop_back();
     return key.problem();
   }
-  next();
+  drop_entry();   // E1: a typed value is not what was saved
+  note_.clear();
+  advance();
   return ok_status();
 }
 
@@ -223,16 +385,58 @@ Status RecordSession::add_note(const std::string& note) {
     o.number = x.number;
     o.missing_reason = x.missing_reason;
     o.note = note;
+    o.confirmed_checks = x.confirmed_checks;
     o.replaces = {x.key};
-    auto key = save(o);
+    auto key = save_row(o);
     if (!key) return key.problem();
     return ok_status();
   }
-  return make_problem("enter a value or skip the plot before adding a note");
+  note_ = note;   // saved with the cell's next value or skip
+  return ok_status();
+}
+
+Status RecordSession::confirm_saved(const std::string& check) {
+  const StoredTrial& t = open_.trial;
+  std::optional<LiveObservation> row;
+  int rows = 0;
+  for (const auto& x : live_)
+    if (x.plot_id == t.plot_ids[plot_] && x.trait_id == t.trait_ids[trait_] && x.occasion == occasion_) {
+      row = x;
+      ++rows;
+    }
+  if (rows != 1 || !row->value) return make_problem("this plot has no single saved value to confirm");
+  // The question answered is the outlier's and every entry check's that
+  // still asks about this value.
+  std::string checks = row->confirmed_checks;
+  const auto add_check = [&](const std::string& key) {
+    if (!has_check(checks, key)) checks += (checks.empty() ? "" : ",") + key;
+  };
+  add_check(check);
+  for (const Finding& f : check_entry(t.plan.traits[trait_], *row->value,
+                                      TraitEntryContext(t, live_, trait_, occasion_).for_saved_value(plot_)))
+    if (f.severity == Severity::confirm) add_check(f.check);
+  if (checks == row->confirmed_checks) return ok_status();
+  drop_entry();
+  NewObservation o;
+  o.plot_id = row->plot_id;
+  o.trait_id = row->trait_id;
+  o.occasion = row->occasion;
+  o.value = row->value;
+  o.number = row->number;
+  o.note = row->note;
+  o.confirmed_checks = checks;
+  o.replaces = {row->key};
+  remember(o.plot_id, o.trait_id, o.occasion);
+  auto key = save_row(o);
+  if (!key) {
+    undo_.pop_back();
+    return key.problem();
+  }
+  return ok_status();
 }
 
 Status RecordSession::undo() {
-  pending_.reset();
+  leave_cell();
   if (undo_.empty()) return make_problem("nothing to undo in this session");
   const UndoStep step = undo_.back();
   const StoredTrial& t = open_.trial;
@@ -246,10 +450,11 @@ Status RecordSession::undo() {
     o.number = step.before->number;
     o.missing_reason = step.before->missing_reason;
     o.note = step.before->note;
+    o.confirmed_checks = step.before->confirmed_checks;
   } else {
-    o.missing_reason = "withdrawn";
+    o.missing_reason = kWithdrawnReason;
   }
-  auto key = save(o);
+  auto key = save_row(o);
   if (!key) return key.problem();
   undo_.pop_back();
   for (size_t i = 0; i < t.plot_ids.size(); ++i)
@@ -260,25 +465,18 @@ Status RecordSession::undo() {
   return ok_status();
 }
 
+void RecordSession::advance() {
+  if (auto c = walk_.after({plot_, trait_, occasion_}, open_.trial.layout.plots.size())) go_to(*c);
+}
+
 void RecordSession::next() {
-  const size_t plots = open_.trial.layout.plots.size();
-  if (walk_ == WalkMode::all_traits_per_plot && trait_ + 1 < open_.trial.plan.traits.size()) {
-    ++trait_;
-    return;
-  }
-  if (walk_ == WalkMode::all_traits_per_plot) trait_ = 0;
-  if (plot_ + 1 < plots) ++plot_;
+  leave_cell();
+  advance();
 }
 
 void RecordSession::previous() {
-  if (walk_ == WalkMode::all_traits_per_plot && trait_ > 0) {
-    --trait_;
-    return;
-  }
-  if (plot_ > 0) {
-    --plot_;
-    if (walk_ == WalkMode::all_traits_per_plot) trait_ = open_.trial.plan.traits.size() - 1;
-  }
+  leave_cell();
+  if (auto c = walk_.before({plot_, trait_, occasion_})) go_to(*c);
 }
 
 Status RecordSession::jump_to(const std::string& label) {
@@ -288,8 +486,8 @@ Status RecordSession::jump_to(const std::string& label) {
   const auto& plots = open_.trial.layout.plots;
   for (size_t i = 0; i < plots.size(); ++i)
     if (plots[i].label == l) {
+      leave_cell();
       plot_ = i;
-      pending_.reset();
       return ok_status();
     }
   return make_problem("plot '" + l + "' is not in the plan of this trial");
@@ -308,18 +506,39 @@ Status RecordSession::set_trait(const std::string& code) {
 Status RecordSession::set_occasion(int occasion) {
   const Trait& trait = open_.trial.plan.traits[trait_];
   if (occasion < 1 || occasion > trait.occasions)
-    return make_problem(trait.code + " has " + std::to_string(trait.occasions) + " occasion(s); " +
-                        std::to_string(occasion) + " is not one of them");
+    return make_problem(trait.code + " has " + std::to_string(trait.occasions) +
+                        (trait.occasions == 1 ? " occasion; " : " occasions; ") + std::to_string(occasion) +
+                        " is not one of them");
+  if (occasion != occasion_) leave_cell();
   occasion_ = occasion;
-  pending_.reset();
   return ok_status();
 }
 
 void RecordSession::set_trait(size_t index) {
   assert(index < open_.trial.plan.traits.size());
+  if (index != trait_) leave_cell();
   trait_ = index;
-  occasion_ = 1;
-  pending_.reset();
+  occasion_ = walk_.has_trait(index) ? walk_.occasion_for(index) : 1;
+}
+
+Status RecordSession::set_walk(const WalkChoice& choice) {
+  Walk w(open_.trial, choice);
+  bool named = false;
+  for (const std::string& code : choice.trait_codes)
+    for (const Trait& tr : open_.trial.plan.traits) named = named || tr.code == code;
+  if (!named) return make_problem("choose at least one trait of this trial for the walk");
+  if (auto s = save_walk_choice(open_.db, w.choice(open_.trial)); !s) return s.problem();
+  leave_cell();
+  walk_ = std::move(w);
+  progress_.reset();
+  go_to_first_open();
+  return ok_status();
+}
+
+void RecordSession::set_every_trait_per_plot(bool on) {
+  WalkChoice c = walk_.choice(open_.trial);
+  c.every_trait_per_plot = on;
+  (void)set_walk(c);
 }
 
 }  // namespace furrow

@@ -141,7 +141,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
       for (const auto& x : *live) {
         if (x.trait_id != t.trait_ids[k] || x.occasion != occ) continue;
         if (x.value) values.insert(x.plot_id);
-        else if (x.missing_reason && *x.missing_reason != "withdrawn") reasons.insert(x.plot_id);
+        else if (x.missing_reason && *x.missing_reason != kWithdrawnReason) reasons.insert(x.plot_id);
       }
       std::set<std::int64_t> done = values;
       done.insert(reasons.begin(), reasons.end());

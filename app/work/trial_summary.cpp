@@ -18,7 +18,7 @@ TrialProgress trial_progress(const StoredTrial& t, const std::vector<LiveObserva
   p.last_change = t.created_at;
   std::set<std::tuple<std::int64_t, std::int64_t, int>> done;
   for (const auto& x : live) {
-    if (x.value || (x.missing_reason && *x.missing_reason != "withdrawn")) done.insert({x.plot_id, x.trait_id, x.occasion});
+    if (x.value || (x.missing_reason && *x.missing_reason != kWithdrawnReason)) done.insert({x.plot_id, x.trait_id, x.occasion});
     p.last_change = std::max(p.last_change, x.recorded_at);
   }
   std::set<std::int64_t> required;

@@ -124,32 +124,30 @@ if os.path.exists(copy):
 bundles = os.listdir(os.path.join(tablet, "bundles")) if os.path.isdir(os.path.join(tablet, "bundles")) else []
 check(len(bundles) == 1 and bundles[0].endswith(".bundle"), f"Write this device's bundle wrote one bundle ({bundles})")
 
-# A crew member with a barcode scanner on the demo day: tap the Go to plot
-# field, the scanner types stake label 307 and Enter at machine speed (press
-# and release of Enter arrive together), then the keypad enters 250 plants
-# and Save. The log must show 250 for plot 307, entered by this observer.
+# A crew member with a barcode scanner on the demo day: with nothing tapped
+# first, the scanner types stake label 307 and Enter at machine speed (press
+# and release of Enter arrive together) and plot 307 opens; then the keypad
+# enters 250 plants and Save. The log must show 250 for plot 307, entered by
+# this observer. The app writes where its buttons are (--targets-out).
 demo = os.path.join(work, "demo.furrow")
 subprocess.run(["/usr/bin/python3", os.path.join(src, "demo_data", "load_demo_day.py"), furrow, plan,
                 os.path.join(src, "demo_data", "harrow_ridge_oats_2026.csv"), demo], check=True, capture_output=True)
-# Where things are on the Record screen at 1280x800, scale 1 (demo day, plot with a recorded value).
-GO_FIELD = (443, 536)
-KEYS = {"2": (123, 540), "5": (123, 464), "0": (123, 616)}
-SAVE = (123, 692)
-taps = "\n".join(f"xdotool mousemove {KEYS[d][0]} {KEYS[d][1]} click 1\nsleep 0.3" for d in "250")
+targets = os.path.join(work, "targets.txt")
 script = f"""
-'{furrow}' field --db '{demo}' --observer 'Scanner crew' --demo /nonexistent &
+'{furrow}' field --db '{demo}' --observer 'Scanner crew' --demo /nonexistent --targets-out '{targets}' &
 app=$!
 sleep 3
 xdotool search --sync --name '^Furrow' windowfocus --sync
 xdotool mousemove 640 790
 sleep 1
-xdotool mousemove {GO_FIELD[0]} {GO_FIELD[1]} click 1
-sleep 0.5
 xdotool type --delay 1 '307'
 xdotool key --delay 1 Return
 sleep 1
-{taps}
-xdotool mousemove {SAVE[0]} {SAVE[1]} click 1
+for key in 2 5 0 Save; do
+  xy=$(awk -v k="$key" '{{l=$5; for (i=6;i<=NF;i++) l=l" "$i; if (l==k) {{print int(($1+$3)/2), int(($2+$4)/2); exit}}}}' '{targets}')
+  xdotool mousemove $xy click 1
+  sleep 0.4
+done
 sleep 1.5
 kill $app
 wait $app

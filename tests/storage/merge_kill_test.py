@@ -50,7 +50,7 @@ for d in range(10):
             plot = plots[(seq * 7 + d * 13) % len(plots)]
             trait = traits[seq % len(traits)]
             value = str(100 + (seq * 31 + d) % 50)
-            con.execute("INSERT INTO observation VALUES (?,?,?,?,1,?,?,NULL,'',?,?)",
+            con.execute("INSERT INTO observation VALUES (?,?,?,?,1,?,?,NULL,'',?,?,'')",
                         (dev_id, seq, plot, trait, value, float(value), f"crew {d}",
                          f"2026-05-0{1 + d % 9}T08:{seq // 60 % 60:02d}:{seq % 60:02d}.000Z"))
     con.close()

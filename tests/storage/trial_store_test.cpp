@@ -143,6 +143,8 @@ TEST_CASE("a schema-1 database migrates to schema 2: log kept, a trial identity 
       DROP TABLE trial_v2;
       DROP TABLE station_holding;
       DROP TABLE merged_bundle;
+      DROP TABLE walk_choice;
+      ALTER TABLE observation DROP COLUMN confirmed_checks;
       PRAGMA user_version = 1;
       COMMIT;
     )sql").ok());

@@ -2,44 +2,47 @@
 
 #include <imgui.h>
 
-#include <cstdio>
+#include <string>
 
 #include "app/field/screens/widgets.h"
+#include "app/work/glossary.h"
 
 namespace furrow {
 
-std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const Theme& t, float scale, float top_px,
-                                            LeavingScreenState* st) {
+std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const std::string& walk, const Theme& t,
+                                            float scale, float top_px, LeavingScreenState* st) {
   st->targets.clear();
   std::optional<OpenItem> open;
   const ScreenWindow window("Before leaving", t, top_px);
-  ImGui::TextWrapped("Before leaving the field: %d conflicts, %d outlier plots, %d values to check, %d values not "
-                     "recorded. Tap a line to open that plot.",
-                     list.conflicts, list.outliers, list.flagged, list.missing);
-  const float row = kTouchTargetPx * scale * 1.3f;
-  ImGui::BeginChild("items", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
   drag_to_scroll(scale);
+  ImGui::TextWrapped("%s: %s", term::kTodaysWalk, walk.c_str());
+  if (list.items.empty()) {
+    ImGui::TextWrapped("Nothing to fix in today's walk.");
+  } else {
+    const std::string counts = count_of(list.conflicts, term::kConflict) + ", " +
+                               count_of(list.outliers, term::kOutlierPlot) + ", " +
+                               count_of(list.flagged, term::kValueToCheck) + ", " + std::to_string(list.missing) +
+                               " " + term::kNotRecorded + ". Tap a line to open that plot.";
+    ImGui::TextWrapped("%s", counts.c_str());
+  }
+  if (!list.outside_walk.empty()) ImGui::TextWrapped("%s", list.outside_walk.c_str());
+  const float row = kTouchTargetPx * scale * 1.3f;
   const float width = ImGui::GetContentRegionAvail().x;
   for (size_t i = 0; i < list.items.size(); ++i) {
     const LeavingItem& item = list.items[i];
-    const Rgb bg = item.kind == LeavingItem::Kind::conflict  ? t.refuse
-                   : item.kind == LeavingItem::Kind::missing ? t.panel
-                                                             : t.confirm;
-    const Rgb fg = item.kind == LeavingItem::Kind::conflict  ? t.refuse_text
-                   : item.kind == LeavingItem::Kind::missing ? t.text
-                                                             : t.confirm_text;
-    const char* kind = item.kind == LeavingItem::Kind::conflict  ? "CONFLICT"
-                       : item.kind == LeavingItem::Kind::outlier ? "OUTLIER"
-                       : item.kind == LeavingItem::Kind::flagged ? "CHECK"
-                                                                 : "MISSING";
-    char label[400];
-    std::snprintf(label, sizeof label, "%-9s %s##item%zu", kind, item.message.c_str(), i);
+    const auto first = item.kinds.front();
+    const Rgb bg = first == LeavingItem::Kind::conflict ? t.refuse : first == LeavingItem::Kind::missing ? t.panel : t.confirm;
+    const Rgb fg = first == LeavingItem::Kind::conflict  ? t.refuse_text
+                   : first == LeavingItem::Kind::missing ? t.text
+                                                         : t.confirm_text;
     ButtonLook look{bg, fg};
     look.align_left = true;
-    if (solid_button(label, ImVec2(width, row), look, &st->targets, kind + std::string(" ") + item.message))
+    look.border_px = first == LeavingItem::Kind::missing ? 2.0f * scale : 0.0f;
+    look.border = t.text;
+    const std::string id = "##item" + std::to_string(i);
+    if (wrapped_button(id.c_str(), item.message, width, row, look, &st->targets))
       open = OpenItem{item.plot_index, item.trait_index, item.occasion};
   }
-  ImGui::EndChild();
   return open;
 }
 

@@ -4,6 +4,7 @@
 // trait on the Record screen; the list scrolls by dragging.
 
 #include <optional>
+#include <string>
 #include <vector>
 
 #include "app/work/before_leaving.h"
@@ -21,7 +22,8 @@ struct OpenItem {
   int occasion = 1;
 };
 
-std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const Theme& theme, float scale, float top_px,
+// `walk`: the description of today's walk.
+std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const std::string& walk, const Theme& theme, float scale, float top_px,
                                             LeavingScreenState* state);
 
 }  // namespace furrow

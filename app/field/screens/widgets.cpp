@@ -47,6 +47,27 @@ bool solid_button(const char* label, ImVec2 size, const ButtonLook& look, std::v
   return pressed;
 }
 
+bool wrapped_button(const char* id, const std::string& text, float width, float min_height, const ButtonLook& look,
+                    std::vector<TapTarget>* targets) {
+  const ImVec2 pad = ImGui::GetStyle().FramePadding;
+  const float wrap = width - 2 * pad.x;
+  const ImVec2 size = ImGui::CalcTextSize(text.c_str(), nullptr, false, wrap);
+  const float height = std::max(min_height, size.y + 2 * pad.y);
+  const ImVec2 at = ImGui::GetCursorScreenPos();
+  const bool pressed = ImGui::InvisibleButton(id, ImVec2(width, height));
+  ImDrawList* dl = ImGui::GetWindowDrawList();
+  dl->AddRectFilled(at, ImVec2(at.x + width, at.y + height), ImGui::ColorConvertFloat4ToU32(to_imgui(look.background)),
+                    ImGui::GetStyle().FrameRounding);
+  if (look.border_px > 0)
+    dl->AddRect(at, ImVec2(at.x + width, at.y + height), ImGui::ColorConvertFloat4ToU32(to_imgui(look.border)),
+                ImGui::GetStyle().FrameRounding, 0, look.border_px);
+  const float text_x = look.align_left ? at.x + pad.x : at.x + (width - size.x) / 2;
+  dl->AddText(ImGui::GetFont(), ImGui::GetFontSize(), ImVec2(text_x, at.y + (height - size.y) / 2),
+              ImGui::ColorConvertFloat4ToU32(to_imgui(look.text)), text.c_str(), nullptr, wrap);
+  note_target(text, targets);
+  return pressed;
+}
+
 void drag_to_scroll(float scale) {
   if (ImGui::IsWindowHovered(ImGuiHoveredFlags_AllowWhenBlockedByActiveItem) &&
       ImGui::IsMouseDragging(ImGuiMouseButton_Left, kDragScrollPx * scale)) {

@@ -46,6 +46,12 @@ class ScreenWindow {
 bool solid_button(const char* label, ImVec2 size, const ButtonLook& look, std::vector<TapTarget>* targets,
                   const std::string& target_label = {});
 
+// A full-width button whose text wraps onto as many lines as it needs (at
+// least `min_height` tall); `id` must be unique in the window. Recorded in
+// `targets` under `text`. Returns true when tapped.
+bool wrapped_button(const char* id, const std::string& text, float width, float min_height, const ButtonLook& look,
+                    std::vector<TapTarget>* targets);
+
 // Appends the last item's rectangle to `targets`.
 void note_target(const std::string& label, std::vector<TapTarget>* targets);
 

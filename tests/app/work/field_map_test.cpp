@@ -131,7 +131,8 @@ struct DemoMap {
 TEST_CASE("status map of the demo day: flooded plot without a value, the slip to check, the rest collected") {
   DemoMap d;
   const StoredTrial& t = d.session->trial();
-  const BeforeLeaving leaving = d.session->before_leaving(0.05);
+  // The map of a trait marks what Before leaving asks about that trait.
+  const BeforeLeaving leaving = before_leaving(t, d.session->live(), 0.05, Walk(t, WalkChoice{{"height_cm"}, 1, {}, false}));
   const FieldMap m = build_field_map(t, d.session->live(), 1, 1, MapColouring::status, d.theme, &leaving, nullptr);
   REQUIRE(m.plots.size() == 80);
   CHECK(m.rows == t.plan.rows);

@@ -23,12 +23,14 @@ TEST_CASE("an accepted value is committed, the walk moves on, the database holds
   const std::string db = test::fresh_demo_trial("enter.furrow");
   auto s = RecordSession::open(db, "Ana");
   REQUIRE(s.ok());
-  s->set_trait(1);   // height
+  REQUIRE(s->set_walk(WalkChoice{{"height_cm"}, 1, {}, false}).ok());   // today: height on every plot
   CHECK(s->view().plot_label == "101");
+  CHECK(s->view().trait_code == "height_cm");
   const auto out = s->enter("95");
   CHECK(out.kind == EntryOutcome::Kind::saved);
   CHECK(s->view().plot_label == "102");
-  CHECK(s->view().cells_done == 1);
+  CHECK(s->view().trait_done == 1);
+  CHECK(s->view().trait_total == 80);
   CHECK(live_count(db) == 1);
   s->previous();
   CHECK(*s->view().current == "95");
@@ -85,7 +87,7 @@ TEST_CASE("skip with a reason, jump by label, undo as a new log row") {
     REQUIRE(s->jump_to(label).ok());
     REQUIRE(fresh->jump_to(label).ok());
     CHECK(s->view().current == fresh->view().current);
-    CHECK(s->view().cells_done == fresh->view().cells_done);
+    CHECK(s->view().walk_done == fresh->view().walk_done);
   }
 }
 
@@ -96,7 +98,12 @@ TEST_CASE("blind scoring hides the treatment; walking all traits per plot") {
   CHECK(s->view().treatment == "Quillon");
   s->set_blind(true);
   CHECK(s->view().treatment == "hidden");
-  s->set_walk(WalkMode::all_traits_per_plot);
+  WalkChoice every;
+  for (const Trait& t : s->trial().plan.traits) every.trait_codes.push_back(t.code);
+  every.every_trait_per_plot = true;
+  REQUIRE(s->set_walk(every).ok());
+  CHECK(s->view().plot_label == "101");
+  CHECK(s->view().trait_code == "stand_count");
   s->next();
   CHECK(s->view().plot_label == "101");
   CHECK(s->view().trait_code == "height_cm");

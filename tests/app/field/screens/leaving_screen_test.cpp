@@ -14,8 +14,9 @@ namespace {
 BeforeLeaving list_of(int n) {
   BeforeLeaving b;
   for (int i = 0; i < n; ++i)
-    b.items.push_back({i == 0 ? LeavingItem::Kind::outlier : LeavingItem::Kind::missing, static_cast<size_t>(i), 0, 1,
-                       "plot " + std::to_string(101 + i) + ", plant height"});
+    b.items.push_back({{i == 0 ? LeavingItem::Kind::outlier : LeavingItem::Kind::missing}, static_cast<size_t>(i), 0, 1,
+                       "plot " + std::to_string(101 + i) + ", plant height: " +
+                           (i == 0 ? "outlier plot: 9.1 is far from what the other plots predict" : "not recorded yet")});
   b.outliers = 1;
   b.missing = n - 1;
   return b;
@@ -23,7 +24,7 @@ BeforeLeaving list_of(int n) {
 
 struct Headless {
   Headless(float w, float h) : ui(w, h, [this] {
-    if (auto o = draw_leaving_screen(list, theme, 1.0f, 0.0f, &state)) opened = o;
+    if (auto o = draw_leaving_screen(list, "plant height; every block", theme, 1.0f, 0.0f, &state)) opened = o;
   }) {
     ui.frame();
   }

@@ -18,16 +18,19 @@
 namespace furrow {
 namespace {
 
-constexpr int kEnterKey = 257;   // any free index; mapped to ImGuiKey_Enter below
+constexpr int kEnterKey = 257;       // any free indices; mapped to ImGuiKey_Enter and _Backspace below
+constexpr int kBackspaceKey = 259;
 
 class HeadlessScreen {
  public:
   HeadlessScreen(RecordSession* session, float width, float height)
       : session_(session), ui_(width, height, [this] {
-          const auto commands = draw_record_screen(session_->view(), theme_, 1.0f, &state_);
+          const auto commands = draw_record_screen(session_->view(), session_->trial(), session_->walk(), false, theme_,
+                                                   1.0f, &state_);
           pending_.insert(pending_.end(), commands.begin(), commands.end());
         }) {
     ImGui::GetIO().KeyMap[ImGuiKey_Enter] = kEnterKey;
+    ImGui::GetIO().KeyMap[ImGuiKey_Backspace] = kBackspaceKey;
     frame();
   }
 
@@ -54,6 +57,24 @@ class HeadlessScreen {
 
   void type(const std::string& text) {
     ImGui::GetIO().AddInputCharactersUTF8(text.c_str());
+    frame();
+  }
+
+  // Keys typed as a person types them: one at a time, a few frames apart.
+  void type_slowly(const std::string& text) {
+    for (char c : text) {
+      const char one[2] = {c, 0};
+      ImGui::GetIO().AddInputCharactersUTF8(one);
+      for (int i = 0; i < 4; ++i) frame();
+    }
+  }
+
+  void press(int key) {
+    ImGuiIO& io = ImGui::GetIO();
+    io.KeysDown[key] = true;
+    frame();
+    io.KeysDown[key] = false;
+    frame();
     frame();
   }
 
@@ -98,10 +119,10 @@ TEST_CASE("repeated taps on one key all count") {
   screen.tap("5");
   screen.tap("5");
   screen.tap("5");
-  CHECK(screen.state().typed == "555");
+  CHECK(session->view().typed == "555");
   screen.tap("Del");
   screen.tap("Del");
-  CHECK(screen.state().typed == "5");
+  CHECK(session->view().typed == "5");
 }
 
 TEST_CASE("keypad taps enter a value that is then in the database") {
@@ -112,7 +133,7 @@ TEST_CASE("keypad taps enter a value that is then in the database") {
   HeadlessScreen screen(&*session, 1280, 800);
   screen.tap("9");
   screen.tap("5");
-  CHECK(screen.state().typed == "95");
+  CHECK(session->view().typed == "95");
   screen.tap("Save");
   CHECK(screen.state().tone == RecordScreenState::Tone::saved);
   CHECK(stored(db, "101", 1) == "95");
@@ -133,7 +154,7 @@ TEST_CASE("a refused value shows the banner and saves nothing; a soft-limit valu
   for (int i = 0; i < 3; ++i) screen.tap("Del");
   for (const char* k : {"1", "5", "0"}) screen.tap(k);
   screen.tap("Save");
-  INFO(screen.state().banner << " / typed " << screen.state().typed);
+  INFO(screen.state().banner << " / typed " << session->view().typed);
   CHECK(screen.state().tone == RecordScreenState::Tone::confirm);
   CHECK_FALSE(stored(db, "101", 1).has_value());
   screen.tap("Confirm value");
@@ -159,6 +180,122 @@ TEST_CASE("skip with a reason, jump by a typed label with Enter, undo") {
   CHECK(stored(db, "305", 0) == "240");
   screen.tap("Undo last entry");
   CHECK(stored(db, "305", 0) == "missing: withdrawn");
+}
+
+TEST_CASE("Confirm saves the text on screen: 9.1 asked about, Del x3, 91 typed, Confirm is gone and Save stores 91") {
+  // Fault: Confirm used to save the value first asked about (9.1), not the one shown.
+  const std::string db = test::demo_day_trial("confirm_text.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  session->set_trait(1);
+  REQUIRE(session->jump_to("109").ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  for (const char* k : {"9", ".", "1"}) screen.tap(k);
+  screen.tap("Save");
+  REQUIRE(screen.state().tone == RecordScreenState::Tone::confirm);
+  CHECK(test::find_target(screen.state().targets, "Confirm value") != nullptr);
+  // Every finding is shown, the slip's suggestion among them.
+  CHECK(screen.state().banner.find("outside the usual range") != std::string::npos);
+  CHECK(screen.state().banner.find("Did you mean 91") != std::string::npos);
+  CHECK(test::find_target(screen.state().targets, "Save suggestion") != nullptr);
+  for (int i = 0; i < 3; ++i) screen.tap("Del");
+  screen.tap("9");
+  screen.tap("1");
+  CHECK(session->view().typed == "91");
+  CHECK(test::find_target(screen.state().targets, "Confirm value") == nullptr);
+  screen.tap("Save");
+  CHECK(stored(db, "109", 1) == "91");
+}
+
+TEST_CASE("Save 91 instead: one tap saves the suggestion, checked like any entry") {
+  const std::string db = test::demo_day_trial("suggest.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  session->set_trait(1);
+  REQUIRE(session->jump_to("110").ok());
+  HeadlessScreen screen(&*session, 800, 1280);
+  for (const char* k : {"9", ".", "4"}) screen.tap(k);
+  screen.tap("Save");
+  screen.tap("Save suggestion");
+  CHECK(stored(db, "110", 1) == "94");
+}
+
+TEST_CASE("a typed value does not follow the crew to the next plot; a question does not outlive its text") {
+  const std::string db = test::demo_day_trial("follow.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  session->set_trait(1);
+  REQUIRE(session->jump_to("116").ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  screen.tap("8");
+  screen.tap("8");
+  screen.tap("Next plot");
+  CHECK(session->view().plot_label == "117");
+  CHECK(session->view().typed.empty());
+  CHECK(screen.state().banner.find("88 typed on plot 116 was not saved") != std::string::npos);
+  const auto before = stored(db, "117", 1);
+  screen.tap("Save");   // nothing typed: nothing saved
+  CHECK(stored(db, "117", 1) == before);
+  for (const char* k : {"9", ".", "4"}) screen.tap(k);
+  screen.tap("Save");
+  REQUIRE(session->view().has_pending);
+  screen.tap("Del");
+  CHECK_FALSE(session->view().has_pending);
+  CHECK(test::find_target(screen.state().targets, "Confirm value") == nullptr);
+}
+
+TEST_CASE("keyboard: digits, point, Backspace and Enter save; a scanned label with Enter opens the plot") {
+  const std::string db = test::fresh_demo_trial("keyboard.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  REQUIRE(session->set_walk(WalkChoice{{"height_cm"}, 1, {}, false}).ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  screen.type_slowly("96");
+  screen.press(kBackspaceKey);
+  screen.type_slowly("5");
+  CHECK(session->view().typed == "95");
+  screen.press_enter();
+  CHECK(stored(db, "101", 1) == "95");
+  // A scanner: the whole label in one burst, then Enter.
+  screen.type("307");
+  screen.press_enter();
+  CHECK(session->view().plot_label == "307");
+  CHECK(session->view().typed.empty());
+}
+
+TEST_CASE("the keypad, Save and plot navigation do not move when the banner appears or changes") {
+  const std::string db = test::demo_day_trial("still.furrow");
+  for (auto [w, h] : {std::pair{1280.0f, 800.0f}, std::pair{800.0f, 1280.0f}}) {
+    auto session = RecordSession::open(db, "Ana");
+    REQUIRE(session.ok());
+    session->set_trait(1);
+    REQUIRE(session->jump_to("111").ok());
+    HeadlessScreen screen(&*session, w, h);
+    const auto fixed = [&] {
+      std::vector<TapTarget> out;
+      for (const char* l : {"7", "5", "Del", "0", "Save", "Previous plot", "Next plot", "Undo last entry", "Skip plot..."}) {
+        const TapTarget* t = test::find_target(screen.state().targets, l);
+        REQUIRE(t != nullptr);
+        out.push_back(*t);
+      }
+      return out;
+    };
+    const auto before = fixed();
+    for (const char* k : {"9", ".", "1"}) screen.tap(k);
+    screen.tap("Save");   // a long warning banner with two answers
+    REQUIRE(screen.state().tone == RecordScreenState::Tone::confirm);
+    const auto asking = fixed();
+    for (const char* k : {"4", "0", "0"}) screen.tap(k);
+    screen.tap("Save");   // a refusal
+    const auto refused = fixed();
+    for (size_t i = 0; i < before.size(); ++i) {
+      INFO(before[i].label << " in " << w << " x " << h);
+      CHECK(asking[i].x0 == before[i].x0);
+      CHECK(asking[i].y0 == before[i].y0);
+      CHECK(refused[i].x0 == before[i].x0);
+      CHECK(refused[i].y0 == before[i].y0);
+    }
+  }
 }
 
 TEST_CASE("every tappable item is at least 48 px in both directions at scale 1 (Material Design touch target)") {

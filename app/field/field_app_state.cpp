@@ -1,0 +1,522 @@
+#include "app/field/field_app_state.h"
+
+#include <imgui.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cstdio>
+#include <filesystem>
+#include <iostream>
+#include <optional>
+
+#include "app/work/field_map.h"
+#include "app/work/record_session.h"
+#include "app/field/screens/check_screen.h"
+#include "app/field/screens/help_screen.h"
+#include "app/field/screens/leaving_screen.h"
+#include "app/field/screens/map_screen.h"
+#include "app/field/screens/record_screen.h"
+#include "app/field/screens/settings_screen.h"
+#include "app/field/screens/station_screen.h"
+#include "app/field/screens/trials_screen.h"
+#include "app/field/screens/widgets.h"
+#include "app/field/settings.h"
+#include "app/work/station.h"
+#include "app/work/trial_analysis.h"
+#include "core/entry_checks.h"
+#include "storage/bundle.h"
+#include "storage/settle.h"
+#include "platform/data_folder.h"
+
+namespace furrow {
+namespace {
+
+// How often the app looks whether another program changed the trial file.
+constexpr double kFreshCheckSeconds = 0.25;
+
+
+
+
+struct Tab {
+  const char* label;
+  Screen screen;
+  bool needs_trial;
+};
+constexpr Tab kTabs[] = {{"Trials", Screen::trials, false},       {"Record", Screen::record, true},
+                         {"Field map", Screen::map, true},        {"Check", Screen::check, true},
+                         {"Before leaving", Screen::leaving, true}, {"Station", Screen::station, false},
+                         {"Settings", Screen::settings, false},      {"Help", Screen::help, false}};
+
+
+// Everything the app holds between frames. Derived views (the Before
+// leaving list, the map, the analysis) are kept until the log, the trait or
+// the colouring changes.
+class FieldApp final : public FieldAppState {
+ public:
+  FieldApp(const FieldAppOptions& o, Settings settings, std::string settings_path, std::string folder)
+      : options_(o), settings_(std::move(settings)), settings_path_(std::move(settings_path)),
+        folder_(std::move(folder)), theme_(make_theme(settings_.theme)) {}
+
+  // Opens a trial database; on failure the current trial stays open.
+  Status open_trial(const std::string& path) {
+    auto s = RecordSession::open(path, observer());
+    if (!s) return make_problem(path + ": " + s.problem().message);
+    session_.emplace(std::move(s).value());
+    session_->set_blind(settings_.blind_scoring);
+    trial_path_ = path;
+    record_ui_ = RecordScreenState{};
+    map_.reset();
+    analysis_.reset();
+    leaving_.reset();
+    return ok_status();
+  }
+
+  void set_screen(Screen s) {
+    if (s != Screen::record && screen_ == Screen::record && session_) {
+      // E1: leaving the Record screen leaves the cell.
+      session_->drop_entry();
+      record_ui_.banner = session_->view().notice;
+      record_ui_.tone = record_ui_.banner.empty() ? RecordScreenState::Tone::none : RecordScreenState::Tone::refuse;
+      record_ui_.held_keys.clear();
+    }
+    screen_ = s;
+    if (s == Screen::trials) trials_.reset();
+    if (s == Screen::station) station_.reset();
+  }
+  // Work is under way that needs frames without waiting for input.
+  bool busy() const { return import_ && !import_->done(); }
+  bool has_trial() const { return session_.has_value(); }
+  const std::string& trial_name() const { return session_->trial().plan.name; }
+
+  // Draws one frame's screens; returns changed settings, if any.
+  Screen screen() const { return screen_; }
+  std::vector<TapTarget> targets() const {
+    std::vector<TapTarget> all = nav_targets_;
+    const std::vector<TapTarget>* own = nullptr;
+    switch (screen_) {
+      case Screen::trials: own = &trials_ui_.targets; break;
+      case Screen::record: own = &record_ui_.targets; break;
+      case Screen::map: own = &map_ui_.targets; break;
+      case Screen::check: own = &check_ui_.targets; break;
+      case Screen::leaving: own = &leaving_ui_.targets; break;
+      case Screen::station: own = &station_ui_.targets; break;
+      case Screen::settings: own = &settings_ui_.targets; break;
+      case Screen::help: own = &help_targets_; break;
+    }
+    if (own) all.insert(all.end(), own->begin(), own->end());
+    return all;
+  }
+  const RecordSession* session() const { return session_ ? &*session_ : nullptr; }
+  const RecordScreenState& record_state() const { return record_ui_; }
+
+  std::optional<Settings> draw(float scale) {
+    refresh_views();
+    const float top = draw_navigation(scale);
+    if (!session_ && kTabs[static_cast<int>(screen_)].needs_trial) screen_ = Screen::trials;
+    switch (screen_) {
+      case Screen::trials: draw_trials(scale, top); break;
+      case Screen::record: {
+        const RecordView view = session_->view();
+        const auto commands = draw_record_screen(view, session_->trial(), session_->walk(), asked_about_saved(view),
+                                                 theme_, scale, &record_ui_, top);
+        for (const RecordCommand& c : commands) apply_record_command(c, *session_, &record_ui_);
+        break;
+      }
+      case Screen::map: draw_map(scale, top); break;
+      case Screen::check: draw_check(scale, top); break;
+      case Screen::leaving: {
+        const BeforeLeaving& list = before_leaving();
+        if (auto item = draw_leaving_screen(list, session_->walk().describe(session_->trial()), theme_, scale, top,
+                                            &leaving_ui_))
+          open_plot(item->plot_index, item->trait_index, item->occasion);
+        break;
+      }
+      case Screen::help: draw_help_screen(theme_, scale, top); break;
+      case Screen::station: draw_station(scale, top); break;
+      case Screen::settings: return draw_settings_screen(settings_, theme_, scale, top, &settings_ui_);
+    }
+    return std::nullopt;
+  }
+
+  void apply_settings(const Settings& changed) {
+    settings_ = changed;
+    theme_ = make_theme(settings_.theme);
+    map_.reset();   // colours come from the theme
+    if (session_) {
+      session_->set_blind(settings_.blind_scoring);
+      if (!settings_.observer.empty()) session_->set_observer(settings_.observer);
+    }
+    leaving_.reset();   // alpha changes the outliers
+    analysis_.reset();
+    if (!settings_path_.empty())
+      if (auto s = save_settings(settings_path_, settings_); !s) std::cerr << s.problem().message << "\n";
+  }
+
+  const Theme& theme() const { return theme_; }
+  const Settings& settings() const { return settings_; }
+
+ private:
+  // Fresh views: when another program changed the trial file (a merge, a
+  // settlement from the command line), read the log again and drop every
+  // derived view. PRAGMA data_version makes the check cheap; it runs at most
+  // every kFreshCheckSeconds.
+  void refresh_views() {
+    if (!session_) return;
+    const double now = ImGui::GetTime();
+    if (now - last_fresh_check_ < kFreshCheckSeconds && last_fresh_check_ >= 0) return;
+    last_fresh_check_ = now;
+    auto changed = session_->refresh_if_changed();
+    if (!changed || !*changed) return;
+    map_.reset();
+    analysis_.reset();
+    leaving_.reset();
+    station_.reset();
+    trials_.reset();
+  }
+
+  // Whether Before leaving lists the Record screen's saved value (so that
+  // the banner offers "Value is right"). Worked out only when the cell holds
+  // one saved value and nothing is typed.
+  bool asked_about_saved(const RecordView& v) {
+    if (!v.current || !v.typed.empty() || v.current->rfind("missing", 0) == 0 || *v.current == "CONFLICT") return false;
+    const BeforeLeaving& list = before_leaving();
+    for (const LeavingItem& item : list.items)
+      if (item.plot_index == session_->plot_index() && item.trait_index == session_->trait_index() &&
+          item.occasion == session_->occasion() &&
+          (item.has(LeavingItem::Kind::outlier) || item.has(LeavingItem::Kind::flagged)))
+        return true;
+    return false;
+  }
+
+  std::string observer() const { return options_.observer.empty() ? settings_.observer : options_.observer; }
+
+  // The bar of screens; wraps to a second row in a narrow window. Returns
+  // where the screens start.
+  float draw_navigation(float scale) {
+    const ImGuiViewport* vp = ImGui::GetMainViewport();
+    const float h = kTouchTargetPx * scale * 1.25f;
+    ImGui::SetNextWindowPos(vp->WorkPos);
+    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, nav_height_ > 0 ? nav_height_ : h * 2));
+    ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme_.panel));
+    ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
+                                           ImGuiWindowFlags_NoSavedSettings);
+    nav_targets_.clear();
+    bool first = true;
+    for (const Tab& tab : kTabs) {
+      const float w = button_width(tab.label, scale);
+      if (!first) flow_next(w);
+      first = false;
+      const bool current = screen_ == tab.screen;
+      const bool usable = session_ || !tab.needs_trial;
+      const ButtonLook look{current ? theme_.accent : theme_.background,
+                            current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
+      if (solid_button(tab.label, ImVec2(w, h), look, &nav_targets_) && usable) {
+        set_screen(tab.screen);
+        leaving_.reset();   // opened afresh each time
+      }
+    }
+    const float used = ImGui::GetCursorPosY() + ImGui::GetStyle().WindowPadding.y - ImGui::GetStyle().ItemSpacing.y;
+    ImGui::End();
+    ImGui::PopStyleColor();
+    nav_height_ = used;
+    return used;
+  }
+
+  std::string bundle_folder() const { return folder_ + "/bundles"; }
+  std::string export_folder() const { return folder_ + "/exports"; }
+
+  void draw_station(float scale, float top) {
+    if (import_) {
+      if (!import_->done()) {
+        import_->step();   // one bundle per frame: the progress bar moves
+      } else if (!import_reported_) {
+        import_reported_ = true;
+        station_.reset();
+        if (session_) {
+          (void)session_->refresh();
+          map_.reset();
+          analysis_.reset();
+          leaving_.reset();
+        }
+        int merged = 0;
+        for (const auto& o : import_->outcomes()) merged += o.merged;
+        station_ui_.message = "Imported " + std::to_string(merged) + " of " + std::to_string(import_->total()) +
+                              " bundles from " + bundle_folder();
+        station_ui_.message_is_problem = merged < static_cast<int>(import_->total());
+      }
+    }
+    if (!station_) {
+      station_.emplace();
+      station_->bundle_folder = bundle_folder();
+      station_->export_folder = export_folder();
+      station_->trials = list_trials(folder_);
+      station_->trial = session_ ? &session_->trial() : nullptr;
+      if (session_) {
+        auto open = open_trial_database(trial_path_);
+        if (open) {
+          auto c = list_conflicts(open->db, open->trial);
+          if (c) station_->conflicts = std::move(c).value();
+        }
+      }
+    }
+    station_->importing = busy();
+    if (import_) {
+      station_->imported = import_->finished();
+      station_->to_import = import_->total();
+      station_->importing_file = import_->current_file();
+      station_->outcomes = import_->outcomes();
+    }
+    const auto action = draw_station_screen(*station_, theme_, scale, top, &station_ui_);
+    if (!action) return;
+    const auto report = [&](const Result<std::string>& r, const std::string& what) {
+      station_ui_.message = r ? what + " " + *r : r.problem().message;
+      station_ui_.message_is_problem = !r;
+    };
+    switch (action->kind) {
+      case StationAction::Kind::import_bundles:
+        std::filesystem::create_directories(bundle_folder());
+        import_.emplace(bundle_folder(), folder_,
+                        trial_path_.empty() ? std::vector<std::string>{} : std::vector<std::string>{trial_path_});
+        import_reported_ = false;
+        station_ui_.message.clear();
+        break;
+      case StationAction::Kind::write_bundle: report(write_device_bundle(trial_path_, bundle_folder()), "Bundle written:"); break;
+      case StationAction::Kind::export_data:
+        report(export_clean_data(trial_path_, export_folder()), "Data written:");
+        if (!station_ui_.message_is_problem && !station_->conflicts.empty())
+          station_ui_.message += " (" + std::to_string(station_->conflicts.size()) +
+                                 " conflicts not settled yet are marked in it: settle them and export again)";
+        break;
+      case StationAction::Kind::export_report: report(export_report(trial_path_, export_folder()), "Report written:"); break;
+      case StationAction::Kind::keep:
+      case StationAction::Kind::new_value:
+      case StationAction::Kind::mark_missing: settle(*action); break;
+    }
+  }
+
+  void settle(const StationAction& a) {
+    const ConflictCell& cell = station_->conflicts.at(a.conflict);
+    Settlement s;
+    s.by = observer();
+    if (a.kind == StationAction::Kind::keep) {
+      s.kind = Settlement::Kind::keep;
+      s.keep = cell.rows.at(a.row).key;
+    } else if (a.kind == StationAction::Kind::new_value) {
+      auto parsed = parse_acceptable_value(session_->trial().plan.traits[cell.trait_index], a.text);
+      if (!parsed) {
+        station_ui_.message = parsed.problem().message;
+        station_ui_.message_is_problem = true;
+        return;
+      }
+      s.kind = Settlement::Kind::new_value;
+      s.value = parsed->text;
+      s.number = parsed->number;
+    } else {
+      s.kind = Settlement::Kind::missing;
+      s.missing_reason = a.text;
+    }
+    auto open = open_trial_database(trial_path_);
+    auto key = open ? settle_conflict(open->db, open->trial, cell, s) : Result<ObservationKey>(open.problem());
+    if (!key) {
+      station_ui_.message = key.problem().message;
+      station_ui_.message_is_problem = true;
+    } else {
+      station_ui_.message = "Settled plot " + session_->trial().layout.plots[cell.plot_index].label + " (saved as record " +
+                            key->device_id + "/" + std::to_string(key->sequence) + " by " + s.by + ")";
+      station_ui_.message_is_problem = false;
+      station_ui_.editing = -1;
+      (void)session_->refresh();
+      map_.reset();
+      analysis_.reset();
+      leaving_.reset();
+    }
+    station_.reset();
+  }
+
+  void draw_trials(float scale, float top) {
+    if (!trials_) {
+      trials_.emplace();
+      trials_->folder = folder_;
+      trials_->trials = list_trials(folder_);
+      if (!trial_path_.empty() && std::none_of(trials_->trials.begin(), trials_->trials.end(),
+                                               [&](const TrialSummary& s) { return s.path == trial_path_; }))
+        trials_->trials.insert(trials_->trials.begin(), summarise_trial(trial_path_));
+      trials_->plan_files = list_plan_files(folder_);
+      trials_->demo_available = !options_.demo_db.empty() && std::filesystem::exists(options_.demo_db);
+    }
+    trials_->current = trial_path_;
+    const auto action = draw_trials_screen(*trials_, theme_, scale, top, &trials_ui_);
+    if (!action) return;
+    std::string path = action->path;
+    if (action->kind == TrialsAction::Kind::open_demo) path = options_.demo_db;
+    if (action->kind == TrialsAction::Kind::create_from_plan) {
+      const std::string db = trial_path_for_plan(path, folder_);
+      // A station's trial file becomes this device's own copy; a plan file a new trial.
+      auto made = std::filesystem::path(path).extension() == ".furrow"
+                      ? [&]() -> Result<std::string> {
+                          if (auto s = copy_trial_for_device(path, db); !s) return s.problem();
+                          return std::string("this device's copy of the station's trial");
+                        }()
+                      : create_trial_from_plan(path, db);
+      if (!made) {
+        trials_ui_.message = made.problem().message;
+        trials_ui_.message_is_problem = true;
+        return;
+      }
+      trials_ui_.message = "Created " + db + ": " + *made;
+      trials_ui_.message_is_problem = false;
+      path = db;
+    }
+    if (auto s = open_trial(path); !s) {
+      trials_ui_.message = s.problem().message;
+      trials_ui_.message_is_problem = true;
+      trials_.reset();
+      return;
+    }
+    if (action->kind == TrialsAction::Kind::open) trials_ui_.message.clear();
+    trials_.reset();
+    screen_ = Screen::record;
+  }
+
+  const BeforeLeaving& before_leaving() {
+    if (!leaving_ || leaving_revision_ != session_->revision()) {
+      leaving_ = session_->before_leaving(settings_.alpha);
+      leaving_revision_ = session_->revision();
+    }
+    return *leaving_;
+  }
+
+  std::string trait_title() const {
+    const Trait& tr = session_->trial().plan.traits[session_->trait_index()];
+    std::string s = tr.name + (tr.unit.empty() ? "" : " (" + tr.unit + ")");
+    if (tr.occasions > 1) s += ", occasion " + std::to_string(session_->occasion());
+    return s;
+  }
+
+  // The analysis of the session's trait and occasion, kept until they or the log change.
+  const Result<Analysis>& analysis() {
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0};
+    if (!analysis_ || !(analysis_key_ == key)) {
+      AnalysisOptions options;
+      options.alpha = settings_.alpha;
+      analysis_.emplace(analyse_trial_trait(session_->trial(), session_->live(), key.trait, key.occasion, options));
+      analysis_key_ = key;
+    }
+    return *analysis_;
+  }
+
+  void step_trait(int delta) {
+    const size_t n = session_->trial().plan.traits.size();
+    session_->set_trait((session_->trait_index() + n + delta) % n);
+  }
+
+  void draw_map(float scale, float top) {
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(),
+                  static_cast<int>(map_ui_.colouring)};
+    if (!map_ || !(map_key_ == key)) {
+      const Result<Analysis>* a = map_ui_.colouring == MapColouring::residual ? &analysis() : nullptr;
+      // The status map marks what Before leaving would ask about this trait
+      // and occasion on every plot, whatever today's walk is.
+      std::optional<BeforeLeaving> marks;
+      if (map_ui_.colouring == MapColouring::status) {
+        const StoredTrial& t = session_->trial();
+        marks = furrow::before_leaving(t, session_->live(), settings_.alpha,
+                                       Walk(t, WalkChoice{{t.plan.traits[key.trait].code}, key.occasion, {}, false}));
+      }
+      map_ = build_field_map(session_->trial(), session_->live(), key.trait, key.occasion, map_ui_.colouring, theme_,
+                             marks ? &*marks : nullptr, a && *a ? &**a : nullptr);
+      map_key_ = key;
+      labels_.clear();
+      for (const PlannedPlot& p : session_->trial().layout.plots) labels_.push_back(p.label);
+    }
+    const auto action = draw_map_screen(*map_, labels_, trait_title(), theme_, scale, top, &map_ui_);
+    if (!action) return;
+    switch (action->kind) {
+      case MapAction::Kind::open_plot:
+        open_plot(action->plot_index, session_->trait_index(), session_->occasion());
+        break;
+      case MapAction::Kind::next_trait: step_trait(1); break;
+      case MapAction::Kind::previous_trait: step_trait(-1); break;
+      case MapAction::Kind::colouring_changed: map_.reset(); break;
+    }
+  }
+
+  void draw_check(float scale, float top) {
+    const Result<Analysis>& a = analysis();
+    const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
+                                          trait_title(), theme_, scale, top, &check_ui_);
+    if (!action) return;
+    switch (action->kind) {
+      case CheckAction::Kind::open_plot:
+        open_plot(action->plot_index, session_->trait_index(), session_->occasion());
+        break;
+      case CheckAction::Kind::next_trait: step_trait(1); break;
+      case CheckAction::Kind::previous_trait: step_trait(-1); break;
+    }
+  }
+
+  void open_plot(size_t plot_index, size_t trait_index, int occasion) {
+    session_->set_trait(trait_index);
+    (void)session_->set_occasion(occasion);
+    (void)session_->jump_to(session_->trial().layout.plots[plot_index].label);
+    screen_ = Screen::record;
+  }
+
+  struct Key {
+    size_t trait = 0;
+    int occasion = 0;
+    std::uint64_t revision = 0;
+    int colouring = 0;
+    bool operator==(const Key&) const = default;
+  };
+
+  const FieldAppOptions& options_;
+  Settings settings_;
+  std::string settings_path_, folder_;
+  Theme theme_;
+  Screen screen_ = Screen::record;
+  std::optional<RecordSession> session_;
+  std::string trial_path_;
+  float nav_height_ = 0;
+  std::vector<TapTarget> nav_targets_;
+  RecordScreenState record_ui_;
+  SettingsScreenState settings_ui_;
+  LeavingScreenState leaving_ui_;
+  MapScreenState map_ui_;
+  CheckScreenState check_ui_;
+  TrialsScreenState trials_ui_;
+  std::optional<TrialsView> trials_;
+  StationScreenState station_ui_;
+  std::optional<StationView> station_;
+  std::optional<StationImport> import_;
+  bool import_reported_ = false;
+  std::optional<BeforeLeaving> leaving_;
+  std::uint64_t leaving_revision_ = 0;
+  std::optional<FieldMap> map_;
+  Key map_key_;
+  std::vector<std::string> labels_;
+  std::optional<Result<Analysis>> analysis_;
+  Key analysis_key_;
+  std::vector<TapTarget> help_targets_;
+  double last_fresh_check_ = -1;
+};
+
+}  // namespace
+
+FieldAppState::~FieldAppState() = default;
+
+std::unique_ptr<FieldAppState> FieldAppState::create(const FieldAppOptions& options, Settings settings,
+                                                     std::string settings_path, std::string folder) {
+  return std::make_unique<FieldApp>(options, std::move(settings), std::move(settings_path), std::move(folder));
+}
+
+Screen screen_named(const std::string& name) {
+  for (const auto& [key, s] : {std::pair{"trials", Screen::trials}, {"record", Screen::record}, {"map", Screen::map},
+                               {"check", Screen::check}, {"leaving", Screen::leaving}, {"station", Screen::station},
+                               {"settings", Screen::settings},
+                               {"help", Screen::help}})
+    if (name == key) return s;
+  return Screen::record;
+}
+
+}  // namespace furrow
