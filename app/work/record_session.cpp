@@ -436,8 +436,8 @@ Status RecordSession::confirm_saved(const std::string& check) {
 }
 
 Status RecordSession::undo() {
-  leave_cell();
   if (undo_.empty()) return make_problem("nothing to undo in this session");
+  leave_cell();
   const UndoStep step = undo_.back();
   const StoredTrial& t = open_.trial;
   NewObservation o;
@@ -470,13 +470,19 @@ void RecordSession::advance() {
 }
 
 void RecordSession::next() {
-  leave_cell();
-  advance();
+  // At the end of the walk there is nowhere to go: the cell, and what is
+  // typed in it, stay.
+  if (auto c = walk_.after({plot_, trait_, occasion_}, open_.trial.layout.plots.size())) {
+    leave_cell();
+    go_to(*c);
+  }
 }
 
 void RecordSession::previous() {
-  leave_cell();
-  if (auto c = walk_.before({plot_, trait_, occasion_})) go_to(*c);
+  if (auto c = walk_.before({plot_, trait_, occasion_})) {
+    leave_cell();
+    go_to(*c);
+  }
 }
 
 Status RecordSession::jump_to(const std::string& label) {
@@ -486,7 +492,7 @@ Status RecordSession::jump_to(const std::string& label) {
   const auto& plots = open_.trial.layout.plots;
   for (size_t i = 0; i < plots.size(); ++i)
     if (plots[i].label == l) {
-      leave_cell();
+      if (i != plot_) leave_cell();
       plot_ = i;
       return ok_status();
     }
@@ -528,10 +534,16 @@ Status RecordSession::set_walk(const WalkChoice& choice) {
     for (const Trait& tr : open_.trial.plan.traits) named = named || tr.code == code;
   if (!named) return make_problem("choose at least one trait of this trial for the walk");
   if (auto s = save_walk_choice(open_.db, w.choice(open_.trial)); !s) return s.problem();
-  leave_cell();
+  WalkCell before{plot_, trait_, occasion_};
   walk_ = std::move(w);
   progress_.reset();
   go_to_first_open();
+  if (!(before == WalkCell{plot_, trait_, occasion_})) {
+    // E1: the walk moved the crew to another cell.
+    std::swap(plot_, before.plot);
+    drop_entry();
+    std::swap(plot_, before.plot);
+  }
   return ok_status();
 }
 

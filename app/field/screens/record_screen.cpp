@@ -310,7 +310,13 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
 
   // The value being typed and the keypad. Portrait: the keys share the width.
   const float key_w = portrait ? std::max(target, (width - 2 * style.ItemSpacing.x) / 3) : kKeyPx * scale;
-  const float key_h = kKeyPx * scale;
+  // Keys as tall as the space left allows (large text must not push Save off
+  // the screen), never below the touch-target size nor above kKeyPx.
+  const float value_h = huge->FontSize * ImGui::GetIO().FontGlobalScale + style.ItemSpacing.y;
+  const float banner_h = portrait ? banner_text_h + banner_buttons_h + 2 * style.WindowPadding.y + 2 * style.ItemSpacing.y : 0;
+  const float room = ImGui::GetContentRegionAvail().y - banner_h - value_h - 5 * style.ItemSpacing.y -
+                     (portrait ? 3 * (1.3f * target + style.ItemSpacing.y) : 0);
+  const float key_h = std::clamp(room / 5, kTouchTargetPx, std::max(kTouchTargetPx, kKeyPx * scale));
   const float pad_width = 3 * key_w + 2 * style.ItemSpacing.x;
   if (portrait) draw_banner(width);
   ImGui::BeginGroup();
@@ -358,6 +364,25 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
     st->note_for_skip = false;
     st->choosing_skip_reason = false;
   }
+  const auto text_field = [&](const char* id, char* buf, size_t size, float w) {
+    ImGui::SetNextItemWidth(w);
+    ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
+    ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, std::max(4.0f, (target - ImGui::GetFontSize()) / 2)));
+    const bool entered = ImGui::InputText(id, buf, size, ImGuiInputTextFlags_EnterReturnsTrue);
+    ImGui::PopStyleVar(2);
+    return entered;
+  };
+  // The Go to field keeps its place: panels open below it.
+  ImGui::TextUnformatted("Go to plot (type or scan the stake):");
+  const float go_w = button_width("Go", scale);
+  const bool jump_entered =
+      text_field("##jump", st->jump_label, sizeof st->jump_label, std::max(target, 2 * cmd - go_w));
+  note_target("plot label", &st->targets);
+  ImGui::SameLine();
+  if ((big_button("Go", go_w, target, theme.button, theme.button_text, st) || jump_entered) && st->jump_label[0]) {
+    out.push_back({RecordCommand::Kind::jump, st->jump_label});
+    st->jump_label[0] = 0;
+  }
   if (st->choosing_skip_reason) {
     for (const std::string& reason : kSkipReasons) {
       ButtonLook look{theme.panel, theme.text};
@@ -375,14 +400,6 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
       }
     }
   }
-  const auto text_field = [&](const char* id, char* buf, size_t size, float w) {
-    ImGui::SetNextItemWidth(w);
-    ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
-    ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, std::max(4.0f, (target - ImGui::GetFontSize()) / 2)));
-    const bool entered = ImGui::InputText(id, buf, size, ImGuiInputTextFlags_EnterReturnsTrue);
-    ImGui::PopStyleVar(2);
-    return entered;
-  };
   if (st->writing_note) {
     ImGui::TextUnformatted(st->note_for_skip ? "Why is there no value? (skip reason: other)" : "Note for this plot:");
     const bool entered = text_field("##note", st->note_text, sizeof st->note_text, 2 * cmd + style.ItemSpacing.x);
@@ -396,16 +413,6 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
       st->writing_note = false;
       st->note_for_skip = false;
     }
-  }
-  ImGui::TextUnformatted("Go to plot (type or scan the stake):");
-  const float go_w = button_width("Go", scale);
-  const bool jump_entered =
-      text_field("##jump", st->jump_label, sizeof st->jump_label, std::max(target, 2 * cmd - go_w));
-  note_target("plot label", &st->targets);
-  ImGui::SameLine();
-  if ((big_button("Go", go_w, target, theme.button, theme.button_text, st) || jump_entered) && st->jump_label[0]) {
-    out.push_back({RecordCommand::Kind::jump, st->jump_label});
-    st->jump_label[0] = 0;
   }
   ImGui::EndGroup();
   ImGui::Dummy(ImVec2(0, style.WindowPadding.y));
