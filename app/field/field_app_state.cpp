@@ -92,6 +92,7 @@ class FieldApp final : public FieldAppState {
   Screen screen() const { return screen_; }
   std::vector<TapTarget> targets() const {
     std::vector<TapTarget> all = nav_targets_;
+    if (nav_menu_open_) return all;   // the list of screens covers the screen
     const std::vector<TapTarget>* own = nullptr;
     switch (screen_) {
       case Screen::trials: own = &trials_ui_.targets; break;
@@ -112,6 +113,7 @@ class FieldApp final : public FieldAppState {
   std::optional<Settings> draw(float scale) {
     refresh_views();
     const float top = draw_navigation(scale);
+    if (nav_menu_open_) return std::nullopt;   // the list of screens fills the window
     if (!session_ && kTabs[static_cast<int>(screen_)].needs_trial) screen_ = Screen::trials;
     switch (screen_) {
       case Screen::trials: draw_trials(scale, top); break;
@@ -194,25 +196,51 @@ class FieldApp final : public FieldAppState {
   // where the screens start.
   float draw_navigation(float scale) {
     const ImGuiViewport* vp = ImGui::GetMainViewport();
-    const float h = kTouchTargetPx * scale * 1.25f;
+    const float h = touch_px(scale) * 1.25f;
     ImGui::SetNextWindowPos(vp->WorkPos);
-    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, nav_height_ > 0 ? nav_height_ : h * 2));
+    ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, nav_height_ > 0 ? std::min(nav_height_, vp->WorkSize.y) : h * 2));
     ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(theme_.panel));
     ImGui::Begin("##screens", nullptr, ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove |
                                            ImGuiWindowFlags_NoSavedSettings);
     nav_targets_.clear();
-    bool first = true;
-    for (const Tab& tab : kTabs) {
+    // With large text the tabs would take several rows (most of a small
+    // screen): one "Screens" button then opens them as a list instead.
+    const float avail = ImGui::GetContentRegionAvail().x;
+    int rows = 1;
+    for (float x = 0; const Tab& tab : kTabs) {
       const float w = button_width(tab.label, scale);
-      if (!first) flow_next(w);
-      first = false;
+      if (x > 0 && x + w > avail) {
+        ++rows;
+        x = 0;
+      }
+      x += w + ImGui::GetStyle().ItemSpacing.x;
+    }
+    const bool compact = rows > 2 || rows * h > 0.22f * vp->WorkSize.y;
+    if (!compact) nav_menu_open_ = false;
+    const auto tab_look = [&](const Tab& tab) {
       const bool current = screen_ == tab.screen;
       const bool usable = session_ || !tab.needs_trial;
-      const ButtonLook look{current ? theme_.accent : theme_.background,
-                            current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
-      if (solid_button(tab.label, ImVec2(w, h), look, &nav_targets_) && usable) {
-        set_screen(tab.screen);
-        leaving_.reset();   // opened afresh each time
+      // A tab that cannot be used (no trial open) is flat on the bar, not a button.
+      return ButtonLook{current ? theme_.accent : usable ? theme_.background : theme_.panel,
+                        current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
+    };
+    if (compact && !nav_menu_open_) {
+      const std::string label = std::string("Screens: ") + kTabs[static_cast<int>(screen_)].label + "##menu";
+      if (solid_button(label.c_str(), ImVec2(avail, h), ButtonLook{theme_.background, theme_.text}, &nav_targets_,
+                       "Screens"))
+        nav_menu_open_ = true;
+    } else {
+      bool first = true;
+      for (const Tab& tab : kTabs) {
+        const float w = compact ? avail : button_width(tab.label, scale);
+        if (!first && !compact) flow_next(w);
+        first = false;
+        const bool usable = session_ || !tab.needs_trial;
+        if (solid_button(tab.label, ImVec2(w, h), tab_look(tab), &nav_targets_) && usable) {
+          set_screen(tab.screen);
+          leaving_.reset();   // opened afresh each time
+          nav_menu_open_ = false;
+        }
       }
     }
     const float used = ImGui::GetCursorPosY() + ImGui::GetStyle().WindowPadding.y - ImGui::GetStyle().ItemSpacing.y;
@@ -443,12 +471,35 @@ class FieldApp final : public FieldAppState {
 
   void draw_check(float scale, float top) {
     const Result<Analysis>& a = analysis();
+    if (check_ui_.every_trait_outliers && (!every_trait_ || every_trait_revision_ != session_->revision())) {
+      // Every trait's outlier plots on every plot, whatever today's walk.
+      const StoredTrial& t = session_->trial();
+      WalkChoice all;
+      for (const Trait& tr : t.plan.traits) all.trait_codes.push_back(tr.code);
+      every_trait_.emplace();
+      for (int occ = 1;; ++occ) {
+        bool any = false;
+        for (const Trait& tr : t.plan.traits) any = any || tr.occasions >= occ;
+        if (!any) break;
+        all.occasion = occ;
+        const BeforeLeaving b = furrow::before_leaving(t, session_->live(), settings_.alpha, Walk(t, all));
+        for (const LeavingItem& item : b.items)
+          if (item.has(LeavingItem::Kind::outlier) && item.occasion == occ)
+            every_trait_->push_back({item.plot_index, item.trait_index, item.occasion, item.message});
+      }
+      every_trait_revision_ = session_->revision();
+    }
+    static const std::vector<EveryTraitOutlier> kNone;
     const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
-                                          trait_title(), theme_, scale, top, &check_ui_);
+                                          trait_title(), session_->trial().plan.traits[session_->trait_index()].unit,
+                                          every_trait_ ? *every_trait_ : kNone, theme_, scale, top, &check_ui_);
     if (!action) return;
     switch (action->kind) {
       case CheckAction::Kind::open_plot:
         open_plot(action->plot_index, session_->trait_index(), session_->occasion());
+        break;
+      case CheckAction::Kind::open_plot_trait:
+        open_plot(action->plot_index, action->trait_index, action->occasion);
         break;
       case CheckAction::Kind::next_trait: step_trait(1); break;
       case CheckAction::Kind::previous_trait: step_trait(-1); break;
@@ -478,6 +529,7 @@ class FieldApp final : public FieldAppState {
   std::optional<RecordSession> session_;
   std::string trial_path_;
   float nav_height_ = 0;
+  bool nav_menu_open_ = false;   // large text: the list of screens is open
   std::vector<TapTarget> nav_targets_;
   RecordScreenState record_ui_;
   SettingsScreenState settings_ui_;
@@ -498,6 +550,8 @@ class FieldApp final : public FieldAppState {
   std::optional<Result<Analysis>> analysis_;
   Key analysis_key_;
   std::vector<TapTarget> help_targets_;
+  std::optional<std::vector<EveryTraitOutlier>> every_trait_;
+  std::uint64_t every_trait_revision_ = 0;
   double last_fresh_check_ = -1;
 };
 

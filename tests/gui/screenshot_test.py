@@ -66,6 +66,38 @@ for name, size, screen, view in shots:
         check(marked / sampled > 0.01, f"{name}: shows its colour #{mark.hex()} ({marked / sampled:.3f})")
     print(f"{name}: {png}")
 
+# Record, Before leaving and Check with the text at 200 % (Settings' size,
+# saved in the data folder), in both window shapes: drawn, and nothing on the
+# Record screen runs past the window's right edge (what lies below the window
+# is reached by dragging: tests/app/field/layout_test.cpp).
+big = os.path.join(work, "data200")
+os.makedirs(big)
+shutil.copy(db, os.path.join(big, "demo.furrow"))
+with open(os.path.join(big, "settings.json"), "w") as f:
+    f.write('{"observer": "Check", "ui_scale": 2.0, "theme": "daylight", "alpha": 0.05, "blind_scoring": false}')
+for view in ("record", "leaving", "check"):
+    for shape, size, screen in (("landscape", "1280x800", "1280x800x24"), ("portrait", "800x1280", "800x1280x24")):
+        name = f"{view}_{shape}_200"
+        png = os.path.join(work, f"{name}.png")
+        targets = os.path.join(work, f"{name}.targets")
+        p = subprocess.run(["xvfb-run", "-a", "-s", f"-screen 0 {screen} -noreset", furrow, "field", "--db",
+                            os.path.join(big, "demo.furrow"), "--size", size, "--screen", view, "--screenshot", png,
+                            "--targets-out", targets],
+                           capture_output=True, env=dict(os.environ, FURROW_DATA_DIR=big), timeout=120)
+        check(p.returncode == 0 and os.path.exists(png), f"{name}: drawn ({p.stderr[-300:]!r})")
+        if view == "record" and os.path.exists(targets):
+            w, h = (int(x) for x in size.split("x"))
+            items = {}
+            for line in open(targets):
+                x0, y0, x1, y1, label = line.rstrip("\n").split(" ", 4)
+                items[label] = (float(x0), float(y0), float(x1), float(y1))
+            save = items.get("Save")
+            check(save is not None and save[2] <= w and save[3] - save[1] >= 48,
+                  f"{name}: Save is inside the width and at least 48 px high ({save})")
+            wide = [l for l, r in items.items() if r[2] > w + 0.5]
+            check(not wide, f"{name}: nothing runs past the right edge ({wide})")
+        print(f"{name}: {png}")
+
 # The screen's content scale (here from the X resource Xft.dpi, as desktops
 # set it for high-density screens) multiplies every size: 144 dpi is 1.5.
 p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c",

@@ -9,6 +9,7 @@
 
 #include "app/work/number_text.h"
 #include "app/field/screens/widgets.h"
+#include "app/work/glossary.h"
 
 namespace furrow {
 namespace {
@@ -70,8 +71,9 @@ Chart begin_chart(const char* title, double y_lo, double y_hi, float height, con
 }  // namespace
 
 std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Analysis* a, const std::string& problem,
-                                             const std::string& trait_title, const Theme& t, float scale,
-                                             float top_px, CheckScreenState* st) {
+                                             const std::string& trait_title, const std::string& unit,
+                                             const std::vector<EveryTraitOutlier>& every_trait, const Theme& t,
+                                             float scale, float top_px, CheckScreenState* st) {
   st->targets.clear();
   std::optional<CheckAction> action;
   const ScreenWindow window("Check", t, top_px,
@@ -79,37 +81,94 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
                              {ImGuiCol_TableRowBgAlt, t.panel},
                              {ImGuiCol_TableBorderStrong, t.muted_text},
                              {ImGuiCol_TableBorderLight, t.muted_text}});
-  const float h = kTouchTargetPx * scale;
+  drag_to_scroll(scale);
+  const float h = touch_px(scale);
   const ButtonLook plain{t.button, t.button_text};
   banner(kInterimCaution, t.confirm, t.confirm_text);
   if (solid_button("<##trait", ImVec2(button_width("<", scale), h), plain, &st->targets, "previous trait"))
     action = CheckAction{CheckAction::Kind::previous_trait, 0};
-  ImGui::SameLine();
+  flow_next(ImGui::CalcTextSize(trait_title.c_str()).x);
   ImGui::SetCursorPosY(ImGui::GetCursorPosY() + (h - ImGui::GetTextLineHeight()) / 2);
   ImGui::TextUnformatted(trait_title.c_str());
-  ImGui::SameLine();
+  flow_next(button_width(">", scale));
   ImGui::SetCursorPosY(ImGui::GetCursorPosY() - (h - ImGui::GetTextLineHeight()) / 2);
   if (solid_button(">##trait", ImVec2(button_width(">", scale), h), plain, &st->targets, "next trait"))
     action = CheckAction{CheckAction::Kind::next_trait, 0};
+  {
+    // The supervisor's view: outlier plots of every trait.
+    const char* label = st->every_trait_outliers ? "Back to this trait's analysis" : "Outlier plots of every trait";
+    flow_next(button_width(label, scale));
+    ButtonLook look{st->every_trait_outliers ? t.accent : t.background, st->every_trait_outliers ? t.accent_text : t.text};
+    look.border_px = 2.0f * scale;
+    look.border = t.text;
+    if (solid_button(label, ImVec2(button_width(label, scale), h), look, &st->targets, "every trait"))
+      st->every_trait_outliers = !st->every_trait_outliers;
+  }
 
-  ImGui::BeginChild("analysis", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
-  drag_to_scroll(scale);
+  // The whole screen scrolls by dragging (the header too: at large text it
+  // would leave no room otherwise).
+  if (st->every_trait_outliers) {
+    const float width = ImGui::GetContentRegionAvail().x;
+    heading(("Outlier plots of every trait: " + std::to_string(every_trait.size())).c_str());
+    ImGui::TextWrapped("Tap a row to open the plot and trait.");
+    ButtonLook look{t.confirm, t.confirm_text};
+    look.align_left = true;
+    for (size_t k = 0; k < every_trait.size(); ++k) {
+      const std::string id = "##every" + std::to_string(k);
+      if (wrapped_button(id.c_str(), every_trait[k].text, width, h * 1.2f, look, &st->targets)) {
+        action = CheckAction{CheckAction::Kind::open_plot_trait, every_trait[k].plot_index};
+        action->trait_index = every_trait[k].trait_index;
+        action->occasion = every_trait[k].occasion;
+      }
+    }
+    return action;
+  }
   if (!a) {
     ImGui::TextWrapped("No analysis yet: %s", problem.c_str());
-    ImGui::EndChild();
     return action;
   }
   const float width = ImGui::GetContentRegionAvail().x;
+  const std::string unit_suffix = unit.empty() ? "" : " " + unit;
+  // What to act on first: outlier plots and missing cells, rows that open the plot.
+  const float row = h * 1.2f;
+  heading(("Act on these first: " + count_of(static_cast<long>(a->outliers.size()), term::kOutlierPlot) + ", " +
+           count_of(static_cast<long>(a->missing_cells.size()), "missing treatment cell"))
+              .c_str());
+  ImGui::TextWrapped("Rule: %s. Tap a row to open the plot and re-measure or confirm it.", a->outlier_rule.c_str());
+  ButtonLook item_look{t.confirm, t.confirm_text};
+  item_look.align_left = true;
+  for (size_t k = 0; k < a->outliers.size(); ++k) {
+    const OutlierPlot& o = a->outliers[k];
+    const std::string& label = trial.layout.plots[o.record].label;
+    char text[256];
+    std::snprintf(text, sizeof text, "Plot %s: %s%s, expected about %s (studentized residual %s)##out%zu", label.c_str(),
+                  table_number(o.value, 4).c_str(), unit_suffix.c_str(), table_number(o.expected, 4).c_str(),
+                  table_number(o.studentized_external, 3).c_str(), k);
+    if (solid_button(text, ImVec2(width, row), item_look, &st->targets, "outlier " + label))
+      action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(o.record)};
+  }
+  ButtonLook missing_look{t.panel, t.text};
+  missing_look.align_left = true;
+  for (size_t k = 0; k < a->missing_cells.size(); ++k) {
+    const MissingCell& m = a->missing_cells[k];
+    if (m.records.empty()) continue;
+    const std::string& label = trial.layout.plots[m.records.front()].label;
+    char text[300];
+    std::snprintf(text, sizeof text, "Missing: %s, plot %s##miss%zu", m.label.c_str(), label.c_str(), k);
+    if (solid_button(text, ImVec2(width, row), missing_look, &st->targets, "missing " + label))
+      action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(m.records.front())};
+  }
+
+  heading("The analysis");
   ImGui::TextWrapped("%s, %d plots analysed%s. Grand mean %s, CV %s %%, R squared %s, residual SD %s.",
                      design_kind_title(a->design), a->n,
                      a->n_missing ? (", " + std::to_string(a->n_missing) + " without a value").c_str() : "",
                      table_number(a->grand_mean, 5).c_str(), table_number(a->cv_percent, 3).c_str(),
                      table_number(a->r_squared, 3).c_str(), table_number(a->residual_sd, 4).c_str());
-  const int pct = static_cast<int>(std::lround(100 * (1 - a->alpha)));
   if (a->lsd || a->hsd || a->mdd_percent) {
     std::string line;
-    if (a->lsd) line += "LSD (" + std::to_string(pct) + " %) " + table_number(*a->lsd, 4) + ".  ";
-    if (a->hsd) line += "Tukey HSD (" + std::to_string(pct) + " %) " + table_number(*a->hsd, 4) + ".  ";
+    if (a->lsd) line += term::lsd_title(a->alpha) + " " + table_number(*a->lsd, 4) + unit_suffix + ".  ";
+    if (a->hsd) line += term::hsd_title(a->alpha) + " " + table_number(*a->hsd, 4) + unit_suffix + ".  ";
     if (a->mdd_percent)
       line += "Smallest difference detectable with 80 % power: " + table_number(*a->mdd_percent, 3) + " % of the mean.";
     ImGui::TextWrapped("%s", line.c_str());
@@ -119,7 +178,7 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   heading(("Analysis of variance (" + std::string(sums_kind_key(a->sums)) + " sums of squares)").c_str());
   const ImGuiTableFlags tf = ImGuiTableFlags_Borders | ImGuiTableFlags_RowBg | ImGuiTableFlags_SizingStretchProp;
   if (ImGui::BeginTable("anova", 7, tf)) {
-    for (const char* c : {"Term", "DF", "SS", "MS", "F", "P", "tested against"}) ImGui::TableSetupColumn(c);
+    for (const char* c : {term::kTerm, "DF", "SS", "MS", "F", "P", term::kTestedAgainst}) ImGui::TableSetupColumn(c);
     ImGui::TableHeadersRow();
     for (const AnovaRow& r : a->table) {
       ImGui::TableNextRow();
@@ -136,22 +195,37 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   // Means of each treatment term.
   for (const TermMeans& m : a->means) {
     heading(("Means of " + m.term + (m.adjusted ? " (adjusted for missing plots)" : "")).c_str());
+    {
+      const char* label = st->means_in_plan_order ? "Sort by mean" : "Sort as in the plan";
+      if (solid_button((std::string(label) + "##" + m.term).c_str(), ImVec2(button_width(label, scale), h), plain,
+                       &st->targets, label))
+        st->means_in_plan_order = !st->means_in_plan_order;
+    }
     const bool letters = !m.levels.empty() && !m.levels.front().group_lsd.empty();
     const int cols = letters ? 6 : 4;
     if (ImGui::BeginTable(("means" + m.term).c_str(), cols, tf)) {
       ImGui::TableSetupColumn(m.term.c_str());
-      ImGui::TableSetupColumn("plots");
-      ImGui::TableSetupColumn("mean");
-      ImGui::TableSetupColumn("SE");
+      ImGui::TableSetupColumn(term::kPlots);
+      ImGui::TableSetupColumn((std::string(term::kMean) + unit_suffix).c_str());
+      ImGui::TableSetupColumn(term::kSe);
       if (letters) {
-        ImGui::TableSetupColumn("LSD group");
-        ImGui::TableSetupColumn("HSD group");
+        ImGui::TableSetupColumn(term::kLsdGroup);
+        ImGui::TableSetupColumn(term::kHsdGroup);
       }
       ImGui::TableHeadersRow();
-      for (const MeanRow& r : m.levels) {
+      // Highest mean first unless the crew asked for the plan's order.
+      std::vector<const MeanRow*> rows;
+      for (const MeanRow& r : m.levels) rows.push_back(&r);
+      if (!st->means_in_plan_order)
+        std::stable_sort(rows.begin(), rows.end(), [](const MeanRow* x, const MeanRow* y) {
+          if (x->estimable != y->estimable) return x->estimable;
+          return x->mean > y->mean;
+        });
+      for (const MeanRow* r : rows) {
         ImGui::TableNextRow();
-        const std::string cells[6] = {r.label, std::to_string(r.n), r.estimable ? table_number(r.mean, 5) : "-",
-                                      r.estimable ? table_number(r.se, 3) : "-", r.group_lsd, r.group_hsd};
+        const std::string cells[6] = {r->label, std::to_string(r->n),
+                                      r->estimable ? table_number(r->mean, 4) : term::kNotEstimable,
+                                      r->estimable ? table_number(r->se, 3) : "-", r->group_lsd, r->group_hsd};
         for (int k = 0; k < cols; ++k) {
           ImGui::TableSetColumnIndex(k);
           ImGui::TextUnformatted(cells[k].c_str());
@@ -159,10 +233,10 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
       }
       ImGui::EndTable();
     }
-    std::string line = "SE of a difference " + table_number(m.sed, 4) + ", LSD " + table_number(m.lsd, 4);
+    std::string line = "SE of a difference " + table_number(m.sed, 3) + ", LSD " + table_number(m.lsd, 4) + unit_suffix;
     if (m.lsd_max > m.lsd_min * (1 + 1e-9))
       line += " (pairs " + table_number(m.lsd_min, 4) + " to " + table_number(m.lsd_max, 4) + ")";
-    if (m.q_critical > 0) line += ", Tukey HSD " + table_number(m.hsd, 4);
+    if (m.q_critical > 0) line += ", Tukey HSD " + table_number(m.hsd, 4) + unit_suffix;
     line += "; error: " + m.error_term + ". Means sharing a letter do not differ at alpha " + value_text(a->alpha) + ".";
     ImGui::TextWrapped("%s", line.c_str());
     if (!m.note.empty()) ImGui::TextWrapped("%s", m.note.c_str());
@@ -246,37 +320,8 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   }
   for (const std::string& n : vc.notes) ImGui::TextWrapped("note: %s", n.c_str());
 
-  // Outlier plots and missing cells: rows that open the plot.
-  const float row = h * 1.2f;
-  heading(("Outlier plots: " + std::to_string(a->outliers.size())).c_str());
-  ImGui::TextWrapped("Rule: %s. Tap a row to open the plot and re-measure or confirm it.", a->outlier_rule.c_str());
-  ButtonLook item_look{t.confirm, t.confirm_text};
-  item_look.align_left = true;
-  for (size_t k = 0; k < a->outliers.size(); ++k) {
-    const OutlierPlot& o = a->outliers[k];
-    const std::string& label = trial.layout.plots[o.record].label;
-    char text[256];
-    std::snprintf(text, sizeof text, "Plot %s: %s, expected about %s (studentized residual %s)##out%zu", label.c_str(),
-                  value_text(o.value).c_str(), value_text(o.expected).c_str(),
-                  table_number(o.studentized_external, 3).c_str(), k);
-    if (solid_button(text, ImVec2(width, row), item_look, &st->targets, "outlier " + label))
-      action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(o.record)};
-  }
-  heading(("Missing treatment cells: " + std::to_string(a->missing_cells.size())).c_str());
-  ButtonLook missing_look{t.panel, t.text};
-  missing_look.align_left = true;
-  for (size_t k = 0; k < a->missing_cells.size(); ++k) {
-    const MissingCell& m = a->missing_cells[k];
-    if (m.records.empty()) continue;
-    const std::string& label = trial.layout.plots[m.records.front()].label;
-    char text[300];
-    std::snprintf(text, sizeof text, "%s: plot %s##miss%zu", m.label.c_str(), label.c_str(), k);
-    if (solid_button(text, ImVec2(width, row), missing_look, &st->targets, "missing " + label))
-      action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(m.records.front())};
-  }
   for (const std::string& n : a->notes) ImGui::TextWrapped("note: %s", n.c_str());
   ImGui::Dummy(ImVec2(0, h));
-  ImGui::EndChild();
   return action;
 }
 

@@ -1,6 +1,7 @@
 #pragma once
-// The Check screen: the interim analysis of the chosen trait with the
-// trial's design - analysis-of-variance table, means with SE and letter
+// The Check screen: first what to act on (outlier plots and missing cells,
+// each a tap from its plot), then the interim analysis of the chosen trait
+// with the trial's design - analysis-of-variance table, means with SE and letter
 // groups, CV, LSD, Tukey HSD, minimum detectable difference, variance
 // components - the outlier plots and missing cells as rows that open the
 // plot, and two charts drawn with ImGui's draw lists: the values per
@@ -19,18 +20,31 @@
 namespace furrow {
 
 struct CheckScreenState {
-  std::vector<TapTarget> targets;   // rebuilt every frame
+  bool means_in_plan_order = false;    // else highest mean first
+  bool every_trait_outliers = false;   // the supervisor's list instead of one trait's analysis
+  std::vector<TapTarget> targets;      // rebuilt every frame
 };
 
 struct CheckAction {
-  enum class Kind { open_plot, next_trait, previous_trait } kind = Kind::open_plot;
-  size_t plot_index = 0;            // open_plot: into trial.layout.plots
+  enum class Kind { open_plot, open_plot_trait, next_trait, previous_trait } kind = Kind::open_plot;
+  size_t plot_index = 0;            // open_plot(_trait): into trial.layout.plots
+  size_t trait_index = 0;           // open_plot_trait
+  int occasion = 1;
+};
+
+// One line of the every-trait outlier list.
+struct EveryTraitOutlier {
+  size_t plot_index = 0, trait_index = 0;
+  int occasion = 1;
+  std::string text;
 };
 
 // `analysis` is null when the trait cannot be analysed yet; `problem` then
-// says why in plain words.
+// says why in plain words. `unit` is the trait's unit (may be empty);
+// `every_trait` the outlier plots of every trait (shown on request).
 std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Analysis* analysis,
                                              const std::string& problem, const std::string& trait_title,
+                                             const std::string& unit, const std::vector<EveryTraitOutlier>& every_trait,
                                              const Theme& theme, float scale, float top_px, CheckScreenState* state);
 
 }  // namespace furrow

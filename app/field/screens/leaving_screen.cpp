@@ -26,7 +26,7 @@ std::optional<OpenItem> draw_leaving_screen(const BeforeLeaving& list, const std
     ImGui::TextWrapped("%s", counts.c_str());
   }
   if (!list.outside_walk.empty()) ImGui::TextWrapped("%s", list.outside_walk.c_str());
-  const float row = kTouchTargetPx * scale * 1.3f;
+  const float row = touch_px(scale) * 1.3f;
   const float width = ImGui::GetContentRegionAvail().x;
   for (size_t i = 0; i < list.items.size(); ++i) {
     const LeavingItem& item = list.items[i];

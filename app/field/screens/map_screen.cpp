@@ -50,9 +50,10 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
   st->targets.clear();
   std::optional<MapAction> action;
   const ScreenWindow window("Field map", t, top_px, {{ImGuiCol_ChildBg, t.panel}}, ImGuiWindowFlags_NoScrollWithMouse);
-  const float h = kTouchTargetPx * scale;
+  const float h = touch_px(scale);
   const ButtonLook plain{t.button, t.button_text};
   const ButtonLook chosen{t.accent, t.accent_text};
+  drag_to_scroll(scale);   // the controls and legend scroll; a drag on the map pans it
 
   // Controls: what colours the plots, which trait, how near.
   const struct { const char* label; MapColouring c; } modes[] = {
@@ -146,7 +147,7 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
   ImDrawList* dl = ImGui::GetWindowDrawList();
   for (int s = 0; s < sites && header > 0; ++s)
     dl->AddText(ImVec2(origin.x + g.site_x(s), origin.y), colour(t.text), map.site_names[s].c_str());
-  const bool openable = cell >= kTouchTargetPx * scale;
+  const bool openable = cell >= touch_px(scale);
   ImFont* font = ImGui::GetFont();
   const float label_px = std::min(ImGui::GetFontSize(), cell * 0.32f);
   for (const MapPlot& p : map.plots) {
@@ -168,7 +169,7 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
     // part is still fingertip-sized.
     const float vx0 = std::max(a.x, view_min.x), vy0 = std::max(a.y, view_min.y);
     const float vx1 = std::min(b.x, view_max.x), vy1 = std::min(b.y, view_max.y);
-    if (openable && vx1 - vx0 >= kTouchTargetPx * scale && vy1 - vy0 >= kTouchTargetPx * scale)
+    if (openable && vx1 - vx0 >= touch_px(scale) && vy1 - vy0 >= touch_px(scale))
       st->targets.push_back({"plot " + label, vx0, vy0, vx1, vy1});
   }
   if (tapped) {

@@ -133,7 +133,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
                              {ImGuiCol_Border, theme.text}});
   drag_to_scroll(scale);
   const ImGuiStyle& style = ImGui::GetStyle();
-  const float target = kTouchTargetPx * scale;
+  const float target = touch_px(scale);
   const float width = ImGui::GetContentRegionAvail().x;
   const bool portrait = vp->WorkSize.y > vp->WorkSize.x;
 
@@ -157,30 +157,36 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   std::string recorded = "Recorded: " + (v.current ? *v.current : std::string("nothing yet"));
   if (!v.note.empty()) recorded += "   (note: " + v.note + ")";
   ImGui::TextUnformatted(recorded.c_str());
+  // Today's walk: the chooser's button and the walk's progress, two lines
+  // of fixed height whatever they say.
   std::string progress;
   if (v.in_walk) {
-    std::string name = v.trait_name;
-    std::transform(name.begin(), name.end(), name.begin(), [](unsigned char c) { return std::tolower(c); });
-    progress = "Done " + std::to_string(v.trait_done) + " of " + std::to_string(v.trait_total) + " " + name +
-               " values; plot " + std::to_string(v.walk_position) + " of " + std::to_string(v.walk_plots) +
-               " in today's walk";
+    progress = "Done " + std::to_string(v.trait_done) + " of " + std::to_string(v.trait_total) + " (" + v.trait_name +
+               ")  -  plot " + std::to_string(v.walk_position) + " of " + std::to_string(v.walk_plots);
     if (v.walk_total != v.trait_total)
-      progress += " (" + std::to_string(v.walk_done) + " of " + std::to_string(v.walk_total) + " values in all)";
+      progress += "  -  " + std::to_string(v.walk_done) + " of " + std::to_string(v.walk_total) + " values in the walk";
+    if (v.walk_complete) progress += ". Today's walk is complete.";
   } else {
-    progress = "This plot and trait are not part of today's walk";
+    progress = "This plot and trait are not part of today's walk.";
   }
-  ImGui::TextUnformatted(progress.c_str());
   const std::string walk_label = std::string(term::kTodaysWalk) + ": " + v.walk_summary;
-  {
+  const auto draw_walk_status = [&](float w) {
     ButtonLook look{st->choosing_walk ? theme.accent : theme.panel, st->choosing_walk ? theme.accent_text : theme.text};
     look.border_px = 2.0f * scale;
     look.border = theme.text;
     look.align_left = true;
-    if (solid_button((walk_label + "##walk").c_str(), ImVec2(width, target), look, &st->targets, "Today's walk"))
+    if (solid_button((walk_label + "##walk").c_str(), ImVec2(w, target), look, &st->targets, "Today's walk"))
       st->choosing_walk = !st->choosing_walk;
-  }
+    ImGui::BeginChild("progress", ImVec2(w, 2 * ImGui::GetTextLineHeightWithSpacing()), false,
+                      ImGuiWindowFlags_NoScrollbar | ImGuiWindowFlags_NoScrollWithMouse);
+    ImGui::PushTextWrapPos(0.0f);
+    ImGui::TextUnformatted(progress.c_str());
+    ImGui::PopTextWrapPos();
+    ImGui::EndChild();
+  };
 
   if (st->choosing_walk) {
+    draw_walk_status(width);
     // The walk chooser: a tap on a trait, block or mode changes the walk at once.
     WalkChoice c = walk.choice(trial);
     const auto toggle = [&](const char* label, bool on, float w) {
@@ -308,17 +314,25 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
     ImGui::PopStyleColor(2);
   };
 
-  // The value being typed and the keypad. Portrait: the keys share the width.
-  const float key_w = portrait ? std::max(target, (width - 2 * style.ItemSpacing.x) / 3) : kKeyPx * scale;
+  // Landscape: the keypad on the left, the walk, banner and commands on the
+  // right. Portrait: the walk and banner above the keypad (which uses the
+  // whole width), the commands below it.
+  float cmd = 4.5f * target;
+  const float key_w = portrait ? std::max(target, (width - 2 * style.ItemSpacing.x) / 3) : kKeyPx * std::max(1.0f, scale);
+  const float pad_width = 3 * key_w + 2 * style.ItemSpacing.x;
+  if (portrait) {
+    draw_walk_status(width);
+    draw_banner(width);
+    cmd = std::max(target, (width - style.ItemSpacing.x) / 2);
+  } else {
+    cmd = std::max(target, std::min(cmd, (width - pad_width - 2 * style.ItemSpacing.x - target) / 2));
+  }
   // Keys as tall as the space left allows (large text must not push Save off
   // the screen), never below the touch-target size nor above kKeyPx.
   const float value_h = huge->FontSize * ImGui::GetIO().FontGlobalScale + style.ItemSpacing.y;
-  const float banner_h = portrait ? banner_text_h + banner_buttons_h + 2 * style.WindowPadding.y + 2 * style.ItemSpacing.y : 0;
-  const float room = ImGui::GetContentRegionAvail().y - banner_h - value_h - 5 * style.ItemSpacing.y -
+  const float room = ImGui::GetContentRegionAvail().y - value_h - 5 * style.ItemSpacing.y -
                      (portrait ? 3 * (1.3f * target + style.ItemSpacing.y) : 0);
-  const float key_h = std::clamp(room / 5, kTouchTargetPx, std::max(kTouchTargetPx, kKeyPx * scale));
-  const float pad_width = 3 * key_w + 2 * style.ItemSpacing.x;
-  if (portrait) draw_banner(width);
+  const float key_h = std::clamp(room / 5, kTouchTargetPx, std::max(kTouchTargetPx, kKeyPx * std::max(1.0f, scale)));
   ImGui::BeginGroup();
   ImGui::PushFont(huge);
   const std::string value_line = "Value: " + v.typed + "_";
@@ -339,14 +353,12 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   ImGui::EndGroup();
 
   // Moving along and the other commands.
-  float cmd = 4.5f * target;
-  if (!portrait) {
-    ImGui::SameLine(0, std::min(2 * target, std::max(style.ItemSpacing.x, width - pad_width - 2 * cmd - style.ItemSpacing.x)));
-  } else {
-    cmd = std::max(target, (width - style.ItemSpacing.x) / 2);
-  }
+  if (!portrait) ImGui::SameLine(0, target);
   ImGui::BeginGroup();
-  if (!portrait) draw_banner(2 * cmd + style.ItemSpacing.x);
+  if (!portrait) {
+    draw_walk_status(2 * cmd + style.ItemSpacing.x);
+    draw_banner(2 * cmd + style.ItemSpacing.x);
+  }
   if (big_button("Previous plot", cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::previous, {}});
   ImGui::SameLine();

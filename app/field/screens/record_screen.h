@@ -75,6 +75,9 @@ inline constexpr double kScanKeyGapSeconds = 0.03;
 // Minimum size of anything a finger taps, in pixels at scale 1 (Material
 // Design touch-target guideline: 48 dp; WCAG 2.1 SC 2.5.5 asks for 44 px).
 inline constexpr float kTouchTargetPx = 48.0f;
+// The touch-target size at a text size: larger text makes targets larger,
+// smaller text never makes them smaller than kTouchTargetPx.
+inline float touch_px(float scale) { return kTouchTargetPx * (scale > 1.0f ? scale : 1.0f); }
 
 // `top_px`: where the screen starts below the navigation bar. `trial` gives
 // the walk chooser its traits and blocks. `asked_about_saved`: Before leaving

@@ -2,6 +2,8 @@
 
 #include <imgui.h>
 
+#include <algorithm>
+
 #include "app/field/screens/widgets.h"
 
 #include <cmath>
@@ -34,11 +36,14 @@ std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t
     st->observer_loaded = true;
   }
   const ScreenWindow window("Settings", t, top_px, {{ImGuiCol_FrameBg, t.panel}});
-  const float h = kTouchTargetPx * scale * 1.3f;
-  const float w = 4.5f * kTouchTargetPx * scale;
+  drag_to_scroll(scale);
+  const float avail = ImGui::GetContentRegionAvail().x;
+  const float h = touch_px(scale) * 1.3f;
+  // Buttons wrap to the next line rather than run off a narrow window.
+  const float w = std::min(4.5f * touch_px(scale), avail);
 
-  ImGui::Text("Observer (recorded with every value)");
-  ImGui::SetNextItemWidth(2 * w);
+  ImGui::TextWrapped("Observer (recorded with every value)");
+  ImGui::SetNextItemWidth(std::min(2 * w, avail));
   ImGui::PushStyleVar(ImGuiStyleVar_FrameBorderSize, 2.0f * scale);
   ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(10 * scale, (h - ImGui::GetFontSize()) / 2));
   ImGui::PushStyleColor(ImGuiCol_Border, to_imgui(t.text));
@@ -50,40 +55,41 @@ std::optional<Settings> draw_settings_screen(const Settings& cur, const Theme& t
   ImGui::PopStyleColor();
   ImGui::PopStyleVar(2);
 
-  ImGui::Text("Theme");
+  ImGui::TextWrapped("Theme");
   if (choice("Daylight", cur.theme == ThemeKind::daylight, w, h, t, st)) {
     next.theme = ThemeKind::daylight;
     changed = next;
   }
-  ImGui::SameLine();
+  flow_next(w);
   if (choice("Dark", cur.theme == ThemeKind::dark, w, h, t, st)) {
     next.theme = ThemeKind::dark;
     changed = next;
   }
 
-  ImGui::Text("Size of text and buttons: %.0f %%", cur.ui_scale * 100);
+  ImGui::TextWrapped("Size of text and buttons: %.0f %%", cur.ui_scale * 100);
   if (choice("Smaller", false, w, h, t, st) && cur.ui_scale - kScaleStep >= kMinUiScale - 1e-9) {
     next.ui_scale = cur.ui_scale - kScaleStep;
     changed = next;
   }
-  ImGui::SameLine();
+  flow_next(w);
   if (choice("Larger", false, w, h, t, st) && cur.ui_scale + kScaleStep <= kMaxUiScale + 1e-9) {
     next.ui_scale = cur.ui_scale + kScaleStep;
     changed = next;
   }
 
-  ImGui::Text("Significance level for LSD, HSD and letters");
+  ImGui::TextWrapped("Significance level for LSD, HSD and letters");
   for (double alpha : {0.10, 0.05, 0.01}) {
     char label[16];
     std::snprintf(label, sizeof label, "%.2f", alpha);
-    if (alpha != 0.10) ImGui::SameLine();
-    if (choice(label, std::abs(cur.alpha - alpha) < 1e-12, w * 0.6f, h, t, st)) {
+    const float aw = std::max(touch_px(scale), std::min(w * 0.6f, avail));
+    if (alpha != 0.10) flow_next(aw);
+    if (choice(label, std::abs(cur.alpha - alpha) < 1e-12, aw, h, t, st)) {
       next.alpha = alpha;
       changed = next;
     }
   }
 
-  ImGui::Text("Blind scoring (treatment names hidden while collecting)");
+  ImGui::TextWrapped("Blind scoring (treatment names hidden while collecting)");
   if (choice(cur.blind_scoring ? "Blind scoring is on" : "Blind scoring is off", cur.blind_scoring, w, h, t, st)) {
     next.blind_scoring = !cur.blind_scoring;
     changed = next;

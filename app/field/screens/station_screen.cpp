@@ -15,7 +15,7 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
   const ScreenWindow window("Station", t, top_px, {{ImGuiCol_FrameBg, t.panel}, {ImGuiCol_PlotHistogram, t.accent}});
   ImGui::BeginChild("station", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
   drag_to_scroll(scale);
-  const float h = kTouchTargetPx * scale;
+  const float h = touch_px(scale);
   const float width = ImGui::GetContentRegionAvail().x;
   const ButtonLook plain{t.button, t.button_text};
   // Day's-end actions.

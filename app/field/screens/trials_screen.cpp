@@ -24,9 +24,8 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
   st->targets.clear();
   std::optional<TrialsAction> action;
   const ScreenWindow window("Trials", t, top_px, {{ImGuiCol_FrameBg, t.panel}});
-  ImGui::BeginChild("list", ImVec2(0, 0), false, ImGuiWindowFlags_NoScrollbar);
-  drag_to_scroll(scale);
-  const float h = kTouchTargetPx * scale;
+  drag_to_scroll(scale);   // the whole screen scrolls by dragging
+  const float h = touch_px(scale);
   const float width = ImGui::GetContentRegionAvail().x;
   if (!st->message.empty())
     banner(st->message.c_str(), st->message_is_problem ? t.refuse : t.saved,
@@ -80,7 +79,7 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
   if ((solid_button("Create", ImVec2(create_w, h), ButtonLook{t.button, t.button_text}, &st->targets) || entered) &&
       st->plan_path[0])
     action = TrialsAction{TrialsAction::Kind::create_from_plan, st->plan_path};
-  ImGui::EndChild();
+  ImGui::Dummy(ImVec2(0, h));
   return action;
 }
 

@@ -84,7 +84,7 @@ void flow_next(float next_width) {
 }
 
 float button_width(const char* label, float scale) {
-  return std::max(kTouchTargetPx * scale, ImGui::CalcTextSize(label, nullptr, true).x + 2 * ImGui::GetStyle().FramePadding.x +
+  return std::max(touch_px(scale), ImGui::CalcTextSize(label, nullptr, true).x + 2 * ImGui::GetStyle().FramePadding.x +
                                              16.0f * scale);
 }
 

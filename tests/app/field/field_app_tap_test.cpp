@@ -109,7 +109,10 @@ class TapRun {
     std::string suggestion = before.suggestion;
     const int pick = static_cast<int>(random_.below(100));
     ImGuiIO& io = ImGui::GetIO();
-    if (pick < 8 && app_->screen() == Screen::record && !io.WantTextInput) {
+    // Keys reach the Record screen only while it is drawn (not under the
+    // list of screens that large text opens).
+    const bool record_shown = app_->screen() == Screen::record && test::find_target(app_->targets(), "Save");
+    if (pick < 8 && record_shown && !io.WantTextInput) {
       // A keyboard key.
       const int k = static_cast<int>(random_.below(14));
       if (k < 10) {
@@ -164,7 +167,8 @@ class TapRun {
       // Only what a finger can reach: a screen's item scrolled under the
       // navigation bar is hidden by it.
       const std::vector<TapTarget> all = app_->targets();
-      const char* tabs[] = {"Trials", "Record", "Field map", "Check", "Before leaving", "Station", "Settings", "Help"};
+      const char* tabs[] = {"Trials", "Record", "Field map", "Check", "Before leaving", "Station", "Settings", "Help",
+                            "Screens"};
       float nav_bottom = 0;
       for (const TapTarget& t : all)
         if (std::find(std::begin(tabs), std::end(tabs), t.label) != std::end(tabs)) nav_bottom = std::max(nav_bottom, t.y1);

@@ -17,7 +17,7 @@ namespace {
 struct Headless {
   Headless(float w, float h, const StoredTrial& t, const Analysis* a, std::string p)
       : trial(t), analysis(a), problem(std::move(p)), ui(w, h, [this] {
-          if (auto x = draw_check_screen(trial, analysis, problem, "plant height (cm)", theme, 1.0f, 0.0f, &state))
+          if (auto x = draw_check_screen(trial, analysis, problem, "plant height (cm)", "cm", every_trait, theme, 1.0f, 0.0f, &state))
             action = x;
         }) {
     ui.frame();
@@ -28,6 +28,7 @@ struct Headless {
   std::string problem;
   Theme theme = make_theme(ThemeKind::daylight);
   CheckScreenState state;
+  std::vector<EveryTraitOutlier> every_trait;
   std::optional<CheckAction> action;
   test::HeadlessImGui ui;
 };
@@ -45,8 +46,8 @@ TEST_CASE("the slip is listed as an outlier and the flooded plot as a missing ce
   REQUIRE(s.ok());
   const auto a = analyse_trial_trait(s->trial(), s->live(), 1, 1, AnalysisOptions{});
   REQUIRE(a.ok());
-  // A tall window so that the lists at the end are on screen without scrolling.
-  Headless h(1280, 6000, s->trial(), &*a, "");
+  // What to act on comes first: on a tablet-sized screen without scrolling.
+  Headless h(1280, 800, s->trial(), &*a, "");
   const TapTarget* outlier = test::find_target(h.state.targets, "outlier 307");
   const TapTarget* missing = test::find_target(h.state.targets, "missing 214");
   REQUIRE(outlier != nullptr);
@@ -78,6 +79,34 @@ TEST_CASE("without an analysis the screen says why and still changes trait") {
   h.ui.tap(*test::find_target(h.state.targets, "previous trait"));
   REQUIRE(h.action.has_value());
   CHECK(h.action->kind == CheckAction::Kind::previous_trait);
+}
+
+}  // namespace
+}  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("means are sorted by value by default, in the plan's order on request; the supervisor's every-trait list opens plots") {
+  const std::string path = test::demo_day_trial("check_screen_sort.furrow");
+  auto s = RecordSession::open(path, "Mara");
+  REQUIRE(s.ok());
+  const auto a = analyse_trial_trait(s->trial(), s->live(), 1, 1, AnalysisOptions{});
+  REQUIRE(a.ok());
+  Headless h(1280, 800, s->trial(), &*a, "");
+  CHECK(test::find_target(h.state.targets, "Sort as in the plan") != nullptr);
+  h.ui.tap(*test::find_target(h.state.targets, "Sort as in the plan"));
+  CHECK(h.state.means_in_plan_order);
+  CHECK(test::find_target(h.state.targets, "Sort by mean") != nullptr);
+  h.every_trait = {{index_of(s->trial(), "307"), 1, 1, "plot 307, plant height: outlier plot"}};
+  h.ui.tap(*test::find_target(h.state.targets, "every trait"));
+  CHECK(h.state.every_trait_outliers);
+  const TapTarget* row = test::find_target(h.state.targets, "plot 307, plant height: outlier plot");
+  REQUIRE(row != nullptr);
+  h.ui.tap(*row);
+  REQUIRE(h.action.has_value());
+  CHECK(h.action->kind == CheckAction::Kind::open_plot_trait);
+  CHECK(h.action->trait_index == 1);
 }
 
 }  // namespace
