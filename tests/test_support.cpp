@@ -13,10 +13,16 @@
 
 #include <filesystem>
 
+#include <unistd.h>
+
 namespace furrow::test {
 
 std::string reference_path(const std::string& relative) { return std::string(FURROW_REFERENCE_DIR) + "/" + relative; }
 std::string generated_path(const std::string& relative) { return std::string(FURROW_GENERATED_DIR) + "/" + relative; }
+
+std::filesystem::path scratch_dir(const std::string& name) {
+  return std::filesystem::temp_directory_path() / ("furrow_" + name + "_" + std::to_string(::getpid()));
+}
 
 std::string read_text(const std::string& path) {
   std::ifstream in(path, std::ios::binary);
@@ -43,7 +49,7 @@ DesignRoles rcbd_roles() {
 }
 
 std::string fresh_demo_trial(const std::string& name) {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_tests";
+  const auto dir = scratch_dir("tests");
   std::filesystem::create_directories(dir);
   const std::string path = (dir / name).string();
   for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);
@@ -64,7 +70,7 @@ const AnovaRow& row(const Analysis& a, const std::string& source) {
 // The demo trial with stand count and height entered for every plot from the
 // demo day (plot 214 skipped as flooded, plot 307's height 8.3 confirmed).
 std::string demo_day_trial(const std::string& name) {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_demo_day";
+  const auto dir = scratch_dir("demo_day");
   std::filesystem::create_directories(dir);
   const std::string path = (dir / name).string();
   for (const char* s : {"", "-wal", "-shm"}) std::filesystem::remove(path + s);

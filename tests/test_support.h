@@ -2,6 +2,7 @@
 // Helpers shared by the tests: reading reference files, comparing numbers.
 
 #include <cmath>
+#include <filesystem>
 #include <string>
 #include <vector>
 
@@ -12,6 +13,10 @@ namespace furrow::test {
 std::string reference_path(const std::string& relative);   // under tests/reference/data
 std::string generated_path(const std::string& relative);   // made by a fixture at test time
 std::string read_text(const std::string& path);
+// A folder for this test process's files: the system's temporary folder,
+// "furrow_<name>_<process id>", so that two test runs on one machine (two
+// checkouts, or ctest -j) never share files. Not created or emptied here.
+std::filesystem::path scratch_dir(const std::string& name);
 PlotTable load_csv(const std::string& path);               // fails the test on a bad file
 
 // Log relative error, as used for the NIST StRD (McCullough 1998): the number

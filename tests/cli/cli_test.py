@@ -58,6 +58,8 @@ check(j["variance_components"]["heritability"] is not None, "heritability with r
 code, out, err = run("--csv", os.path.join(REF, "field-experiments", "cochran-latin.csv"), "--design", "latin",
                      "--row", "row_order", "--column", "col_area", "--treatment", "operator", "--response", "diff",
                      "--json")
+if code != 0:
+    sys.exit(f"FAIL: furrow analyze on the published Cochran & Cox table exited {code}: {err.strip()}")
 j = json.loads(out)
 op = [r for r in j["table"] if r["source"] == "operator"][0]
 check(abs(op["ss"] - 155.595833) < 5e-7 and abs(op["f"] - 9.350243) < 5e-7, "Cochran & Cox operator row")

@@ -76,7 +76,7 @@ TEST_CASE("Latin square: Cochran & Cox (1957), Experimental Designs, 2nd ed., pp
 }
 
 TEST_CASE("Latin square on a uniformity trial: Mercer & Hall (1911), J. Agric. Sci. 4, 107-132, Table 1 "
-          "(exact values computed in SOURCE.md, no printed table)") {
+          "(our exact computation from the file, no printed table to compare)") {
   DesignRoles roles;
   roles.kind = DesignKind::latin_square;
   roles.row = "row";

@@ -64,6 +64,7 @@ NistSet load_nist(const std::string& name) {
   REQUIRE(s.table.columns[1].name == "response");
   // Observation counts stated by NIST for each set (SOURCE.md).
   const size_t n = s.table.columns[0].cells.size();
+  INFO(name << ".csv: " << n << " observations");
   CHECK(double(n) == s.c.between_df + s.c.within_df + 1);
   return s;
 }

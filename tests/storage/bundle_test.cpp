@@ -33,7 +33,7 @@ std::string bytes_of(const std::string& path) {
 }
 
 fs::path fresh_dir(const std::string& name) {
-  const fs::path d = fs::temp_directory_path() / name;
+  const fs::path d = test::scratch_dir(name);
   fs::remove_all(d);
   fs::create_directories(d);
   return d;

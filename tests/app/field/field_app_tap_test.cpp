@@ -307,7 +307,7 @@ TEST_CASE("100,000 random taps and keys on the real screens save exactly what th
   constexpr int kRuns = 4;   // fresh trials, so that every run starts with plots to fill
   int saved = 0;
   for (int run = 0; run < kRuns; ++run) {
-    const auto dir = std::filesystem::temp_directory_path() / ("furrow_taps_" + std::to_string(run));
+    const auto dir = test::scratch_dir("taps_" + std::to_string(run));
     std::filesystem::remove_all(dir);
     std::filesystem::create_directories(dir);
     const std::string db = test::demo_day_trial("taps" + std::to_string(run) + ".furrow");

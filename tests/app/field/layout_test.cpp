@@ -22,7 +22,7 @@ bool is_tab(const std::string& l) { return std::find(std::begin(kTabs), std::end
 
 TEST_CASE("every screen in both shapes and text 75-300 %: items 48 px or more inside the width and reachable by dragging") {
   const std::string db = test::demo_day_trial("layout.furrow");
-  const auto folder = std::filesystem::temp_directory_path() / "furrow_layout";
+  const auto folder = test::scratch_dir("layout");
   std::filesystem::remove_all(folder);
   std::filesystem::create_directories(folder);
   const Screen screens[] = {Screen::trials, Screen::record,  Screen::map,      Screen::check,

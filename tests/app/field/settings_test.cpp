@@ -2,6 +2,8 @@
 
 #include <doctest/doctest.h>
 
+#include "tests/test_support.h"
+
 #include <filesystem>
 #include <fstream>
 
@@ -11,7 +13,7 @@ namespace furrow {
 namespace {
 
 std::string temp_file(const std::string& name) {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_settings_test";
+  const auto dir = test::scratch_dir("settings_test");
   std::filesystem::create_directories(dir);
   std::filesystem::remove(dir / name);
   return (dir / name).string();
@@ -56,7 +58,7 @@ TEST_CASE("a damaged settings file is reported with the field, and not changed")
 }
 
 TEST_CASE("the data folder follows FURROW_DATA_DIR and is created") {
-  const auto dir = std::filesystem::temp_directory_path() / "furrow_data_folder_test" / "nested";
+  const auto dir = test::scratch_dir("data_folder_test") / "nested";
   std::filesystem::remove_all(dir.parent_path());
   setenv("FURROW_DATA_DIR", dir.c_str(), 1);
   const auto d = data_folder();

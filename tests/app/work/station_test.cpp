@@ -20,12 +20,12 @@ namespace {
 namespace fs = std::filesystem;
 
 TEST_CASE("a folder of bundles goes into the right trials, one bundle per step, refusals said in words") {
-  const fs::path data = fs::temp_directory_path() / "furrow_station_data";
+  const fs::path data = test::scratch_dir("station_data");
   fs::remove_all(data);
   fs::create_directories(data / "bundles");
   const std::string station = (data / "oats.furrow").string();
   fs::copy_file(test::fresh_demo_trial("station_src.furrow"), station);
-  const fs::path devices = fs::temp_directory_path() / "furrow_station_devices";
+  const fs::path devices = test::scratch_dir("station_devices");
   fs::remove_all(devices);
   fs::create_directories(devices);
   for (const char* name : {"a", "b"}) {

@@ -16,7 +16,7 @@ namespace {
 namespace fs = std::filesystem;
 
 fs::path empty_folder(const std::string& name) {
-  const fs::path dir = fs::temp_directory_path() / name;
+  const fs::path dir = test::scratch_dir(name);
   fs::remove_all(dir);
   fs::create_directories(dir);
   return dir;
