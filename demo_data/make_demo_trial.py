@@ -14,7 +14,7 @@ import sys
 
 ENTRIES = ["Kestrel", "Basalt", "Tamarack", "Ridgeline", "Quillon", "Marten",
            "Larchmont", "Saffer", "Brockwell", "Tindra", "Oxhollow", "Pennant",
-           "Caddis", "Wetherby", "Alder Gold", "Runnel", "Skerry", "Hobbit Hill",
+           "Caddis", "Wetherby", "Alder Gold", "Runnel", "Skerry", "Heathbrook",
            "Dunmore", "Farrowdale"]
 BLOCKS = 4
 SEED = 20260428

@@ -1,4 +1,5 @@
 #include "app/cli/analysis_output.h"
+#include "app/work/glossary.h"
 
 #include <cmath>
 #include <cstdio>
@@ -31,7 +32,7 @@ std::string analysis_text(const Analysis& a, const RecordNames& records) {
   size_t w = 8;
   for (const AnovaRow& r : a.table) w = std::max(w, r.source.size() + 2);
   o << pad("Source", w, false) << pad("DF", 6) << pad("SS", 16) << pad("MS", 16) << pad("F", 11) << pad("P", 9)
-    << "   Error term\n";
+    << "   " << term::kTestedAgainst << "\n";
   for (const AnovaRow& r : a.table) {
     o << pad(r.source, w, false) << pad(df_text(r.df), 6) << pad(num(r.ss, 10), 16)
       << pad(r.ms ? num(*r.ms, 10) : "", 16) << pad(r.f ? num(*r.f, 5) : "", 11) << pad(r.p ? p_text(*r.p) : "", 9)
@@ -39,28 +40,27 @@ std::string analysis_text(const Analysis& a, const RecordNames& records) {
   }
   o << "\nGrand mean " << num(a.grand_mean) << "   CV " << num(a.cv_percent, 3) << " %   R squared "
     << num(a.r_squared, 4) << "   residual SD " << num(a.residual_sd) << " on " << df_text(a.residual_df) << " DF\n";
-  const int pct = static_cast<int>(std::lround(a.alpha * 100));
   for (const TermMeans& m : a.means) {
     o << "\nMeans of " << m.term << (m.adjusted ? " (adjusted for the other terms)" : "") << ", SE from '"
       << m.error_term << "'\n";
     size_t lw = 7;
     for (const MeanRow& r : m.levels) lw = std::max(lw, r.label.size() + 2);
     const bool letters = !m.pairs.empty();
-    o << pad("Level", lw, false) << pad("n", 5) << pad("Mean", 14) << pad("SE", 12);
+    o << pad(m.term, lw, false) << pad(term::kPlots, 7) << pad(term::kMean, 14) << pad(term::kSe, 12);
     if (m.adjusted) o << pad("Plain mean", 14);
-    if (letters) o << "   LSD group  HSD group";
+    if (letters) o << "   " << term::kLsdGroup << "  " << term::kHsdGroup;
     o << "\n";
     for (const MeanRow& r : m.levels) {
-      o << pad(r.label, lw, false) << pad(std::to_string(r.n), 5)
-        << pad(r.estimable ? num(r.mean) : "not estimable", 14) << pad(r.estimable ? num(r.se, 4) : "", 12);
+      o << pad(r.label, lw, false) << pad(std::to_string(r.n), 7)
+        << pad(r.estimable ? num(r.mean) : term::kNotEstimable, 14) << pad(r.estimable ? num(r.se, 4) : "", 12);
       if (m.adjusted) o << pad(num(r.raw_mean), 14);
       if (letters) o << "   " << pad(r.group_lsd, 9, false) << "  " << r.group_hsd;
       o << "\n";
     }
     if (m.sed > 0) {
-      o << "SE of a difference " << num(m.sed, 4) << "   LSD (" << pct << " %) " << num(m.lsd, 4);
+      o << "SE of a difference " << num(m.sed, 4) << "   " << term::lsd_title(a.alpha) << " " << num(m.lsd, 4);
       if (m.lsd_max > m.lsd_min * (1 + 1e-9)) o << " (pairs " << num(m.lsd_min, 4) << " to " << num(m.lsd_max, 4) << ")";
-      if (m.q_critical > 0) o << "   Tukey HSD (" << pct << " %) " << num(m.hsd, 4);
+      if (m.q_critical > 0) o << "   " << term::hsd_title(a.alpha) << " " << num(m.hsd, 4);
       o << "\n";
     }
     if (!m.note.empty()) o << m.note << "\n";
@@ -84,7 +84,7 @@ std::string analysis_text(const Analysis& a, const RecordNames& records) {
   o << "\nOutlier plots (" << a.outlier_rule << "): ";
   if (a.outliers.empty()) o << "none\n";
   else {
-    o << a.outliers.size() << "\n";
+    o << count_of(static_cast<long>(a.outliers.size()), term::kOutlierPlot) << "\n";
     for (const OutlierPlot& p : a.outliers) {
       o << "  " << records.word << " " << records.name(p.record) << ": value " << value_text(p.value) << ", the other plots predict "
         << value_text(p.expected) << ", studentized residual " << num(p.studentized_external, 3);

@@ -1,4 +1,5 @@
 #include "app/cli/cli_station.h"
+#include "app/work/glossary.h"
 
 #include <iostream>
 #include <nlohmann/json.hpp>
@@ -52,7 +53,7 @@ int run_merge(const std::string& db_path, const std::vector<std::string>& bundle
               << " new links\n";
   }
   auto conflicts = list_conflicts(open->db, open->trial);
-  if (conflicts) std::cout << conflicts->size() << " conflicts to settle\n";
+  if (conflicts) std::cout << count_of(static_cast<long>(conflicts->size()), term::kConflict) << " to settle\n";
   return refused ? kExitBadInput : 0;
 }
 
@@ -77,7 +78,7 @@ int run_conflicts(const std::string& db_path, bool json) {
     std::cout << out.dump(2) << "\n";
     return 0;
   }
-  std::cout << conflicts->size() << " conflicts\n";
+  std::cout << count_of(static_cast<long>(conflicts->size()), term::kConflict) << "\n";
   for (const ConflictCell& c : *conflicts) {
     std::cout << "plot " << t.layout.plots[c.plot_index].label << ", " << t.plan.traits[c.trait_index].code
               << ", occasion " << c.occasion << ":\n";

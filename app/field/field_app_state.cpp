@@ -1,4 +1,5 @@
 #include "app/field/field_app_state.h"
+#include "app/work/glossary.h"
 
 #include <imgui.h>
 
@@ -312,8 +313,9 @@ class FieldApp final : public FieldAppState {
       case StationAction::Kind::export_data:
         report(export_clean_data(trial_path_, export_folder()), "Data written:");
         if (!station_ui_.message_is_problem && !station_->conflicts.empty())
-          station_ui_.message += " (" + std::to_string(station_->conflicts.size()) +
-                                 " conflicts not settled yet are marked in it: settle them and export again)";
+          station_ui_.message += " (" + count_of(static_cast<long>(station_->conflicts.size()), term::kConflict) +
+                                 " not settled yet " + (station_->conflicts.size() == 1 ? "is" : "are") +
+                                 " marked in it: settle and export again)";
         break;
       case StationAction::Kind::export_report: report(export_report(trial_path_, export_folder()), "Report written:"); break;
       case StationAction::Kind::keep:

@@ -1,4 +1,5 @@
 #include "app/work/report.h"
+#include "app/work/glossary.h"
 
 #include <cmath>
 #include <cstdio>
@@ -131,8 +132,8 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
   // Completeness.
   const TrialProgress progress = trial_progress(t, *live);
   h << "<h2>Completeness</h2>\n<p>" << progress.cells_done << " of " << progress.cells_required
-    << " required cells collected (" << esc(table_number(progress.percent(), 3)) << " %); " << conflicts->size()
-    << " conflicts not settled; last change " << esc(progress.last_change.substr(0, 16)) << " UTC.</p>\n";
+    << " required cells collected (" << esc(table_number(progress.percent(), 3)) << " %); "
+    << count_of(static_cast<long>(conflicts->size()), term::kConflict) << " not settled; last change " << esc(progress.last_change.substr(0, 16)) << " UTC.</p>\n";
   h << "<table><thead><tr><th>Trait</th><th>Occasion</th><th>Values</th><th>No value, reason given</th>"
        "<th>Not recorded</th></tr></thead><tbody>";
   for (size_t k = 0; k < p.traits.size(); ++k)
@@ -222,7 +223,6 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
   h << "<h2>Analyses</h2>\n";
   AnalysisOptions ao;
   ao.alpha = options.alpha;
-  const int pct = static_cast<int>(std::lround(100 * (1 - ao.alpha)));
   for (size_t k = 0; k < p.traits.size(); ++k) {
     const Trait& tr = p.traits[k];
     if (tr.kind == TraitKind::text || tr.kind == TraitKind::category) continue;
@@ -240,17 +240,17 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
         << esc(table_number(a->grand_mean, 5)) << "</span>, CV <span data-name=cv_percent data-value=\""
         << exact(a->cv_percent) << "\">" << esc(table_number(a->cv_percent, 3)) << "</span> %";
       if (a->lsd)
-        h << ", LSD (" << pct << " %) <span data-name=lsd data-value=\"" << exact(*a->lsd) << "\">"
+        h << ", " << term::lsd_title(ao.alpha) << " <span data-name=lsd data-value=\"" << exact(*a->lsd) << "\">"
           << esc(table_number(*a->lsd, 4)) << "</span>";
       if (a->hsd)
-        h << ", Tukey HSD (" << pct << " %) <span data-name=hsd data-value=\"" << exact(*a->hsd) << "\">"
+        h << ", " << term::hsd_title(ao.alpha) << " <span data-name=hsd data-value=\"" << exact(*a->hsd) << "\">"
           << esc(table_number(*a->hsd, 4)) << "</span>";
       if (a->mdd_percent)
         h << ", smallest difference detectable with 80 % power <span data-name=mdd_percent data-value=\""
           << exact(*a->mdd_percent) << "\">" << esc(table_number(*a->mdd_percent, 3)) << "</span> % of the mean";
       h << ".</p>\n";
       h << "<table class=anova><thead><tr><th>Term</th><th>DF</th><th>SS</th><th>MS</th><th>F</th><th>P</th>"
-           "<th>Tested against</th></tr></thead><tbody>";
+           "<th>" << term::kTestedAgainst << "</th></tr></thead><tbody>";
       for (const AnovaRow& r : a->table)
         h << "<tr>" << cell(r.source) << num_cell(r.df, df_text(r.df)) << num_cell(r.ss, table_number(r.ss))
           << opt_cell(r.ms, r.ms ? table_number(*r.ms) : "") << opt_cell(r.f, r.f ? table_number(*r.f, 4) : "")
@@ -258,7 +258,8 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
       h << "</tbody></table>\n";
       for (const TermMeans& m : a->means) {
         h << "<table class=means data-term=\"" << esc(m.term) << "\"><thead><tr><th>" << esc(m.term)
-          << "</th><th>Plots</th><th>Mean</th><th>SE</th><th>LSD group</th><th>HSD group</th></tr></thead><tbody>";
+          << "</th><th>" << term::kPlots << "</th><th>" << term::kMean << "</th><th>" << term::kSe << "</th><th>"
+          << term::kLsdGroup << "</th><th>" << term::kHsdGroup << "</th></tr></thead><tbody>";
         for (const MeanRow& r : m.levels)
           h << "<tr>" << cell(r.label) << cell(std::to_string(r.n))
             << (r.estimable ? num_cell(r.mean, table_number(r.mean, 5)) : cell("-"))

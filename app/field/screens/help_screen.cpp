@@ -19,27 +19,41 @@ void draw_help_screen(const Theme& t, float scale, float top_px) {
   ImGui::PopStyleColor(2);
   ImGui::Spacing();
   ImGui::TextWrapped(
-      "Record: the screen shows one plot at a time in the walking order. Type the value on the keypad (or a "
-      "keyboard) and tap Save. Furrow checks it against the plan before saving; \"saved\" appears only after the "
-      "value is on disk.");
+      "Today's walk (the wide button on Record): choose the traits you record today, the occasion and the blocks, "
+      "and whether you record one trait across the plots or every trait on each plot. Record opens at the next plot "
+      "of the walk without a value and counts what the walk still lacks. The choice is kept for this trial.");
+  ImGui::TextWrapped(
+      "Record: type the value on the keypad, or on a keyboard (digits, point, Backspace, Enter), and tap Save. "
+      "Furrow checks it against the plan before saving; \"saved\" appears only after the value is on disk. What you "
+      "type belongs to the plot on screen: moving to another plot, trait or screen drops it and says so.");
   ImGui::TextWrapped(
       "Red banner: the value cannot be right (outside the possible range, too many decimals, not on the scale) and "
-      "was not saved. Yellow banner: the value is possible but unusual (outside the usual range, a likely decimal "
-      "slip, far from what the plot's block and treatment suggest): re-measure, or tap Confirm value if it is right.");
+      "was not saved. Yellow banner: the value is possible but unusual; every reason is listed (outside the usual "
+      "range, a likely decimal slip, far from what the plot's block and treatment suggest). Re-measure, tap Confirm "
+      "value if the value on screen is right, or, for a likely slip, tap Save ... instead to save the value you "
+      "probably meant. Changing the typed value withdraws the question. Green banner: saved, with any note.");
   ImGui::TextWrapped(
-      "Skip plot records why a plot has no value (damaged, plants missing, flooded, not emerged). Undo last entry "
-      "writes a new record that restores the value before it; nothing is ever overwritten. Go to plot takes a typed "
-      "or scanned stake label.");
+      "Skip plot records why a plot has no value (damaged, plants missing, flooded, not emerged, or other with a "
+      "note). Note... keeps a note with the plot's value. Undo last entry writes a new record that restores the "
+      "value before it; nothing is ever overwritten. A stake label scanned with a barcode scanner (or typed in Go to "
+      "plot) opens that plot.");
   ImGui::TextWrapped(
-      "Before leaving lists what to fix while still in the field: conflicts between devices, outlier plots, values "
-      "to check and values not yet recorded. Tap a line to open that plot.");
+      "Before leaving lists what today's walk still lacks, one line per plot with every finding: conflicts between "
+      "devices, outlier plots, values to check, values not yet recorded; traits outside the walk are counted in one "
+      "line. Tap a line to open that plot; when a value is right after all, tap Value is right there.");
   ImGui::TextWrapped(
       "Field map shows the plots where they lie in the field: by status (each state has its own pattern too), by "
-      "value (dark blue low, yellow high) or by residual (blue lower, orange higher than the plot's block and "
-      "treatment predict). Tap a plot to record it; when plots are small, the first tap zooms in. Drag to move.");
+      "value (dark purple for low values, through blue and green, to yellow for high ones) or by residual (blue "
+      "lower, orange higher than the plot's block and treatment predict). Tap a plot to record it; when plots are "
+      "small, the first tap zooms in. Drag to move.");
   ImGui::TextWrapped(
-      "Check shows the interim analysis of the trait: the analysis-of-variance table, means with their letter "
-      "groups, CV, LSD and Tukey HSD, and the outlier plots and missing cells; tap one to open the plot.");
+      "Large text: Settings makes text and buttons larger or smaller (75 to 300 %%). When the screens' names no "
+      "longer fit in two rows, one Screens button lists them. Every screen scrolls when you drag it.");
+  ImGui::TextWrapped(
+      "Check shows first what to act on (outlier plots and missing cells; tap one to open the plot), then the "
+      "interim analysis of the trait: the analysis-of-variance table, means (highest first, or in the plan's "
+      "order) with their letter groups, CV, LSD and Tukey HSD. Outlier plots of every trait lists them for all "
+      "traits at once.");
   ImGui::TextWrapped(
       "Station, at day's end: each device writes its bundle (Write this device's bundle) into the bundles folder; "
       "the station imports them all (Import bundles), settles each conflict by keeping one value, entering another "
