@@ -65,6 +65,10 @@ class FieldApp final : public FieldAppState {
     session_.emplace(std::move(s).value());
     session_->set_blind(settings_.blind_scoring);
     trial_path_ = path;
+    if (!folder_.empty() && std::filesystem::path(path).parent_path() != std::filesystem::path(folder_))
+      trial_path_ = std::filesystem::absolute(path).lexically_normal().string();
+    // A trial opened from outside the data folder stays on the Trials list.
+    if (auto r = remember_trial(folder_, path); !r) std::cerr << r.problem().message << "\n";
     record_ui_ = RecordScreenState{};
     map_.reset();
     analysis_.reset();
@@ -85,7 +89,9 @@ class FieldApp final : public FieldAppState {
     if (s == Screen::station) station_.reset();
   }
   // Work is under way that needs frames without waiting for input.
-  bool busy() const { return import_ && !import_->done(); }
+  // Until its outcome has been drawn once, so that the screen never waits for
+  // a touch to show the new state.
+  bool busy() const { return import_ && (!import_->done() || !import_reported_); }
   bool has_trial() const { return session_.has_value(); }
   const std::string& trial_name() const { return session_->trial().plan.name; }
 
@@ -251,7 +257,8 @@ class FieldApp final : public FieldAppState {
     return used;
   }
 
-  std::string bundle_folder() const { return folder_ + "/bundles"; }
+  std::string bundle_folder() const { return bundle_folders(folder_).incoming; }
+  std::string outgoing_folder() const { return bundle_folders(folder_).outgoing; }
   std::string export_folder() const { return folder_ + "/exports"; }
 
   void draw_station(float scale, float top) {
@@ -267,16 +274,23 @@ class FieldApp final : public FieldAppState {
           analysis_.reset();
           leaving_.reset();
         }
-        int merged = 0;
-        for (const auto& o : import_->outcomes()) merged += o.merged;
-        station_ui_.message = "Imported " + std::to_string(merged) + " of " + std::to_string(import_->total()) +
-                              " bundles from " + bundle_folder();
+        int merged = 0, refused = 0;
+        for (const auto& o : import_->outcomes()) {
+          merged += o.merged;
+          refused += o.refused;
+        }
+        const int waiting = static_cast<int>(import_->total()) - merged - refused;
+        station_ui_.message = "Read " + std::to_string(import_->total()) + " of " + std::to_string(import_->total()) +
+                              " bundles from " + bundle_folder() + ": " + std::to_string(merged) + " merged (moved to done), " +
+                              std::to_string(refused) + " refused (moved to refused)" +
+                              (waiting ? ", " + std::to_string(waiting) + " for a trial not on this device (left in incoming)" : "");
         station_ui_.message_is_problem = merged < static_cast<int>(import_->total());
       }
     }
     if (!station_) {
       station_.emplace();
       station_->bundle_folder = bundle_folder();
+      station_->outgoing_folder = outgoing_folder();
       station_->export_folder = export_folder();
       station_->trials = list_trials(folder_);
       station_->trial = session_ ? &session_->trial() : nullptr;
@@ -304,12 +318,16 @@ class FieldApp final : public FieldAppState {
     switch (action->kind) {
       case StationAction::Kind::import_bundles:
         std::filesystem::create_directories(bundle_folder());
-        import_.emplace(bundle_folder(), folder_,
-                        trial_path_.empty() ? std::vector<std::string>{} : std::vector<std::string>{trial_path_});
+        {
+          const BundleFolders folders = bundle_folders(folder_);
+          std::vector<std::string> also = known_trials(folder_);
+          if (!trial_path_.empty()) also.push_back(trial_path_);
+          import_.emplace(bundle_folder(), folder_, also, &folders);
+        }
         import_reported_ = false;
         station_ui_.message.clear();
         break;
-      case StationAction::Kind::write_bundle: report(write_device_bundle(trial_path_, bundle_folder()), "Bundle written:"); break;
+      case StationAction::Kind::write_bundle: report(write_device_bundle(trial_path_, outgoing_folder()), "Bundle written:"); break;
       case StationAction::Kind::export_data:
         report(export_clean_data(trial_path_, export_folder()), "Data written:");
         if (!station_ui_.message_is_problem && !station_->conflicts.empty())
@@ -377,35 +395,111 @@ class FieldApp final : public FieldAppState {
     trials_->current = trial_path_;
     const auto action = draw_trials_screen(*trials_, theme_, scale, top, &trials_ui_);
     if (!action) return;
+    trials_ui_.question.reset();
+    const auto say = [&](const std::string& words, bool problem) {
+      trials_ui_.message = words;
+      trials_ui_.message_is_problem = problem;
+    };
     std::string path = action->path;
-    if (action->kind == TrialsAction::Kind::open_demo) path = options_.demo_db;
-    if (action->kind == TrialsAction::Kind::create_from_plan) {
-      const std::string db = trial_path_for_plan(path, folder_);
-      // A station's trial file becomes this device's own copy; a plan file a new trial.
-      auto made = std::filesystem::path(path).extension() == ".furrow"
-                      ? [&]() -> Result<std::string> {
-                          if (auto s = copy_trial_for_device(path, db); !s) return s.problem();
-                          return std::string("this device's copy of the station's trial");
-                        }()
-                      : create_trial_from_plan(path, db);
-      if (!made) {
-        trials_ui_.message = made.problem().message;
-        trials_ui_.message_is_problem = true;
+    switch (action->kind) {
+      case TrialsAction::Kind::cancel: return;
+      case TrialsAction::Kind::remove: {
+        const std::string name = std::filesystem::path(path).filename().string();
+        const bool here = std::filesystem::path(path).parent_path() == std::filesystem::path(folder_);
+        if (!action->confirmed) {
+          TrialsAction yes = *action;
+          yes.confirmed = true;
+          trials_ui_.question = TrialsQuestion{
+              here ? "Move " + name + " to the trash folder? Nothing is deleted: it can be moved back from " +
+                         folder_ + "/trash."
+                   : "Remove " + name + " from this list? The file stays where it is (" + path + ").",
+              {{here ? "Move to trash" : "Remove from the list", yes}, {"Keep it", {TrialsAction::Kind::cancel, {}}}}};
+          return;
+        }
+        if (path == trial_path_) close_trial();   // the file must not be open while it moves
+        auto moved = remove_trial(folder_, path);
+        if (!moved) say(moved.problem().message, true);
+        else say(here ? name + " moved to " + *moved : name + " removed from the list", false);
+        trials_.reset();
         return;
       }
-      trials_ui_.message = "Created " + db + ": " + *made;
-      trials_ui_.message_is_problem = false;
-      path = db;
+      case TrialsAction::Kind::open_demo: path = options_.demo_db; break;
+      case TrialsAction::Kind::copy_for_device: {
+        const std::string db = trial_path_for_plan(path, folder_);
+        if (auto c = copy_trial_for_device(path, db); !c) {
+          say(path + ": " + c.problem().message, true);
+          return;
+        }
+        say("Created " + db + ": this device's copy of the station's trial", false);
+        path = db;
+        break;
+      }
+      case TrialsAction::Kind::create_from_plan: {
+        if (std::filesystem::path(path).extension() == ".furrow") {
+          // A trial file typed in: a device's copy (or a trial known here) opens
+          // as it is; a station's file asks whether to copy it or open it.
+          const TrialSummary s = summarise_trial(path);
+          if (!s.problem.empty()) {
+            say(path + ": " + s.problem, true);
+            return;
+          }
+          auto open = open_trial_database(path);
+          const bool station = open && open->trial.role == "station";
+          if (station && !action->confirmed) {
+            TrialsAction open_it{TrialsAction::Kind::open, path, true};
+            trials_ui_.question = TrialsQuestion{
+                path + " is a station's trial file. Record on this device's own copy of it (a new device identity, "
+                       "its bundles go to the station), or open the station's file itself?",
+                {{"Make this device's copy", {TrialsAction::Kind::copy_for_device, path}},
+                 {"Open the station's file", open_it},
+                 {"Cancel", {TrialsAction::Kind::cancel, {}}}}};
+            return;
+          }
+          break;   // open it
+        }
+        const auto same = trials_named_like_plan(trials_->trials, path);
+        if (!same.empty() && !action->confirmed) {
+          TrialsAction again = *action;
+          again.confirmed = true;
+          trials_ui_.question = TrialsQuestion{
+              "A trial named \"" + same.front().name + "\" is already on this device (" + same.front().file_name +
+                  "). Create another one from the same plan (a new randomisation and a new trial), or open the one "
+                  "you have?",
+              {{"Open " + same.front().file_name, {TrialsAction::Kind::open, same.front().path}},
+               {"Create another", again},
+               {"Cancel", {TrialsAction::Kind::cancel, {}}}}};
+          return;
+        }
+        const std::string db = trial_path_for_plan(path, folder_);
+        auto made = create_trial_from_plan(path, db);
+        if (!made) {
+          say(made.problem().message, true);
+          return;
+        }
+        say("Created " + db + ": " + *made, false);
+        path = db;
+        break;
+      }
+      case TrialsAction::Kind::open: break;
     }
     if (auto s = open_trial(path); !s) {
-      trials_ui_.message = s.problem().message;
-      trials_ui_.message_is_problem = true;
+      say(s.problem().message, true);
       trials_.reset();
       return;
     }
     if (action->kind == TrialsAction::Kind::open) trials_ui_.message.clear();
     trials_.reset();
     screen_ = Screen::record;
+  }
+
+  void close_trial() {
+    session_.reset();
+    trial_path_.clear();
+    map_.reset();
+    analysis_.reset();
+    leaving_.reset();
+    station_.reset();
+    every_trait_.reset();
   }
 
   const BeforeLeaving& before_leaving() {

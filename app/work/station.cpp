@@ -23,9 +23,27 @@ std::vector<std::string> list_bundle_files(const std::string& folder) {
   return out;
 }
 
+BundleFolders bundle_folders(const std::string& data_folder) {
+  const fs::path b = fs::path(data_folder) / "bundles";
+  return {(b / "incoming").string(), (b / "done").string(), (b / "refused").string(), (b / "outgoing").string()};
+}
+
+void StationImport::file_away(const std::string& path, bool merged, BundleOutcome* o) {
+  if (!folders_) return;
+  const fs::path dir = merged ? folders_->done : folders_->refused;
+  std::error_code ec;
+  fs::create_directories(dir, ec);
+  fs::path target = dir / fs::path(path).filename();
+  for (int k = 2; fs::exists(target); ++k)
+    target = dir / (fs::path(path).stem().string() + " (" + std::to_string(k) + ")" + fs::path(path).extension().string());
+  fs::rename(path, target, ec);
+  if (ec) o->message += " (could not move it to " + dir.string() + ": " + ec.message() + ")";
+}
+
 StationImport::StationImport(const std::string& bundle_folder, const std::string& trial_folder,
-                             const std::vector<std::string>& also)
+                             const std::vector<std::string>& also, const BundleFolders* folders)
     : files_(list_bundle_files(bundle_folder)) {
+  if (folders) folders_ = *folders;
   // Only each trial's identity is needed: open the files, read no log.
   std::vector<std::string> paths = list_trial_files(trial_folder);
   paths.insert(paths.end(), also.begin(), also.end());
@@ -52,6 +70,8 @@ void StationImport::step() {
   auto manifest = read_bundle_manifest(path);
   if (!manifest) {
     o.message = manifest.problem().message;
+    o.refused = true;
+    file_away(path, false, &o);
     outcomes_.push_back(o);
     return;
   }
@@ -71,12 +91,15 @@ void StationImport::step() {
   auto merged = merge_bundle(open->db, open->trial, path);
   if (!merged) {
     o.message = merged.problem().message;
+    o.refused = true;
+    file_away(path, false, &o);
   } else {
     o.merged = true;
     o.observations_added = merged->observations_added;
     o.message = merged->observations_added || merged->replacements_added
                     ? std::to_string(merged->observations_added) + " new observations"
                     : "nothing new (merged before)";
+    file_away(path, true, &o);
   }
   outcomes_.push_back(o);
 }

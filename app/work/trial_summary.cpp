@@ -70,9 +70,92 @@ std::vector<std::string> list_trial_files(const std::string& folder) {
   return out;
 }
 
+namespace {
+constexpr const char* kKnownTrialsFile = "known_trials.txt";
+
+fs::path normal(const std::string& p) { return fs::absolute(p).lexically_normal(); }
+
+bool inside(const std::string& folder, const std::string& path) {
+  fs::path f = normal(folder);
+  if (!f.has_filename()) f = f.parent_path();   // "folder/" names the folder too
+  return normal(path).parent_path() == f;
+}
+}  // namespace
+
+std::vector<std::string> known_trials(const std::string& folder) {
+  std::vector<std::string> out;
+  std::ifstream in(fs::path(folder) / kKnownTrialsFile);
+  for (std::string line; std::getline(in, line);)
+    if (!line.empty()) out.push_back(line);
+  return out;
+}
+
+namespace {
+Status write_known(const std::string& folder, const std::vector<std::string>& paths) {
+  const fs::path file = fs::path(folder) / kKnownTrialsFile, tmp = file.string() + ".tmp";
+  {
+    std::ofstream out(tmp, std::ios::trunc);
+    for (const auto& p : paths) out << p << "\n";
+    out.flush();
+    if (!out) return make_problem(tmp.string() + ": cannot write the list of trials");
+  }
+  std::error_code ec;
+  fs::rename(tmp, file, ec);
+  if (ec) return make_problem(file.string() + ": " + ec.message());
+  return ok_status();
+}
+}  // namespace
+
+Status remember_trial(const std::string& folder, const std::string& path) {
+  if (folder.empty() || inside(folder, path)) return ok_status();
+  const std::string absolute = normal(path).string();
+  auto paths = known_trials(folder);
+  if (std::find(paths.begin(), paths.end(), absolute) != paths.end()) return ok_status();
+  paths.push_back(absolute);
+  return write_known(folder, paths);
+}
+
+Result<std::string> remove_trial(const std::string& folder, const std::string& path) {
+  std::error_code ec;
+  if (!inside(folder, path)) {
+    auto paths = known_trials(folder);
+    std::erase(paths, normal(path).string());
+    if (auto s = write_known(folder, paths); !s) return s.problem();
+    return path;
+  }
+  const fs::path trash = fs::path(folder) / "trash";
+  fs::create_directories(trash, ec);
+  if (ec) return make_problem(trash.string() + ": " + ec.message());
+  std::string stamp = utc_now().substr(0, 19);
+  std::replace(stamp.begin(), stamp.end(), 'T', ' ');
+  std::replace(stamp.begin(), stamp.end(), ':', '-');
+  const fs::path target = trash / (fs::path(path).stem().string() + " (removed " + stamp + ").furrow");
+  if (fs::exists(target)) return make_problem(target.string() + " already exists; try again in a second");
+  // The log's sidecar files first, so that the database never stands without them.
+  for (const char* suffix : {"-wal", "-shm"})
+    if (fs::exists(path + suffix)) {
+      fs::rename(path + suffix, target.string() + suffix, ec);
+      if (ec) return make_problem(path + suffix + ": " + ec.message());
+    }
+  fs::rename(path, target, ec);
+  if (ec) return make_problem(path + ": " + ec.message());
+  return target.string();
+}
+
+std::vector<TrialSummary> trials_named_like_plan(const std::vector<TrialSummary>& trials, const std::string& plan_path) {
+  std::vector<TrialSummary> out;
+  auto plan = read_plan_file(plan_path);
+  if (!plan) return out;
+  for (const TrialSummary& t : trials)
+    if (t.problem.empty() && t.name == plan->plan.name) out.push_back(t);
+  return out;
+}
+
 std::vector<TrialSummary> list_trials(const std::string& folder) {
   std::vector<TrialSummary> out;
   for (const std::string& path : list_trial_files(folder)) out.push_back(summarise_trial(path));
+  for (const std::string& path : known_trials(folder))
+    if (fs::exists(path)) out.push_back(summarise_trial(path));
   std::sort(out.begin(), out.end(), [](const TrialSummary& a, const TrialSummary& b) {
     return std::tie(b.progress.last_change, a.file_name) < std::tie(a.progress.last_change, b.file_name);
   });

@@ -33,9 +33,28 @@ TrialSummary summarise_trial(const std::string& path);
 // The trial database files (*.furrow) in `folder`, by name.
 std::vector<std::string> list_trial_files(const std::string& folder);
 
-// Every trial database (*.furrow) in `folder`, newest change first; files
-// that cannot be read are listed with their problem.
+// Every trial database (*.furrow) in `folder`, and every trial opened from
+// elsewhere that the folder remembers (and that still exists), newest change
+// first; files that cannot be read are listed with their problem.
 std::vector<TrialSummary> list_trials(const std::string& folder);
+
+// Trials opened from outside the data folder stay listed: their paths are
+// kept in `folder`/known_trials.txt (one absolute path a line). A path inside
+// the folder, or one already known, is not added again.
+Status remember_trial(const std::string& folder, const std::string& path);
+std::vector<std::string> known_trials(const std::string& folder);
+
+// Removes a trial from this device's list without deleting anything: a file
+// in the data folder is moved (with its -wal and -shm files) into
+// `folder`/trash as "NAME (removed YYYY-MM-DD HH-MM-SS).furrow"; a trial from
+// elsewhere is only forgotten. Returns where the file went (or its path,
+// when forgotten).
+Result<std::string> remove_trial(const std::string& folder, const std::string& path);
+
+// The trials in `trials` with the same name as the plan file's trial (a
+// second "Create" from the same plan asks first). Empty when the plan cannot
+// be read (creating it then reports the problem).
+std::vector<TrialSummary> trials_named_like_plan(const std::vector<TrialSummary>& trials, const std::string& plan_path);
 
 // Plan files (*.csv starting with the plan header) in `folder`, by name.
 std::vector<std::string> list_plan_files(const std::string& folder);

@@ -23,7 +23,7 @@ from checks import Checks  # noqa: E402
 furrow, src, work = sys.argv[1:4]
 shutil.rmtree(work, ignore_errors=True)
 data = os.path.join(work, "data")
-os.makedirs(os.path.join(data, "bundles"))
+os.makedirs(os.path.join(data, "bundles", "incoming"))
 check = Checks()
 plan = os.path.join(src, "demo_data", "harrow_ridge_oats_2026.plan.csv")
 station = os.path.join(data, "oats.furrow")
@@ -47,15 +47,27 @@ run("merge", "--db", station, os.path.join(work, "a.bundle"), os.path.join(work,
 # A late device's bundle waits in the data folder's bundles folder.
 run("record", "--db", os.path.join(work, "c.furrow"), "--plot", "120", "--trait", "height_cm", "--value", "101",
     "--observer", "Cleo", "--confirm")
-run("bundle", "--db", os.path.join(work, "c.furrow"), "--out", os.path.join(data, "bundles", "c.bundle"))
+run("bundle", "--db", os.path.join(work, "c.furrow"), "--out", os.path.join(data, "bundles", "incoming", "c.bundle"))
 check(len(json.loads(run("conflicts", "--db", station, "--json"))) == 3, "three conflicts before")
 
-# Where the buttons are in a 1280x800 window at scale 1 (the Station screen's
-# first row of actions; the first conflict's first Keep button).
-KEEP_FIRST = (90, 280)
-IMPORT = (95, 108)
-script = f"""
-'{furrow}' field --db '{station}' --observer 'Station manager' --screen station &
+
+
+def tap_function(targets):
+    """A shell function `tap LABEL`: a click in the middle of the item the app
+    last drew with that label (the app writes them with --targets-out)."""
+    return f"""
+tap() {{
+  xy=$(awk -v k="$1" '{{l=$5; for (i=6;i<=NF;i++) l=l" "$i; if (l==k) {{print int(($1+$3)/2), int(($2+$4)/2); exit}}}}' '{targets}')
+  [ -n "$xy" ] || echo "no item '$1' on the screen" >&2
+  xdotool mousemove $xy click 1
+}}
+"""
+
+
+# The Station screen: Keep on plot 101's first row, then Import bundles.
+targets = os.path.join(work, "station_targets.txt")
+script = tap_function(targets) + f"""
+'{furrow}' field --db '{station}' --observer 'Station manager' --screen station --targets-out '{targets}' &
 app=$!
 sleep 3
 # No window manager under Xvfb: give the window the input focus ourselves
@@ -65,9 +77,9 @@ xdotool search --sync --name '^Furrow' windowfocus --sync
 # that the app draws a few frames (on a busy machine it may not have yet).
 xdotool mousemove 640 790
 sleep 1
-xdotool mousemove {KEEP_FIRST[0]} {KEEP_FIRST[1]} click 1
+tap 'keep plot 101 0'
 sleep 1
-xdotool mousemove {IMPORT[0]} {IMPORT[1]} click 1
+tap 'Import bundles'
 sleep 2
 kill $app
 wait $app
@@ -82,18 +94,48 @@ rows = {r.split(",")[0]: r for r in run("export", "--db", station, "--long").spl
 check("101" in rows and ",96," in rows["101"] and "Station manager" in rows["101"],
       "plot 101 keeps Ana's 96, settled by the observer")
 check("120" in rows and "Cleo" in rows["120"], "the tap on Import bundles merged the late device's bundle")
+check(os.path.exists(os.path.join(data, "bundles", "done", "c.bundle"))
+      and not os.path.exists(os.path.join(data, "bundles", "incoming", "c.bundle")),
+      "the merged bundle moved from incoming to done")
+
+# Fresh views: the Station screen is open when a settlement arrives from the
+# command line (another program); the screen drops the settled conflict
+# within a second, with no touch.
+targets = os.path.join(work, "fresh_targets.txt")
+app = subprocess.Popen(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", furrow, "field", "--db", station,
+                        "--observer", "Station manager", "--screen", "station", "--targets-out", targets],
+                       env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+try:
+    def listed(label):
+        try:
+            return any(line.rstrip("\n").split(" ", 4)[4] == label for line in open(targets))
+        except (OSError, IndexError):
+            return False
+    deadline = time.time() + 30
+    while time.time() < deadline and not listed("keep plot 102 0"):
+        time.sleep(0.1)
+    check(listed("keep plot 102 0"), "the Station screen lists plot 102's conflict")
+    run("settle", "--db", station, "--plot", "102", "--trait", "height_cm", "--value", "90", "--by", "Office")
+    settled_at = time.time()
+    while time.time() < settled_at + 5 and listed("keep plot 102 0"):
+        time.sleep(0.02)
+    seen_after = time.time() - settled_at
+    check(not listed("keep plot 102 0") and seen_after <= 1.0,
+          f"the screen dropped the settled conflict {seen_after:.2f} s after the command-line settle (at most 1 s)")
+    print(f"fresh view: {seen_after:.2f} s from the command-line settle to the redrawn Station screen")
+finally:
+    app.terminate()
+    app.wait(timeout=30)
 
 # A crew member's tablet: the app starts on the Trials screen of an empty
 # data folder; type the station's trial file into the path field and press
-# Enter to make this device's own copy; then Station > Write this device's
-# bundle puts a bundle in the tablet's bundles folder.
+# Enter; asked, make this device's own copy; then Station > Write this
+# device's bundle puts a bundle in the tablet's outgoing bundles folder.
 tablet = os.path.join(work, "tablet")
 os.makedirs(tablet)
-PATH_FIELD = (500, 224)
-STATION_TAB = (661, 38)
-WRITE_BUNDLE = (342, 108)
-script = f"""
-'{furrow}' field --observer 'Dana' --demo /nonexistent &
+targets = os.path.join(work, "tablet_targets.txt")
+script = tap_function(targets) + f"""
+'{furrow}' field --observer 'Dana' --demo /nonexistent --targets-out '{targets}' &
 app=$!
 sleep 3
 xdotool search --sync --name '^Furrow' windowfocus --sync
@@ -101,14 +143,16 @@ xdotool search --sync --name '^Furrow' windowfocus --sync
 # that the app draws a few frames (on a busy machine it may not have yet).
 xdotool mousemove 640 790
 sleep 1
-xdotool mousemove {PATH_FIELD[0]} {PATH_FIELD[1]} click 1
+tap 'plan path'
 sleep 1
 xdotool type --delay 20 '{station}'
 xdotool key Return
 sleep 2
-xdotool mousemove {STATION_TAB[0]} {STATION_TAB[1]} click 1
+tap "Make this device's copy"
+sleep 2
+tap 'Station'
 sleep 1
-xdotool mousemove {WRITE_BUNDLE[0]} {WRITE_BUNDLE[1]} click 1
+tap "Write this device's bundle"
 sleep 2
 kill $app
 wait $app
@@ -121,7 +165,8 @@ if os.path.exists(copy):
     import sqlite3
     uid = lambda f: sqlite3.connect(f).execute("SELECT uid, role FROM trial").fetchone()
     check(uid(copy)[0] == uid(station)[0] and uid(copy)[1] == "device", "same trial identity, as a device")
-bundles = os.listdir(os.path.join(tablet, "bundles")) if os.path.isdir(os.path.join(tablet, "bundles")) else []
+outgoing = os.path.join(tablet, "bundles", "outgoing")
+bundles = os.listdir(outgoing) if os.path.isdir(outgoing) else []
 check(len(bundles) == 1 and bundles[0].endswith(".bundle"), f"Write this device's bundle wrote one bundle ({bundles})")
 
 # A crew member with a barcode scanner on the demo day: with nothing tapped

@@ -36,16 +36,20 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
   if (!st->message.empty())
     banner(st->message.c_str(), st->message_is_problem ? t.refuse : t.saved,
            st->message_is_problem ? t.refuse_text : t.saved_text);
-  ImGui::TextWrapped("Bundles are read from %s; exports go to %s.", v.bundle_folder.c_str(), v.export_folder.c_str());
+  ImGui::TextWrapped("Bundles are read from %s (then moved to done or refused beside it); this device's bundle and "
+                     "the exports go to %s and %s.",
+                     v.bundle_folder.c_str(), v.outgoing_folder.c_str(), v.export_folder.c_str());
   if (v.importing || v.to_import) {
     char overlay[300];
-    std::snprintf(overlay, sizeof overlay, v.importing ? "Importing %zu of %zu: %s" : "Imported %zu of %zu%s",
+    // Counts bundles read, as the message after the import does.
+    std::snprintf(overlay, sizeof overlay, v.importing ? "Reading %zu of %zu: %s" : "Read %zu of %zu%s",
                   v.imported + (v.importing ? 1 : 0), v.to_import, v.importing ? v.importing_file.c_str() : "");
     ImGui::ProgressBar(v.to_import ? static_cast<float>(v.imported) / static_cast<float>(v.to_import) : 1.0f,
                        ImVec2(width, h), overlay);
   }
   for (const BundleOutcome& o : v.outcomes)
-    ImGui::TextWrapped("%s %s: %s", o.merged ? "merged" : "REFUSED", o.file.c_str(), o.message.c_str());
+    ImGui::TextWrapped("%s %s: %s", o.merged ? "merged" : o.refused ? "REFUSED" : "waiting", o.file.c_str(),
+                       o.message.c_str());
 
   // Conflicts of the open trial.
   if (v.trial) {

@@ -17,6 +17,7 @@
 namespace furrow {
 
 struct StationView {
+  std::string outgoing_folder;      // where this device's bundle is written
   std::string bundle_folder, export_folder;
   bool importing = false;
   size_t imported = 0, to_import = 0;

@@ -2,6 +2,8 @@
 
 #include <imgui.h>
 
+#include <algorithm>
+
 #include <cstdio>
 #include <filesystem>
 #include <string>
@@ -30,6 +32,18 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
   if (!st->message.empty())
     banner(st->message.c_str(), st->message_is_problem ? t.refuse : t.saved,
            st->message_is_problem ? t.refuse_text : t.saved_text);
+  if (st->question) {
+    // The question first; nothing else is offered until it is answered.
+    banner(st->question->text.c_str(), t.confirm, t.confirm_text);
+    for (const auto& [label, answer] : st->question->answers) {
+      const float w = std::min(width, button_width(label.c_str(), scale));
+      flow_next(w);
+      if (solid_button(label.c_str(), ImVec2(w, h), ButtonLook{t.button, t.button_text}, &st->targets))
+        action = answer;
+    }
+    ImGui::Dummy(ImVec2(0, h));
+    return action;
+  }
   ImGui::TextWrapped("Trials on this device (%s). Tap a trial to open it.", v.folder.c_str());
   if (v.trials.empty())
     ImGui::TextWrapped(v.demo_available ? "No trials here yet: open the demo trial or create one from a plan file."
@@ -45,8 +59,17 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
       std::snprintf(text, sizeof text, "%s\ncannot be read: %s##t%zu", s.file_name.c_str(), s.problem.c_str(), i);
     ButtonLook look = s.path == v.current ? ButtonLook{t.accent, t.accent_text} : ButtonLook{t.panel, t.text};
     look.align_left = true;
-    if (solid_button(text, ImVec2(width, 2.2f * h), look, &st->targets, "trial " + s.file_name) && s.problem.empty())
+    const float remove_w = button_width("Remove", scale);
+    const float row_w = std::max(touch_px(scale), width - remove_w - ImGui::GetStyle().ItemSpacing.x);
+    if (solid_button(text, ImVec2(row_w, 2.2f * h), look, &st->targets, "trial " + s.file_name) && s.problem.empty())
       action = TrialsAction{TrialsAction::Kind::open, s.path};
+    flow_next(remove_w);
+    ButtonLook remove_look{t.background, t.text};
+    remove_look.border_px = 2.0f * scale;
+    remove_look.border = t.text;
+    if (solid_button(("Remove##r" + std::to_string(i)).c_str(), ImVec2(remove_w, 2.2f * h), remove_look, &st->targets,
+                     "remove " + s.file_name))
+      action = TrialsAction{TrialsAction::Kind::remove, s.path};
   }
   ImGui::Spacing();
   if (v.demo_available &&

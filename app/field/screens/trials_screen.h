@@ -1,7 +1,9 @@
 #pragma once
-// The Trials screen: the trial databases in this device's data folder
-// (design, progress, last change), open one, create one from a plan file,
-// open the demo trial.
+// The Trials screen: the trial databases in this device's data folder and
+// those opened from elsewhere (design, progress, last change); open one,
+// create one from a plan file (asking first when a trial of that name is
+// here already), remove one (moved to a trash folder, never deleted), open
+// the demo trial.
 
 #include <optional>
 #include <string>
@@ -13,16 +15,26 @@
 
 namespace furrow {
 
+struct TrialsAction {
+  enum class Kind { open, create_from_plan, open_demo, copy_for_device, remove, cancel } kind = Kind::open;
+  std::string path;               // the trial database or the plan file
+  bool confirmed = false;         // the crew answered the question about it
+};
+
+// A question the screen asks before acting (a second trial from the same
+// plan, removing a trial, a station's trial file typed in): its words and
+// one button per answer.
+struct TrialsQuestion {
+  std::string text;
+  std::vector<std::pair<std::string, TrialsAction>> answers;
+};
+
 struct TrialsScreenState {
   char plan_path[512] = {};
   std::string message;            // outcome of the last action, in plain words
   bool message_is_problem = false;
+  std::optional<TrialsQuestion> question;
   std::vector<TapTarget> targets; // rebuilt every frame
-};
-
-struct TrialsAction {
-  enum class Kind { open, create_from_plan, open_demo } kind = Kind::open;
-  std::string path;               // the trial database or the plan file
 };
 
 struct TrialsView {

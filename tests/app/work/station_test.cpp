@@ -85,6 +85,27 @@ TEST_CASE("a folder of bundles goes into the right trials, one bundle per step, 
     for (const BundleOutcome& o : again.outcomes()) merged_now += o.merged;
     CHECK(merged_now == 3);   // a, b (nothing new) and the other trial's bundle; not the stray file
   }
+  // With the station's folders, every bundle read leaves incoming: merged to
+  // done, refused to refused; one for a trial not here stays to wait.
+  {
+    const BundleFolders folders = bundle_folders(data.string());
+    fs::create_directories(folders.incoming);
+    for (const auto& e : fs::directory_iterator(data / "bundles"))
+      if (e.path().extension() == ".bundle") fs::rename(e.path(), fs::path(folders.incoming) / e.path().filename());
+    StationImport filed(folders.incoming, data.string(), {}, &folders);
+    while (!filed.done()) filed.step();
+    const auto count = [](const std::string& dir) {
+      size_t n = 0;
+      if (fs::exists(dir))
+        for (const auto& e : fs::directory_iterator(dir)) n += e.path().extension() == ".bundle";
+      return n;
+    };
+    CHECK(count(folders.done) == 2);
+    CHECK(count(folders.refused) == 1);     // the stray file
+    CHECK(count(folders.incoming) == 1);    // the other trial's, waiting for it
+    StationImport twice(folders.incoming, data.string(), {}, &folders);
+    CHECK(twice.total() == 1);              // what was read is not read again
+  }
   // The two devices disagree on plot 101: the station lists it.
   auto open = open_trial_database(station);
   REQUIRE(open.ok());

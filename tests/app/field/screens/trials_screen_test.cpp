@@ -79,7 +79,7 @@ TEST_CASE("create from a listed plan file, from a typed path, or open the demo")
 TEST_CASE("every target on the Trials screen is at least 48 px in both window shapes") {
   for (const auto& [w, hgt] : {std::pair{1280.0f, 800.0f}, std::pair{800.0f, 1280.0f}}) {
     Headless h(w, hgt);
-    REQUIRE(h.state.targets.size() == 6);
+    REQUIRE(h.state.targets.size() == 8);   // 2 trials and their Remove buttons, demo, plan, path, Create
     for (const TapTarget& t : h.state.targets) {
       CAPTURE(t.label);
       CHECK(t.x1 - t.x0 >= kTouchTargetPx);
