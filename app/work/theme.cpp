@@ -38,8 +38,10 @@ Theme make_theme(ThemeKind kind) {
     t.panel = hex(0x1C2024);
     t.text = hex(0xF2F2F2);
     t.muted_text = hex(0xC8C8C8);
-    t.button = hex(0x2E3A4F);
-    t.button_text = hex(0xFFFFFF);
+    // Light buttons on the dark page: a button must stand out as a shape
+    // (3:1) as well as carry 7:1 text, which a dark button cannot do here.
+    t.button = hex(0xC8D2E0);
+    t.button_text = hex(0x000000);
     t.accent = hex(0x9CC3FF);
     t.accent_text = hex(0x000000);
     t.refuse = hex(0xFF8A80);
@@ -49,12 +51,21 @@ Theme make_theme(ThemeKind kind) {
     t.saved = hex(0x81C784);
     t.saved_text = hex(0x000000);
   }
-  // Status colours: blue, orange, dark vermilion and black-purple differ in
-  // hue on the blue/orange axis and in lightness.
-  t.collected = hex(0x0072B2);
-  t.missing = hex(0xE69F00);
-  t.flagged = hex(0xD55E00);
-  t.conflict = hex(0x3B0F4A);
+  // Status colours: blue, amber, vermilion and purple differ in hue on the
+  // blue/orange axis and in lightness, and stand at least 3:1 against the
+  // theme's background (WCAG 2.1 SC 1.4.11, non-text contrast): darker on
+  // daylight, lighter on dark (hues after Okabe & Ito's palette, from memory).
+  if (kind == ThemeKind::daylight) {
+    t.collected = hex(0x0072B2);
+    t.missing = hex(0x7A5200);
+    t.flagged = hex(0xD55E00);
+    t.conflict = hex(0x3B0F4A);
+  } else {
+    t.collected = hex(0x56B4E9);
+    t.missing = hex(0xE69F00);
+    t.flagged = hex(0xF07030);
+    t.conflict = hex(0xE0A0D0);
+  }
   return t;
 }
 
@@ -77,6 +88,22 @@ std::vector<ColourPair> text_pairs(const Theme& t) {
           {"refusal banner", t.refuse_text, t.refuse},
           {"confirmation banner", t.confirm_text, t.confirm},
           {"saved banner", t.saved_text, t.saved}};
+}
+
+}  // namespace furrow
+
+namespace furrow {
+
+std::vector<ColourPair> state_pairs(const Theme& t) {
+  return {{"collected plot", t.collected, t.background},
+          {"plot without a value", t.missing, t.background},
+          {"value to check", t.flagged, t.background},
+          {"conflict", t.conflict, t.background},
+          {"conflict on a panel", t.conflict, t.panel},
+          {"selected item", t.accent, t.background},
+          {"button on the page", t.button, t.background},
+          {"refusal banner", t.refuse, t.background},
+          {"saved banner", t.saved, t.background}};
 }
 
 }  // namespace furrow

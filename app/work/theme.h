@@ -38,5 +38,8 @@ struct ColourPair {
   Rgb text, background;
 };
 std::vector<ColourPair> text_pairs(const Theme& t);
+// Every colour that carries a state (map status, selected item, banner) with
+// the background it must stand out from, named (WCAG 2.1 SC 1.4.11: 3:1).
+std::vector<ColourPair> state_pairs(const Theme& t);
 
 }  // namespace furrow

@@ -149,6 +149,8 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   }
   ButtonLook missing_look{t.panel, t.text};
   missing_look.align_left = true;
+  missing_look.border_px = 2.0f * scale;   // a panel-coloured row needs an edge on the page
+  missing_look.border = t.text;
   for (size_t k = 0; k < a->missing_cells.size(); ++k) {
     const MissingCell& m = a->missing_cells[k];
     if (m.records.empty()) continue;
@@ -206,7 +208,7 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
     if (ImGui::BeginTable(("means" + m.term).c_str(), cols, tf)) {
       ImGui::TableSetupColumn(m.term.c_str());
       ImGui::TableSetupColumn(term::kPlots);
-      ImGui::TableSetupColumn((std::string(term::kMean) + unit_suffix).c_str());
+      ImGui::TableSetupColumn((std::string(term::kMean) + (unit.empty() ? "" : " (" + unit + ")")).c_str());
       ImGui::TableSetupColumn(term::kSe);
       if (letters) {
         ImGui::TableSetupColumn(term::kLsdGroup);

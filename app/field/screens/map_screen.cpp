@@ -63,7 +63,12 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
     const float w = button_width(m.label, scale);
     if (!first) flow_next(w);
     first = false;
-    if (solid_button(m.label, ImVec2(w, h), st->colouring == m.c ? chosen : plain, &st->targets) &&
+    // The chosen colouring is filled; the others are outlined on the page, so
+    // that the choice shows by more than a shade of blue.
+    ButtonLook outlined{t.background, t.text};
+    outlined.border_px = 2.0f * scale;
+    outlined.border = t.text;
+    if (solid_button(m.label, ImVec2(w, h), st->colouring == m.c ? chosen : outlined, &st->targets) &&
         st->colouring != m.c) {
       st->colouring = m.c;
       action = MapAction{MapAction::Kind::colouring_changed, 0};
@@ -89,7 +94,10 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
   ImGui::SameLine();
   bool zoom_in = solid_button("Zoom in", ImVec2(button_width("Zoom in", scale), h), plain, &st->targets);
   ImGui::SameLine();
-  if (solid_button("Whole field", ImVec2(button_width("Whole field", scale), h), st->cell_px == 0 ? chosen : plain,
+  ButtonLook zoom_outlined{t.background, t.text};
+  zoom_outlined.border_px = 2.0f * scale;
+  zoom_outlined.border = t.text;
+  if (solid_button("Whole field", ImVec2(button_width("Whole field", scale), h), st->cell_px == 0 ? chosen : zoom_outlined,
                    &st->targets))
     st->cell_px = 0;
 

@@ -141,9 +141,20 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   ImGuiIO& io = ImGui::GetIO();
   ImFont* large = io.Fonts->Fonts.Size > 2 ? io.Fonts->Fonts[1] : ImGui::GetFont();
   ImFont* huge = io.Fonts->Fonts.Size > 2 ? io.Fonts->Fonts[2] : ImGui::GetFont();
+  // Line 1: the plot (large) and where it lies; line 2: the trait and its
+  // usual range; line 3: what is recorded. Each stays one line (clipped at
+  // the window's edge rather than wrapped, which would move what is below).
+  // In a narrow window (for its text size) the details take lines of their
+  // own: decided by the window, never by the plot, so nothing moves between plots.
+  const bool narrow = width < 45 * ImGui::GetFontSize();
   ImGui::PushFont(huge);
   ImGui::Text("Plot %s", v.plot_label.c_str());
   ImGui::PopFont();
+  if (!narrow) {
+    ImGui::SameLine(0, target / 2);
+    ImGui::SetCursorPosY(ImGui::GetCursorPosY() + huge->FontSize * ImGui::GetIO().FontGlobalScale -
+                         ImGui::GetTextLineHeight() - style.FramePadding.y);
+  }
   ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(theme.muted_text));
   ImGui::Text("%s%sblock %d   row %d   column %d   %s", v.site.c_str(), v.site.empty() ? "" : "   ", v.block, v.row,
               v.column, v.treatment.c_str());
@@ -153,7 +164,14 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   if (v.occasions > 1) trait += ", occasion " + std::to_string(v.occasion);
   ImGui::TextUnformatted(trait.c_str());
   ImGui::PopFont();
-  ImGui::Text("%s", v.limits.empty() ? " " : v.limits.c_str());
+  if (!narrow) {
+    if (!v.limits.empty()) {
+      ImGui::SameLine(0, target / 2);
+      ImGui::TextUnformatted(v.limits.c_str());
+    }
+  } else {
+    ImGui::TextUnformatted(v.limits.empty() ? " " : v.limits.c_str());
+  }
   std::string recorded = "Recorded: " + (v.current ? *v.current : std::string("nothing yet"));
   if (!v.note.empty()) recorded += "   (note: " + v.note + ")";
   ImGui::TextUnformatted(recorded.c_str());
@@ -161,11 +179,11 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   // of fixed height whatever they say.
   std::string progress;
   if (v.in_walk) {
-    progress = "Done " + std::to_string(v.trait_done) + " of " + std::to_string(v.trait_total) + " (" + v.trait_name +
-               ")  -  plot " + std::to_string(v.walk_position) + " of " + std::to_string(v.walk_plots);
+    progress = "Done " + std::to_string(v.trait_done) + " of " + std::to_string(v.trait_total) + "   plot " +
+               std::to_string(v.walk_position) + " of " + std::to_string(v.walk_plots);
     if (v.walk_total != v.trait_total)
-      progress += "  -  " + std::to_string(v.walk_done) + " of " + std::to_string(v.walk_total) + " values in the walk";
-    if (v.walk_complete) progress += ". Today's walk is complete.";
+      progress += "   walk " + std::to_string(v.walk_done) + " of " + std::to_string(v.walk_total);
+    if (v.walk_complete) progress += "   (walk complete)";
   } else {
     progress = "This plot and trait are not part of today's walk.";
   }
@@ -266,7 +284,8 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   }
 
   // The banner: a reserved area of fixed height (rule: nothing moves).
-  const float banner_text_h = kBannerLines * ImGui::GetTextLineHeightWithSpacing();
+  // Fewer reserved lines where the text is large for the window.
+  const float banner_text_h = (narrow ? kBannerLines - 1 : kBannerLines) * ImGui::GetTextLineHeightWithSpacing();
   const float banner_buttons_h = 1.3f * target;
   const auto draw_banner = [&](float w) {
     const bool tone = st->tone != RecordScreenState::Tone::none && !st->banner.empty();
@@ -325,14 +344,17 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
     draw_banner(width);
     cmd = std::max(target, (width - style.ItemSpacing.x) / 2);
   } else {
-    cmd = std::max(target, std::min(cmd, (width - pad_width - 2 * style.ItemSpacing.x - target) / 2));
+    // The commands use the width beside the keypad (up to a reach a thumb covers).
+    cmd = std::max(target, std::min(8.0f * target, (width - pad_width - 2 * style.ItemSpacing.x - target) / 2));
   }
   // Keys as tall as the space left allows (large text must not push Save off
   // the screen), never below the touch-target size nor above kKeyPx.
   const float value_h = huge->FontSize * ImGui::GetIO().FontGlobalScale + style.ItemSpacing.y;
   const float room = ImGui::GetContentRegionAvail().y - value_h - 5 * style.ItemSpacing.y -
                      (portrait ? 3 * (1.3f * target + style.ItemSpacing.y) : 0);
-  const float key_h = std::clamp(room / 5, kTouchTargetPx, std::max(kTouchTargetPx, kKeyPx * std::max(1.0f, scale)));
+  // Never shorter than the touch size or than its label needs.
+  const float key_floor = std::max(kTouchTargetPx, ImGui::GetFontSize() + 2 * style.FramePadding.y + 8.0f);
+  const float key_h = std::clamp(room / 5, key_floor, std::max(key_floor, kKeyPx * std::max(1.0f, scale)));
   ImGui::BeginGroup();
   ImGui::PushFont(huge);
   const std::string value_line = "Value: " + v.typed + "_";
@@ -364,14 +386,19 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   ImGui::SameLine();
   if (big_button("Next plot", cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::next, {}});
-  if (big_button("Undo last entry", cmd, target * 1.3f, theme.button, theme.button_text, st))
+  // Undo, Skip and Note: three in a row where they fit at the touch size.
+  const float row_w = 2 * cmd + style.ItemSpacing.x;
+  const bool three = (row_w - 2 * style.ItemSpacing.x) / 3 >= button_width("Undo last entry", scale);
+  const float small_cmd = three ? (row_w - 2 * style.ItemSpacing.x) / 3 : cmd;
+  if (big_button("Undo last entry", small_cmd, target * 1.3f, theme.button, theme.button_text, st))
     out.push_back({RecordCommand::Kind::undo, {}});
   ImGui::SameLine();
-  if (big_button("Skip plot...", cmd, target * 1.3f, theme.button, theme.button_text, st)) {
+  if (big_button("Skip plot...", small_cmd, target * 1.3f, theme.button, theme.button_text, st)) {
     st->choosing_skip_reason = !st->choosing_skip_reason;
     st->writing_note = false;
   }
-  if (big_button("Note...", cmd, target * 1.3f, theme.button, theme.button_text, st)) {
+  if (three) ImGui::SameLine();
+  if (big_button("Note...", small_cmd, target * 1.3f, theme.button, theme.button_text, st)) {
     st->writing_note = !st->writing_note;
     st->note_for_skip = false;
     st->choosing_skip_reason = false;

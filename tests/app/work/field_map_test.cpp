@@ -95,6 +95,7 @@ TEST_CASE("status colours differ for normal vision and each dichromat, in both t
           const Rgb a = m ? simulate(status[i], *m) : status[i], b = m ? simulate(status[j], *m) : status[j];
           CAPTURE(i);
           CAPTURE(j);
+          CAPTURE(static_cast<int>(kind));
           // Each state also has its own pattern; colour alone must still tell them apart.
           CHECK(delta_e(a, b) > 10);
         }

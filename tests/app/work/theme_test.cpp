@@ -45,3 +45,27 @@ TEST_CASE("field-map status colours differ in lightness, not in hue alone") {
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+// WCAG 2.1 SC 1.4.6 (enhanced contrast, 7:1 for text) and SC 1.4.11
+// (non-text contrast, 3:1 for what shows a state or a control), in both themes.
+TEST_CASE("both themes: text at least 7:1, every state colour at least 3:1 against what it sits on") {
+  for (ThemeKind kind : {ThemeKind::daylight, ThemeKind::dark}) {
+    const Theme t = make_theme(kind);
+    for (const ColourPair& p : text_pairs(t)) {
+      INFO(std::string(kind == ThemeKind::dark ? "dark: " : "daylight: ") << p.name << ": "
+                                                                            << contrast_ratio(p.text, p.background));
+      CHECK(contrast_ratio(p.text, p.background) >= 7.0);
+    }
+    for (const ColourPair& p : state_pairs(t)) {
+      INFO(std::string(kind == ThemeKind::dark ? "dark: " : "daylight: ") << p.name << ": "
+                                                                            << contrast_ratio(p.text, p.background));
+      CHECK(contrast_ratio(p.text, p.background) >= 3.0);
+    }
+  }
+}
+
+}  // namespace
+}  // namespace furrow
