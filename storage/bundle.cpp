@@ -7,9 +7,13 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <set>
+#include <algorithm>
+#include <tuple>
 #include <optional>
 
 #include "core/design.h"
+#include "core/entry_checks.h"
 
 namespace furrow {
 namespace {
@@ -170,6 +174,49 @@ Row read_row(const Statement& s) {
   return r;
 }
 
+const char* kBundleSchema = R"sql(
+CREATE TABLE manifest (key TEXT PRIMARY KEY, value TEXT NOT NULL) STRICT;
+CREATE TABLE observation (
+  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
+  plot_label TEXT NOT NULL, trait_code TEXT NOT NULL, occasion INTEGER NOT NULL,
+  value TEXT, number REAL, missing_reason TEXT,
+  note TEXT NOT NULL, observer TEXT NOT NULL, recorded_at TEXT NOT NULL,
+  confirmed_checks TEXT NOT NULL,
+  PRIMARY KEY (device_id, sequence)
+) STRICT, WITHOUT ROWID;
+CREATE TABLE replacement (
+  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
+  replaced_device_id TEXT NOT NULL, replaced_sequence INTEGER NOT NULL,
+  PRIMARY KEY (device_id, sequence, replaced_device_id, replaced_sequence)
+) STRICT, WITHOUT ROWID;
+CREATE TABLE holding (device_id TEXT PRIMARY KEY, max_sequence INTEGER NOT NULL) STRICT;
+)sql";
+
+// The bundle's schema, exactly: the objects (type, name, table, SQL) an empty
+// bundle made by kBundleSchema holds. Anything else - a view, a trigger, a
+// virtual table, an extra column or index - and the file is not read further.
+using SchemaObjects = std::vector<std::tuple<std::string, std::string, std::string, std::string>>;
+Result<SchemaObjects> schema_objects(Database& db) {
+  auto s = db.prepare("SELECT type, name, tbl_name, coalesce(sql, '') FROM sqlite_master ORDER BY type, name");
+  if (!s) return s.problem();
+  SchemaObjects out;
+  while (s->step()) out.emplace_back(s->text(0), s->text(1), s->text(2), s->text(3));
+  if (s->failed()) return make_problem(s->error());
+  return out;
+}
+const SchemaObjects& expected_bundle_schema() {
+  static const SchemaObjects expected = [] {
+    auto db = Database::create_standalone(":memory:");
+    SchemaObjects out;
+    if (db && db->exec(kBundleSchema)) {
+      auto objects = schema_objects(*db);
+      if (objects) out = *objects;
+    }
+    return out;
+  }();
+  return expected;
+}
+
 // An open bundle whose format, integrity and checksum have been checked.
 struct OpenBundle {
   Database db;
@@ -194,6 +241,19 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
     auto s = b.db.prepare("PRAGMA application_id");
     if (!s) return fail("damaged or not a bundle: " + s.problem().message);
     if (!s->step() || s->integer(0) != kBundleApplicationId) return fail("not a Furrow bundle (another kind of SQLite file)");
+  }
+  {
+    // Before any query of its tables: the schema must be ours, exactly.
+    auto objects = schema_objects(b.db);
+    if (!objects) return fail("damaged or not a bundle: " + objects.problem().message);
+    const SchemaObjects& expected = expected_bundle_schema();
+    if (expected.empty()) return fail("cannot check its schema (no memory for the expected one)");
+    if (*objects != expected) {
+      for (const auto& [type, name, table, sql] : *objects)
+        if (type != "table" && type != "index")
+          return fail("refused: it holds a " + type + " ('" + name + "'); a bundle holds tables only");
+      return fail("refused: its tables are not those of a Furrow bundle (changed or extra tables, columns or indexes)");
+    }
   }
   {
     auto s = b.db.prepare("PRAGMA quick_check");
@@ -269,23 +329,7 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
   return b;
 }
 
-const char* kBundleSchema = R"sql(
-CREATE TABLE manifest (key TEXT PRIMARY KEY, value TEXT NOT NULL) STRICT;
-CREATE TABLE observation (
-  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
-  plot_label TEXT NOT NULL, trait_code TEXT NOT NULL, occasion INTEGER NOT NULL,
-  value TEXT, number REAL, missing_reason TEXT,
-  note TEXT NOT NULL, observer TEXT NOT NULL, recorded_at TEXT NOT NULL,
-  confirmed_checks TEXT NOT NULL,
-  PRIMARY KEY (device_id, sequence)
-) STRICT, WITHOUT ROWID;
-CREATE TABLE replacement (
-  device_id TEXT NOT NULL, sequence INTEGER NOT NULL,
-  replaced_device_id TEXT NOT NULL, replaced_sequence INTEGER NOT NULL,
-  PRIMARY KEY (device_id, sequence, replaced_device_id, replaced_sequence)
-) STRICT, WITHOUT ROWID;
-CREATE TABLE holding (device_id TEXT PRIMARY KEY, max_sequence INTEGER NOT NULL) STRICT;
-)sql";
+
 
 }  // namespace
 
@@ -444,6 +488,123 @@ Result<BundleManifest> read_bundle_manifest(const std::string& path) {
   return b->manifest;
 }
 
+namespace {
+
+const std::string kGapWords = "(its sequences have a gap: merge its earlier bundle first)";
+
+// Lengths a row's free text may have (ours; far above what a crew types).
+constexpr size_t kMaxNoteBytes = 2000, kMaxNameBytes = 200, kMaxReasonBytes = 200;
+
+bool is_device_id(const std::string& s) {
+  if (s.size() != 16) return false;
+  for (char c : s)
+    if (!((c >= '0' && c <= '9') || (c >= 'a' && c <= 'f'))) return false;
+  return true;
+}
+
+// "2026-05-02T08:01:02.000Z"
+bool is_utc_time(const std::string& s) {
+  if (s.size() != 24 || s[4] != '-' || s[7] != '-' || s[10] != 'T' || s[13] != ':' || s[16] != ':' || s[19] != '.' ||
+      s[23] != 'Z')
+    return false;
+  for (size_t i : {0, 1, 2, 3, 5, 6, 8, 9, 11, 12, 14, 15, 17, 18, 20, 21, 22})
+    if (s[i] < '0' || s[i] > '9') return false;
+  return true;
+}
+
+// Every row of a bundle is checked as an entry is, and against who may
+// write it (rules in bundle.h). Returns why the first bad row is refused.
+Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, const BundleManifest& m,
+                  const StoredTrial& trial, Database& db) {
+  std::map<std::string, const Trait*> traits;
+  for (const Trait& t : trial.plan.traits) traits[t.code] = &t;
+  std::set<std::string> plots;
+  for (const PlannedPlot& p : trial.layout.plots) plots.insert(p.label);
+  const bool at_station = trial.role == "station";
+  if (!is_device_id(m.maker_device_id)) return make_problem("its maker's device id '" + m.maker_device_id + "' is not one Furrow makes");
+  if (at_station && m.maker_role != "device")
+    return make_problem("it says it was made by a station; a station takes bundles from its devices only");
+  if (!at_station && m.maker_role != "station")
+    return make_problem("it was made by a device; a device takes bundles from its station only");
+  if (at_station && m.maker_device_id == trial.device_id)
+    return make_problem("it claims to be made by this station's own device id");
+  std::map<std::pair<std::string, std::int64_t>, const Row*> by_key;
+  std::vector<std::int64_t> maker_sequences;
+  for (const Row& r : rows) {
+    const std::string where = "row " + r.device_id + "/" + std::to_string(r.sequence);
+    if (!is_device_id(r.device_id)) return make_problem(where + ": the device id is not one Furrow makes");
+    if (r.sequence < 1) return make_problem(where + ": sequences start at 1");
+    if (at_station && r.device_id != m.maker_device_id)
+      return make_problem(where + ": a row of another device (a device's bundle carries its own rows only)");
+    if (r.device_id == m.maker_device_id) maker_sequences.push_back(r.sequence);
+    by_key[{r.device_id, r.sequence}] = &r;
+    const auto t = traits.find(r.trait_code);
+    if (!plots.count(r.plot_label) || t == traits.end())
+      return make_problem(where + " names plot '" + r.plot_label + "' and trait '" + r.trait_code +
+                          "', not both in this trial");
+    const Trait& trait = *t->second;
+    if (r.occasion < 1 || r.occasion > trait.occasions)
+      return make_problem(where + ": occasion " + std::to_string(r.occasion) + " of " + trait.code + ", which has " +
+                          std::to_string(trait.occasions) + (trait.occasions == 1 ? " occasion" : " occasions"));
+    if (r.value.has_value() == r.missing_reason.has_value())
+      return make_problem(where + ": a row holds either a value or the reason there is none");
+    if (r.value) {
+      auto parsed = parse_acceptable_value(trait, *r.value);
+      if (!parsed) return make_problem(where + ", " + trait.code + ": " + parsed.problem().message);
+      if (parsed->text != *r.value)
+        return make_problem(where + ", " + trait.code + ": the value '" + *r.value + "' is not written as Furrow writes it");
+      const bool numbers_agree = parsed->number.has_value() == r.number.has_value() &&
+                                 (!r.number || *parsed->number == *r.number);
+      if (!numbers_agree) return make_problem(where + ", " + trait.code + ": its number does not match its value");
+    } else {
+      if (r.number) return make_problem(where + ": a row without a value has a number");
+      if (r.missing_reason->empty() || r.missing_reason->size() > kMaxReasonBytes)
+        return make_problem(where + ": the reason for no value is empty or too long");
+    }
+    if (r.note.size() > kMaxNoteBytes) return make_problem(where + ": the note is longer than 2,000 bytes");
+    if (r.observer.empty() || r.observer.size() > kMaxNameBytes)
+      return make_problem(where + ": the observer's name is empty or longer than 200 bytes");
+    if (!is_utc_time(r.recorded_at)) return make_problem(where + ": the time '" + r.recorded_at + "' is not a UTC time");
+    if (r.confirmed_checks.size() > kMaxNameBytes) return make_problem(where + ": its confirmed checks are too long");
+  }
+  // Authority: a device's rows replace only that device's rows; only the
+  // station's rows (settlements) replace another device's.
+  for (const Link& l : links) {
+    const std::string where = "row " + l.device_id + "/" + std::to_string(l.sequence);
+    if (!by_key.count({l.device_id, l.sequence})) return make_problem(where + ": a link from a row the bundle does not carry");
+    if (l.device_id != l.replaced_device_id && (at_station || l.device_id != m.maker_device_id))
+      return make_problem(where + " replaces row " + l.replaced_device_id + "/" + std::to_string(l.replaced_sequence) +
+                          " of another device; only the station settles between devices");
+    if (l.device_id == l.replaced_device_id && l.replaced_sequence >= l.sequence)
+      return make_problem(where + " replaces a later row of its own device");
+  }
+  // Sequences: the maker's rows follow on from what this database holds of
+  // it, with no gap.
+  if (at_station && !maker_sequences.empty()) {
+    std::sort(maker_sequences.begin(), maker_sequences.end());
+    auto held = db.prepare("SELECT coalesce(max(sequence), 0) FROM observation WHERE device_id = ?");
+    if (!held) return held.problem();
+    held->bind(1, m.maker_device_id);
+    const std::int64_t have = held->step() ? held->integer(0) : 0;
+    std::int64_t expect = std::min(maker_sequences.front(), have + 1);
+    if (maker_sequences.front() > have + 1)
+      return make_problem("row " + m.maker_device_id + "/" + std::to_string(maker_sequences.front()) +
+                          ": rows " + std::to_string(have + 1) + " to " + std::to_string(maker_sequences.front() - 1) +
+                          " of that device are missing " + kGapWords);
+    for (std::int64_t q : maker_sequences) {
+      if (q != expect)
+        return make_problem("row " + m.maker_device_id + "/" + std::to_string(expect) +
+                            " is missing between the device's rows " + kGapWords);
+      ++expect;
+    }
+  }
+  return ok_status();
+}
+
+}  // namespace
+
+bool waits_for_earlier_bundle(const Problem& p) { return p.message.find(kGapWords) != std::string::npos; }
+
 Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const std::string& path) {
   // Every bundle is checked whole, even one merged before: a file altered
   // since then is refused, not waved through by its old manifest.
@@ -467,6 +628,20 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
   for (size_t i = 0; i < trial.layout.plots.size(); ++i) plot_id[trial.layout.plots[i].label] = trial.plot_ids[i];
   for (size_t k = 0; k < trial.plan.traits.size(); ++k) trait_id[trial.plan.traits[k].code] = trial.trait_ids[k];
 
+  {
+    std::vector<Row> rows;
+    std::vector<Link> links;
+    auto read = b->db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, "
+                              "missing_reason, note, observer, recorded_at, confirmed_checks FROM observation");
+    if (!read) return make_problem(path + ": " + read.problem().message);
+    while (read->step()) rows.push_back(read_row(*read));
+    if (read->failed()) return make_problem(path + ": " + read->error());
+    auto ls = b->db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement");
+    if (!ls) return make_problem(path + ": " + ls.problem().message);
+    while (ls->step()) links.push_back({ls->text(0), ls->integer(1), ls->text(2), ls->integer(3)});
+    if (ls->failed()) return make_problem(path + ": " + ls->error());
+    if (auto c = check_rows(rows, links, m, trial, db); !c) return make_problem(path + ": refused: " + c.problem().message);
+  }
   MergeOutcome out{m, 0, 0};
   Status merged = in_transaction(db, [&]() -> Status {
     auto read = b->db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, "

@@ -63,6 +63,10 @@ struct MergeOutcome {
 
 // Merges one bundle into `db` (whose trial is `trial`) in one transaction.
 // A device that merges a station's bundle learns what the station holds.
+// Whether merge_bundle refused a bundle only because the device's earlier
+// rows have not arrived yet (it merges once its earlier bundle has).
+bool waits_for_earlier_bundle(const Problem& problem);
+
 Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const std::string& bundle_path);
 
 // The log as text, one line per row in key order (observations, then

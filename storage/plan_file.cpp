@@ -316,10 +316,11 @@ std::string long_data_csv(const StoredTrial& t, const std::vector<LiveObservatio
 std::string wide_data_csv(const StoredTrial& t, const std::vector<LiveObservation>& live) {
   const Index ix(t);
   // cell -> distinct live values
-  std::map<std::tuple<size_t, size_t, int>, std::set<std::pair<std::string, std::string>>> cells;
+  // (agreeing values keyed by their identity: 5.5 and 5.50 are one value)
+  std::map<std::tuple<size_t, size_t, int>, std::map<std::string, std::pair<std::string, std::string>>> cells;
   for (const LiveObservation& x : live)
-    cells[{ix.plot.at(x.plot_id), ix.trait.at(x.trait_id), x.occasion}].insert(
-        {x.value.value_or(""), x.missing_reason.value_or("")});
+    cells[{ix.plot.at(x.plot_id), ix.trait.at(x.trait_id), x.occasion}].emplace(
+        value_identity(x), std::pair{x.value.value_or(""), x.missing_reason.value_or("")});
   std::ostringstream o;
   o << "label,site,block,field_row,field_column";
   for (const auto& f : t.plan.factors) o << "," << csv_field(f.name);
@@ -338,7 +339,8 @@ std::string wide_data_csv(const StoredTrial& t, const std::vector<LiveObservatio
         const auto it = cells.find({i, tr, occ});
         if (it == cells.end()) o << ",,";
         else if (it->second.size() > 1) o << ",,CONFLICT";
-        else o << "," << csv_field(it->second.begin()->first) << "," << csv_field(it->second.begin()->second);
+        else
+          o << "," << csv_field(it->second.begin()->second.first) << "," << csv_field(it->second.begin()->second.second);
       }
     o << "\n";
   }

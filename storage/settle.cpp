@@ -18,7 +18,7 @@ Result<std::vector<ConflictCell>> list_conflicts(Database& db, const StoredTrial
   std::vector<ConflictCell> out;
   for (auto& [key, rows] : cells) {
     std::set<std::string> distinct;
-    for (const auto& r : rows) distinct.insert(r.value.value_or("") + "\x1f" + r.missing_reason.value_or(""));
+    for (const auto& r : rows) distinct.insert(value_identity(r));
     if (distinct.size() < 2) continue;
     out.push_back({std::get<0>(key), std::get<1>(key), std::get<2>(key), std::move(rows)});
   }

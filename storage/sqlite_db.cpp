@@ -70,6 +70,7 @@ Database& Database::operator=(Database&& o) noexcept {
     if (db_) sqlite3_close_v2(db_);
     db_ = o.db_;
     o.db_ = nullptr;
+    steps_ = std::move(o.steps_);
   }
   return *this;
 }
@@ -110,6 +111,34 @@ Result<Database> Database::open_read_only(const std::string& path) {
     std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
     return make_problem("cannot open " + path + ": " + msg);
   }
+  // The file comes from a device we do not control (SQLite's "Defense
+  // against the dark arts" advice): no functions or virtual tables run from
+  // its schema, no writes to the schema even by accident, corrupt cells
+  // caught on read, bounded strings and queries, and no query that runs
+  // without end (a recursive view, say) - the progress handler stops any
+  // statement after kUntrustedStepLimit virtual-machine steps.
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_TRUSTED_SCHEMA, 0, nullptr);
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_ENABLE_TRIGGER, 0, nullptr);
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_ENABLE_VIEW, 0, nullptr);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_LENGTH, kUntrustedMaxBytes);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_SQL_LENGTH, 100000);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_COLUMN, 100);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_EXPR_DEPTH, 100);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_COMPOUND_SELECT, 3);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_ATTACHED, 0);
+  sqlite3_limit(d.db_, SQLITE_LIMIT_TRIGGER_DEPTH, 1);
+  d.steps_ = std::make_unique<std::int64_t>(0);
+  sqlite3_progress_handler(
+      d.db_, 1000,
+      [](void* p) -> int {
+        auto* steps = static_cast<std::int64_t*>(p);
+        *steps += 1000;
+        return *steps > kUntrustedStepLimit ? 1 : 0;
+      },
+      d.steps_.get());
+  for (const char* pragma : {"PRAGMA cell_size_check = ON", "PRAGMA mmap_size = 0"})
+    if (auto st = d.exec(pragma); !st) return make_problem(path + ": " + st.problem().message);
   return d;
 }
 

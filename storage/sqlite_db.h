@@ -4,6 +4,7 @@
 
 #include <cstdint>
 #include <optional>
+#include <memory>
 #include <string>
 
 #include "core/result.h"
@@ -57,15 +58,19 @@ class Database {
   Database() = default;
   Database(const Database&) = delete;
   Database& operator=(const Database&) = delete;
-  Database(Database&& o) noexcept : db_(o.db_) { o.db_ = nullptr; }
+  Database(Database&& o) noexcept : db_(o.db_), steps_(std::move(o.steps_)) { o.db_ = nullptr; }
   Database& operator=(Database&& o) noexcept;
   ~Database();
 
   // Opens (create = true: creates) the file with foreign keys on, WAL journal
   // and synchronous=FULL: every commit is on disk when it returns.
   static Result<Database> open(const std::string& path, bool create);
-  // Opens a file for reading only, as immutable: nothing is written beside
-  // it (no journal), and a damaged file fails on read, not on open.
+  // Opens an untrusted file (a bundle from another device) for reading only,
+  // as immutable: nothing is written beside it (no journal), a damaged file
+  // fails on read, not on open; defensive mode on, schema not trusted, no
+  // triggers or views run, strings at most kUntrustedMaxBytes, and the whole
+  // connection stops after kUntrustedStepLimit virtual-machine steps. The
+  // caller must still check the schema before its first query.
   static Result<Database> open_read_only(const std::string& path);
   // A file written once as a whole: rollback journal (no WAL beside it),
   // synchronous=FULL.
@@ -79,7 +84,13 @@ class Database {
 
  private:
   sqlite3* db_ = nullptr;
+  std::unique_ptr<std::int64_t> steps_;   // untrusted files: steps run so far
 };
+
+// Limits for untrusted files (ours; generous for a day of a large trial:
+// a 20,000-row bundle is read and merged in well under 10^8 steps).
+inline constexpr int kUntrustedMaxBytes = 1 << 20;
+inline constexpr std::int64_t kUntrustedStepLimit = 2'000'000'000;
 
 // Returns the Problem of a failed Status or Result from the enclosing
 // function (which returns Status or a Result).

@@ -143,6 +143,26 @@ CREATE TABLE walk_choice (
 ) STRICT;
 )sql";
 
+// Version 4: live rows agree when their values agree as values (the number
+// of a numeric trait), not as text: 5.5 and 5.50 are one value.
+constexpr const char* kSchemaV4 = R"sql(
+DROP VIEW current_value;
+DROP VIEW conflict;
+CREATE VIEW current_value AS
+  SELECT plot_id, trait_id, occasion, max(value) AS value, max(number) AS number,
+         max(missing_reason) AS missing_reason, count(*) AS live_rows
+  FROM live_observation GROUP BY plot_id, trait_id, occasion
+  HAVING count(DISTINCT CASE WHEN number IS NOT NULL THEN 'n' || quote(number)
+                             WHEN value IS NOT NULL THEN 't' || value
+                             ELSE 'm' || missing_reason END) = 1;
+CREATE VIEW conflict AS
+  SELECT plot_id, trait_id, occasion, count(*) AS live_rows
+  FROM live_observation GROUP BY plot_id, trait_id, occasion
+  HAVING count(DISTINCT CASE WHEN number IS NOT NULL THEN 'n' || quote(number)
+                             WHEN value IS NOT NULL THEN 't' || value
+                             ELSE 'm' || missing_reason END) > 1;
+)sql";
+
 std::string random_hex(int bytes) {
   std::random_device rd;
   std::string out;
@@ -304,6 +324,10 @@ Status migrate(Database& db) {
     if (version < 3) {
       FURROW_TRY(db.exec(kSchemaV3));
       FURROW_TRY(db.exec("PRAGMA user_version = 3"));
+    }
+    if (version < 4) {
+      FURROW_TRY(db.exec(kSchemaV4));
+      FURROW_TRY(db.exec("PRAGMA user_version = 4"));
     }
     return ok_status();
   });
@@ -601,5 +625,17 @@ bool has_check(const std::string& checks, const std::string& key) {
     start = end + 1;
   }
   return false;
+}
+}  // namespace furrow
+
+namespace furrow {
+std::string value_identity(const LiveObservation& row) {
+  if (row.number) {
+    char buf[40];
+    std::snprintf(buf, sizeof buf, "n%.17g", *row.number);
+    return buf;
+  }
+  if (row.value) return "t" + *row.value;
+  return "m" + row.missing_reason.value_or("");
 }
 }  // namespace furrow

@@ -21,7 +21,7 @@
 
 namespace furrow {
 
-inline constexpr int kSchemaVersion = 3;
+inline constexpr int kSchemaVersion = 4;
 
 // Brings the schema to kSchemaVersion. A database from a newer Furrow is
 // refused (its user_version is higher than ours).
@@ -109,6 +109,12 @@ struct LiveObservation {
   std::string note, observer, recorded_at;
   std::string confirmed_checks;   // checks the crew answered "the value is right" (keys, comma-separated)
 };
+
+// What two live rows of one cell must share to agree: the number for a
+// numeric trait (5.5 and 5.50, 6 and 6.0 agree), else the text exactly, or the
+// reason there is no value. Two live rows with different identities are a
+// conflict. (The views current_value and conflict compare the same way.)
+std::string value_identity(const LiveObservation& row);
 
 // Rows nobody replaced, for one trait (all traits when trait_id is 0),
 // ordered by recorded time then key.

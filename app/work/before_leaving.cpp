@@ -37,7 +37,7 @@ BeforeLeaving before_leaving(const StoredTrial& t, const std::vector<LiveObserva
   };
   for (const auto& [cell, rows] : cells) {
     std::set<std::string> distinct;
-    for (const auto* r : rows) distinct.insert(r->value.value_or("") + "\x1f" + r->missing_reason.value_or(""));
+    for (const auto* r : rows) distinct.insert(value_identity(*r));
     if (distinct.size() > 1) {
       std::string values;
       for (const auto* r : rows) values += (values.empty() ? "" : " / ") + r->value.value_or("missing");

@@ -66,7 +66,7 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
     const auto it = index_of.find(x.plot_id);
     if (it == index_of.end()) continue;
     if (x.value) {
-      values[it->second].insert(*x.value);
+      values[it->second].insert(value_identity(x));   // agreeing values are one
       numbers[it->second] = x.number;
     } else if (x.missing_reason && *x.missing_reason != kWithdrawnReason) {
       values[it->second].insert("missing: " + *x.missing_reason);

@@ -152,13 +152,13 @@ RecordView RecordSession::view() const {
                (tr.soft_max ? num(*tr.soft_max) : std::string(""));
   v.occasion = occasion_;
   v.occasions = tr.occasions;
-  std::set<std::string> values;
+  std::map<std::string, std::string> values;   // identity -> shown
   for (const auto& x : live_)
     if (x.plot_id == t.plot_ids[plot_] && x.trait_id == t.trait_ids[trait_] && x.occasion == occasion_) {
-      values.insert(x.value ? *x.value : "missing: " + x.missing_reason.value_or(""));
+      values.emplace(value_identity(x), x.value ? *x.value : "missing: " + x.missing_reason.value_or(""));
       if (!x.note.empty()) v.note = x.note;
     }
-  if (values.size() == 1) v.current = *values.begin();
+  if (values.size() == 1) v.current = values.begin()->second;
   else if (values.size() > 1) v.current = "CONFLICT";
   v.typed = typed_;
   v.has_pending = pending_.has_value();

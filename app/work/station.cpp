@@ -89,7 +89,13 @@ void StationImport::step() {
     return;
   }
   auto merged = merge_bundle(open->db, open->trial, path);
-  if (!merged) {
+  if (!merged && waits_for_earlier_bundle(merged.problem())) {
+    o.message = merged.problem().message;   // stays in incoming; read again after the others
+    if (!retried_.count(path)) {
+      retried_.insert(path);
+      files_.push_back(path);
+    }
+  } else if (!merged) {
     o.message = merged.problem().message;
     o.refused = true;
     file_away(path, false, &o);

@@ -6,6 +6,7 @@
 
 #include <cstdint>
 #include <optional>
+#include <set>
 #include <string>
 #include <vector>
 
@@ -56,6 +57,7 @@ class StationImport {
   size_t next_ = 0;
   std::vector<BundleOutcome> outcomes_;
   std::optional<BundleFolders> folders_;
+  std::set<std::string> retried_;   // bundles waiting for a device's earlier rows, read once more at the end
   void file_away(const std::string& path, bool merged, BundleOutcome* o);
 };
 

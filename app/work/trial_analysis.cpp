@@ -16,7 +16,7 @@ Result<Analysis> analyse_trial_trait(const StoredTrial& t, const std::vector<Liv
   std::map<std::int64_t, std::string> number_text;
   for (const auto& x : live) {
     if (x.trait_id != trait_id || x.occasion != occasion) continue;
-    values[x.plot_id].insert(x.value.value_or(""));
+    values[x.plot_id].insert(value_identity(x));   // agreeing values are one
     if (x.number) {
       char buf[40];
       std::snprintf(buf, sizeof buf, "%.17g", *x.number);

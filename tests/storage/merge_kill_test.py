@@ -44,7 +44,8 @@ for d in range(10):
     con = sqlite3.connect(device)
     dev_id = con.execute("SELECT device_id FROM this_device").fetchone()[0]
     plots = [r[0] for r in con.execute("SELECT id FROM plot ORDER BY id")]
-    traits = [r[0] for r in con.execute("SELECT id FROM trait ORDER BY id")]
+    # Plant counts and heights, whose limits (0-600 plants, 0-250 cm) take 100-149.
+    traits = [r[0] for r in con.execute("SELECT id FROM trait WHERE code IN ('stand_count', 'height_cm') ORDER BY id")]
     with con:
         for seq in range(1, 2001):
             plot = plots[(seq * 7 + d * 13) % len(plots)]

@@ -44,9 +44,17 @@ TEST_CASE("a folder of bundles goes into the right trials, one bundle per step, 
   }
   // A bundle of a trial this station does not hold, and a stray file.
   {
+    // Another trial's station (elsewhere) and a device of it.
     const std::string other = (devices / "other.furrow").string();
     fs::copy_file(test::fresh_demo_trial("station_other_src.furrow"), other);
-    REQUIRE(write_device_bundle(other, (data / "bundles").string()).ok());
+    const std::string other_device = (devices / "other_device.furrow").string();
+    REQUIRE(copy_trial_for_device(other, other_device).ok());
+    {
+      auto s = RecordSession::open(other_device, "Oda");
+      REQUIRE(s.ok());
+      REQUIRE(s->skip("flooded", "").ok());
+    }
+    REQUIRE(write_device_bundle(other_device, (data / "bundles").string()).ok());
     std::ofstream(data / "bundles" / "zz-notes.bundle") << "not a bundle";
   }
   StationImport import((data / "bundles").string(), data.string());
