@@ -217,6 +217,49 @@ const SchemaObjects& expected_bundle_schema() {
   return expected;
 }
 
+// The checksum of a bundle's content as stored: the manifest's text (but the
+// checksum itself), the holdings, every row and every link, in key order.
+// Counts the rows and links.
+Result<std::string> content_digest(Database& db, const std::map<std::string, std::string>& manifest,
+                                   std::int64_t* rows, std::int64_t* links) {
+  Digest d;
+  for (const auto& [k, v] : manifest) {
+    if (k == "checksum") continue;
+    d.field(k);
+    d.field(v);
+  }
+  {
+    auto s = db.prepare("SELECT device_id, max_sequence FROM holding ORDER BY device_id");
+    if (!s) return s.problem();
+    while (s->step()) {
+      d.field(s->text(0));
+      d.field(s->integer(1));
+    }
+    if (s->failed()) return make_problem(s->error());
+  }
+  {
+    auto s = db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, missing_reason, "
+                        "note, observer, recorded_at, confirmed_checks FROM observation ORDER BY device_id, sequence");
+    if (!s) return s.problem();
+    while (s->step()) {
+      digest_row(d, read_row(*s));
+      ++*rows;
+    }
+    if (s->failed()) return make_problem(s->error());
+  }
+  {
+    auto s = db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement "
+                        "ORDER BY device_id, sequence, replaced_device_id, replaced_sequence");
+    if (!s) return s.problem();
+    while (s->step()) {
+      digest_link(d, {s->text(0), s->integer(1), s->text(2), s->integer(3)});
+      ++*links;
+    }
+    if (s->failed()) return make_problem(s->error());
+  }
+  return d.hex();
+}
+
 // An open bundle whose format, integrity and checksum have been checked.
 struct OpenBundle {
   Database db;
@@ -279,53 +322,27 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
   man.maker_role = m["maker_role"];
   man.created_at = m["created_at"];
   man.checksum = m["checksum"];
-  try {
-    man.observations = std::stoll(m["observations"]);
-    man.replacements = std::stoll(m["replacements"]);
-  } catch (...) {
-    return fail("the manifest's row counts are not numbers");
+  for (const char* key : {"observations", "replacements"}) {
+    const std::string& v = m[key];
+    if (v.empty() || v.size() > 12 || v.find_first_not_of("0123456789") != std::string::npos)
+      return fail(std::string("the manifest's ") + key + " count '" + v + "' is not a plain number");
   }
+  man.observations = std::stoll(m["observations"]);
+  man.replacements = std::stoll(m["replacements"]);
   {
     auto s = b.db.prepare("SELECT device_id, max_sequence FROM holding ORDER BY device_id");
     if (!s) return fail("damaged or truncated: " + s.problem().message);
     while (s->step()) b.holding[s->text(0)] = s->integer(1);
   }
   if (!verify_rows) return b;
-  Digest d;
-  for (const auto& [k, v] : manifest_fields(man)) {
-    d.field(k);
-    d.field(v);
-  }
-  for (const auto& [dev, n] : b.holding) {
-    d.field(dev);
-    d.field(n);
-  }
   std::int64_t rows = 0, links = 0;
-  {
-    auto s = b.db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, missing_reason, "
-                          "note, observer, recorded_at, confirmed_checks FROM observation ORDER BY device_id, sequence");
-    if (!s) return fail("damaged or truncated: " + s.problem().message);
-    while (s->step()) {
-      digest_row(d, read_row(*s));
-      ++rows;
-    }
-    if (s->failed()) return fail("damaged or truncated: " + s->error());
-  }
-  {
-    auto s = b.db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement "
-                          "ORDER BY device_id, sequence, replaced_device_id, replaced_sequence");
-    if (!s) return fail("damaged or truncated: " + s.problem().message);
-    while (s->step()) {
-      digest_link(d, {s->text(0), s->integer(1), s->text(2), s->integer(3)});
-      ++links;
-    }
-    if (s->failed()) return fail("damaged or truncated: " + s->error());
-  }
+  auto digest = content_digest(b.db, m, &rows, &links);
+  if (!digest) return fail("damaged or truncated: " + digest.problem().message);
   if (rows != man.observations || links != man.replacements)
     return fail("holds " + std::to_string(rows) + " observations and " + std::to_string(links) +
                 " links but its manifest says " + std::to_string(man.observations) + " and " +
                 std::to_string(man.replacements) + " (truncated or altered)");
-  if (d.hex() != man.checksum) return fail("the checksum does not match its content (the file was damaged or altered)");
+  if (*digest != man.checksum) return fail("the checksum does not match its content (the file was damaged or altered)");
   return b;
 }
 
@@ -758,6 +775,28 @@ Status copy_trial_for_device(const std::string& station_path, const std::string&
   if (!result)
     for (const char* suffix : {"", "-wal", "-shm"}) std::filesystem::remove(device_path + suffix, ec);
   return result;
+}
+
+}  // namespace furrow
+
+namespace furrow {
+
+Status reseal_bundle(const std::string& path) {
+  auto db = Database::create_standalone(path);
+  if (!db) return db.problem();
+  std::map<std::string, std::string> m;
+  {
+    auto s = db->prepare("SELECT key, value FROM manifest");
+    if (!s) return s.problem();
+    while (s->step()) m[s->text(0)] = s->text(1);
+  }
+  std::int64_t rows = 0, links = 0;
+  auto digest = content_digest(*db, m, &rows, &links);
+  if (!digest) return digest.problem();
+  auto u = db->prepare("UPDATE manifest SET value = ? WHERE key = 'checksum'");
+  if (!u) return u.problem();
+  u->bind(1, *digest);
+  return u->run();
 }
 
 }  // namespace furrow

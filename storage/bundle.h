@@ -63,6 +63,11 @@ struct MergeOutcome {
 
 // Merges one bundle into `db` (whose trial is `trial`) in one transaction.
 // A device that merges a station's bundle learns what the station holds.
+// Writes the checksum of what a bundle file now holds into its manifest -
+// what anyone who edits a bundle can do, since the checksum only detects
+// damage. The tests that play a forger use it; signatures are what stop one.
+Status reseal_bundle(const std::string& path);
+
 // Whether merge_bundle refused a bundle only because the device's earlier
 // rows have not arrived yet (it merges once its earlier bundle has).
 bool waits_for_earlier_bundle(const Problem& problem);
