@@ -32,8 +32,8 @@ int run_bundle(const std::string& db_path, const std::string& out, bool everythi
   if (!open) return fail(db_path + ": " + open.problem().message);
   auto m = write_bundle(open->db, open->trial, out, everything);
   if (!m) return fail(m.problem().message);
-  std::cout << "bundle " << out << ": " << m->observations << " observations, " << m->replacements
-            << " links, from " << m->maker_role << " " << m->maker_device_id << ", checksum " << m->checksum << "\n";
+  std::cout << "bundle " << out << ": " << count_of(m->observations, "observation") << ", "
+            << count_of(m->replacements, "link") << ", from " << m->maker_role << " " << m->maker_device_id << ", checksum " << m->checksum << "\n";
   return 0;
 }
 
@@ -49,8 +49,8 @@ int run_merge(const std::string& db_path, const std::vector<std::string>& bundle
       continue;
     }
     std::cout << "merged " << b << " (from " << out->manifest.maker_role << " " << out->manifest.maker_device_id
-              << "): " << out->observations_added << " new observations, " << out->replacements_added
-              << " new links\n";
+              << "): " << count_of(out->observations_added, "new observation") << ", "
+              << count_of(out->replacements_added, "new link") << "\n";
   }
   auto conflicts = list_conflicts(open->db, open->trial);
   if (conflicts) std::cout << count_of(static_cast<long>(conflicts->size()), term::kConflict) << " to settle\n";

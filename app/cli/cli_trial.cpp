@@ -81,7 +81,9 @@ int run_record(const RecordRequest& r) {
   session->set_pending_note(r.note);
   if (!r.missing.empty()) {
     if (auto s = session->record_missing(r.missing, r.note); !s) return fail(r.db, "not saved: " + s.problem().message);
-    std::cout << "saved " << where.plot_label << " " << where.trait_code << " = missing (" << r.missing << ")\n";
+    std::cout << "saved plot " << where.plot_label << ", " << where.trait_name
+              << (where.occasions > 1 ? " (occasion " + std::to_string(where.occasion) + ")" : "") << " = missing ("
+              << r.missing << ")\n";
     return 0;
   }
   EntryOutcome out = session->enter(r.value);
@@ -95,22 +97,25 @@ int run_record(const RecordRequest& r) {
     out = session->confirm();
   }
   if (out.kind != EntryOutcome::Kind::saved) return fail(r.db, out.message);
-  std::cout << out.message << (where.occasion > 1 ? " #" + std::to_string(where.occasion) : "") << "\n";
+  std::cout << out.message << "\n";
   return 0;
 }
 
 int run_walk(const WalkRequest& r) {
   auto session = RecordSession::open(r.db, "command line");
   if (!session) return fail(r.db, session.problem().message);
-  if (!r.traits.empty()) {
-    for (const std::string& code : r.traits)
+  const bool changes = !r.traits.empty() || !r.blocks.empty() || r.occasion != 1 || r.every_trait_per_plot;
+  if (changes) {
+    std::vector<std::string> traits = r.traits;
+    if (traits.empty()) traits = session->walk().choice(session->trial()).trait_codes;   // keep today's traits
+    for (const std::string& code : traits)
       if (auto s = session->set_trait(code); !s) return fail(r.db, s.problem().message);
     for (int b : r.blocks) {
       const auto& plots = session->trial().layout.plots;
       if (std::none_of(plots.begin(), plots.end(), [&](const PlannedPlot& p) { return p.block == b; }))
         return fail(r.db, "block " + std::to_string(b) + " is not in this trial");
     }
-    if (auto s = session->set_walk(WalkChoice{r.traits, r.occasion, r.blocks, r.every_trait_per_plot}); !s)
+    if (auto s = session->set_walk(WalkChoice{traits, r.occasion, r.blocks, r.every_trait_per_plot}); !s)
       return fail(r.db, s.problem().message);
   }
   const RecordView v = session->view();

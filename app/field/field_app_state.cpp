@@ -126,7 +126,7 @@ class FieldApp final : public FieldAppState {
       case Screen::trials: draw_trials(scale, top); break;
       case Screen::record: {
         const RecordView view = session_->view();
-        const auto commands = draw_record_screen(view, session_->trial(), session_->walk(), asked_about_saved(view),
+        const auto commands = draw_record_screen(view, session_->trial(), session_->walk(), saved_question(view),
                                                  theme_, scale, &record_ui_, top);
         for (const RecordCommand& c : commands) apply_record_command(c, *session_, &record_ui_);
         break;
@@ -183,18 +183,27 @@ class FieldApp final : public FieldAppState {
     trials_.reset();
   }
 
-  // Whether Before leaving lists the Record screen's saved value (so that
-  // the banner offers "Value is right"). Worked out only when the cell holds
-  // one saved value and nothing is typed.
-  bool asked_about_saved(const RecordView& v) {
-    if (!v.current || !v.typed.empty() || v.current->rfind("missing", 0) == 0 || *v.current == "CONFLICT") return false;
-    const BeforeLeaving& list = before_leaving();
-    for (const LeavingItem& item : list.items)
+  // What Before leaving asks about the Record screen's saved value (an
+  // outlier or a value to check), whatever today's walk is, so that the
+  // banner can say it and offer "Value is right"; empty when nothing. Worked
+  // out only when the cell holds one saved value and nothing is typed, and
+  // kept until the log, trait or occasion change.
+  std::string saved_question(const RecordView& v) {
+    if (!v.current || !v.typed.empty() || v.current->rfind("missing", 0) == 0 || *v.current == "CONFLICT") return {};
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0};
+    if (!question_list_ || !(question_key_ == key)) {
+      const StoredTrial& t = session_->trial();
+      question_list_ = furrow::before_leaving(
+          t, session_->live(), settings_.alpha,
+          Walk(t, WalkChoice{{t.plan.traits[key.trait].code}, key.occasion, {}, false}));
+      question_key_ = key;
+    }
+    for (const LeavingItem& item : question_list_->items)
       if (item.plot_index == session_->plot_index() && item.trait_index == session_->trait_index() &&
           item.occasion == session_->occasion() &&
           (item.has(LeavingItem::Kind::outlier) || item.has(LeavingItem::Kind::flagged)))
-        return true;
-    return false;
+        return item.message + ". If it is right, tap " + term::kValueIsRight + ".";
+    return {};
   }
 
   std::string observer() const { return options_.observer.empty() ? settings_.observer : options_.observer; }
@@ -228,8 +237,14 @@ class FieldApp final : public FieldAppState {
       const bool current = screen_ == tab.screen;
       const bool usable = session_ || !tab.needs_trial;
       // A tab that cannot be used (no trial open) is flat on the bar, not a button.
-      return ButtonLook{current ? theme_.accent : usable ? theme_.background : theme_.panel,
-                        current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
+      ButtonLook look{current ? theme_.accent : usable ? theme_.background : theme_.panel,
+                      current ? theme_.accent_text : usable ? theme_.text : theme_.muted_text};
+      // A usable tab has an edge (a white button on the pale bar would not show as one).
+      if (usable && !current) {
+        look.border_px = 2.0f * scale;
+        look.border = theme_.text;
+      }
+      return look;
     };
     if (compact && !nav_menu_open_) {
       const std::string label = std::string("Screens: ") + kTabs[static_cast<int>(screen_)].label + "##menu";
@@ -343,12 +358,45 @@ class FieldApp final : public FieldAppState {
   }
 
   void settle(const StationAction& a) {
-    const ConflictCell& cell = station_->conflicts.at(a.conflict);
+    // The cell as it is now in the file (another program may have merged or
+    // settled since the screen was drawn): settled only if it is still in
+    // conflict and, for Keep, the kept row is still one of its rows.
+    auto open = open_trial_database(trial_path_);
+    if (!open) {
+      station_ui_.message = open.problem().message;
+      station_ui_.message_is_problem = true;
+      return;
+    }
+    auto now = list_conflicts(open->db, open->trial);
+    const std::string where = "plot " + session_->trial().layout.plots[a.cell.plot_index].label + ", " +
+                              session_->trial().plan.traits[a.cell.trait_index].name;
+    const ConflictCell* found = nullptr;
+    if (now)
+      for (const ConflictCell& c : *now)
+        if (c.plot_index == a.cell.plot_index && c.trait_index == a.cell.trait_index && c.occasion == a.cell.occasion)
+          found = &c;
+    if (!found) {
+      station_ui_.message = where + " is no longer in conflict (settled or changed meanwhile); nothing was saved";
+      station_ui_.message_is_problem = true;
+      station_ui_.editing.reset();
+      station_.reset();
+      return;
+    }
+    const ConflictCell& cell = *found;
     Settlement s;
     s.by = observer();
     if (a.kind == StationAction::Kind::keep) {
+      const bool still = std::any_of(cell.rows.begin(), cell.rows.end(), [&](const LiveObservation& r) {
+        return r.key.device_id == a.keep.device_id && r.key.sequence == a.keep.sequence;
+      });
+      if (!still) {
+        station_ui_.message = where + ": the value you kept is no longer one of its values; nothing was saved";
+        station_ui_.message_is_problem = true;
+        station_.reset();
+        return;
+      }
       s.kind = Settlement::Kind::keep;
-      s.keep = cell.rows.at(a.row).key;
+      s.keep = a.keep;
     } else if (a.kind == StationAction::Kind::new_value) {
       auto parsed = parse_acceptable_value(session_->trial().plan.traits[cell.trait_index], a.text);
       if (!parsed) {
@@ -363,8 +411,7 @@ class FieldApp final : public FieldAppState {
       s.kind = Settlement::Kind::missing;
       s.missing_reason = a.text;
     }
-    auto open = open_trial_database(trial_path_);
-    auto key = open ? settle_conflict(open->db, open->trial, cell, s) : Result<ObservationKey>(open.problem());
+    auto key = settle_conflict(open->db, open->trial, cell, s);
     if (!key) {
       station_ui_.message = key.problem().message;
       station_ui_.message_is_problem = true;
@@ -372,7 +419,7 @@ class FieldApp final : public FieldAppState {
       station_ui_.message = "Settled plot " + session_->trial().layout.plots[cell.plot_index].label + " (saved as record " +
                             key->device_id + "/" + std::to_string(key->sequence) + " by " + s.by + ")";
       station_ui_.message_is_problem = false;
-      station_ui_.editing = -1;
+      station_ui_.editing.reset();
       (void)session_->refresh();
       map_.reset();
       analysis_.reset();
@@ -586,6 +633,19 @@ class FieldApp final : public FieldAppState {
       every_trait_revision_ = session_->revision();
     }
     static const std::vector<EveryTraitOutlier> kNone;
+    // Blind scoring hides treatment names while collecting: the analysis by
+    // treatment would name them, so it waits until blind scoring is off.
+    if (settings_.blind_scoring) {
+      static const std::vector<EveryTraitOutlier> none;
+      const auto blind = draw_check_screen(session_->trial(), nullptr,
+                                           "blind scoring is on, and the analysis would name the treatments; turn it "
+                                           "off in Settings to see it",
+                                           trait_title(), session_->trial().plan.traits[session_->trait_index()].unit,
+                                           none, theme_, scale, top, &check_ui_);
+      if (blind && blind->kind == CheckAction::Kind::next_trait) step_trait(1);
+      if (blind && blind->kind == CheckAction::Kind::previous_trait) step_trait(-1);
+      return;
+    }
     const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
                                           trait_title(), session_->trial().plan.traits[session_->trait_index()].unit,
                                           every_trait_ ? *every_trait_ : kNone, theme_, scale, top, &check_ui_);
@@ -646,6 +706,8 @@ class FieldApp final : public FieldAppState {
   std::optional<Result<Analysis>> analysis_;
   Key analysis_key_;
   std::vector<TapTarget> help_targets_;
+  std::optional<BeforeLeaving> question_list_;
+  Key question_key_;
   std::optional<std::vector<EveryTraitOutlier>> every_trait_;
   std::uint64_t every_trait_revision_ = 0;
   double last_fresh_check_ = -1;

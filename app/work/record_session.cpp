@@ -42,6 +42,11 @@ Status RecordSession::reload() {
   auto live = live_observations(open_.db, 0);
   if (!live) return live.problem();
   live_ = std::move(live).value();
+  // Today's walk too: `furrow walk` may have changed it.
+  if (auto choice = load_walk_choice(open_.db); choice && !choice->trait_codes.empty()) {
+    walk_ = Walk(open_.trial, *choice);
+    progress_.reset();
+  }
   data_version_ = *version;
   ++revision_;
   return ok_status();
@@ -64,7 +69,9 @@ std::vector<ObservationKey> RecordSession::own_live_keys(std::int64_t plot_id, s
 }
 
 Result<ObservationKey> RecordSession::save_row(NewObservation o) {
-  o.observer = observer_;
+  // A new measurement is the current observer's; a re-saved one (a note, a
+  // "value is right", an undo) keeps who measured it.
+  if (o.observer.empty()) o.observer = observer_;
   const std::string recorded_at = utc_now();
   ObservationWriter writer(open_.db);
   auto key = writer.append(open_.trial.device_id, o, recorded_at);
@@ -164,6 +171,7 @@ RecordView RecordSession::view() const {
   v.has_pending = pending_.has_value();
   v.suggestion = pending_ ? pending_->suggestion : "";
   v.notice = notice_;
+  v.pending_note = note_;
   // The walk's progress, counted once per change of the log or the walk.
   if (!progress_ || progress_->first != revision_) progress_.emplace(revision_, walk_progress());
   const WalkProgress& w = progress_->second;
@@ -223,8 +231,11 @@ void RecordSession::erase() {
 }
 
 void RecordSession::drop_entry() {
-  if (!typed_.empty())
-    notice_ = typed_ + " typed on plot " + open_.trial.layout.plots[plot_].label + " was not saved";
+  const std::string plot = open_.trial.layout.plots[plot_].label;
+  if (!typed_.empty()) notice_ = typed_ + " typed on plot " + plot + " was not saved";
+  if (!note_.empty())
+    notice_ += (notice_.empty() ? "" : "; ") + std::string("the note for plot ") + plot + " (\"" + note_ +
+               "\") was not saved: it waits for a value or a skip";
   typed_.clear();
   pending_.reset();
   note_.clear();
@@ -330,8 +341,10 @@ EntryOutcome RecordSession::check_and_save(bool confirmed) {
   std::vector<Finding> notes;
   for (const Finding& f : out.findings)
     if (f.severity == Severity::note) notes.push_back(f);
-  out.message = with_findings("saved " + t.layout.plots[plot_].label + " " + t.plan.traits[trait_].code + " = " +
-                                  parsed->text + (o.confirmed_checks.empty() ? "" : " (confirmed)"),
+  out.message = with_findings("saved plot " + t.layout.plots[plot_].label + ", " + t.plan.traits[trait_].name +
+                                  (t.plan.traits[trait_].occasions > 1 ? " (occasion " + std::to_string(occasion_) + ")"
+                                                                        : std::string()) +
+                                  " = " + parsed->text + (o.confirmed_checks.empty() ? "" : " (confirmed)"),
                               notes);
   typed_.clear();
   pending_.reset();
@@ -386,6 +399,7 @@ Status RecordSession::add_note(const std::string& note) {
     o.missing_reason = x.missing_reason;
     o.note = note;
     o.confirmed_checks = x.confirmed_checks;
+    o.observer = x.observer;
     o.replaces = {x.key};
     auto key = save_row(o);
     if (!key) return key.problem();
@@ -425,6 +439,7 @@ Status RecordSession::confirm_saved(const std::string& check) {
   o.number = row->number;
   o.note = row->note;
   o.confirmed_checks = checks;
+  o.observer = row->observer;
   o.replaces = {row->key};
   remember(o.plot_id, o.trait_id, o.occasion);
   auto key = save_row(o);
@@ -451,6 +466,7 @@ Status RecordSession::undo() {
     o.missing_reason = step.before->missing_reason;
     o.note = step.before->note;
     o.confirmed_checks = step.before->confirmed_checks;
+    o.observer = step.before->observer;
   } else {
     o.missing_reason = kWithdrawnReason;
   }

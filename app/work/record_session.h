@@ -66,6 +66,7 @@ struct RecordView {
   bool has_pending = false;             // Confirm is offered for `typed`
   std::string suggestion;               // a likely slip's value ("Save 91 instead"), else empty
   std::string notice;                   // what the last command dropped or changed, else empty
+  std::string pending_note;             // a note waiting for this cell's value or skip
   // Today's walk.
   bool in_walk = true;                  // this plot and trait are part of the walk
   int walk_position = 0, walk_plots = 0;   // 1-based place among the walk's plots

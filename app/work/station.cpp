@@ -1,4 +1,5 @@
 #include "app/work/station.h"
+#include "app/work/glossary.h"
 
 #include <algorithm>
 #include <filesystem>
@@ -103,7 +104,7 @@ void StationImport::step() {
     o.merged = true;
     o.observations_added = merged->observations_added;
     o.message = merged->observations_added || merged->replacements_added
-                    ? std::to_string(merged->observations_added) + " new observations"
+                    ? count_of(merged->observations_added, "new observation")
                     : "nothing new (merged before)";
     file_away(path, true, &o);
   }

@@ -52,7 +52,7 @@ for d, values in (("a", {"101": "96", "102": "98", "103": "101", "104": "88"}),
             "--observer", f"crew {d}", "--confirm")
 for d in ("a", "b", "c"):
     out = run("bundle", "--db", path(f"{d}.furrow"), "--out", path(f"{d}.bundle")).stdout
-    check("observations" in out and "checksum" in out, f"bundle {d} says what it holds ({out.strip()})")
+    check(" observation" in out and "checksum" in out, f"bundle {d} says what it holds ({out.strip()})")
 merged = run("merge", "--db", path("station.furrow"), path("a.bundle"), path("b.bundle"), path("c.bundle")).stdout
 check("2 conflicts to settle" in merged, f"merge reports the conflicts ({merged.strip()})")
 again = run("merge", "--db", path("station.furrow"), path("c.bundle"), path("b.bundle"), path("a.bundle")).stdout
@@ -95,7 +95,7 @@ check("105" in rows, "and c's plot 105 through the station")
 run("record", "--db", path("b.furrow"), "--plot", "106", "--trait", "height_cm", "--value", "97", "--observer", "crew b",
     "--confirm")
 out = run("bundle", "--db", path("b.furrow"), "--out", path("b2.bundle")).stdout
-check("bundle" in out and " 1 observations" in out, f"b's second bundle holds its one new row ({out.strip()})")
+check("bundle" in out and ": 1 observation," in out, f"b's second bundle holds its one new row ({out.strip()})")
 
 # Refused bundles.
 run("trial", "new", "--plan", plan, "--db", path("other.furrow"))

@@ -142,7 +142,7 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
     const std::string& label = trial.layout.plots[o.record].label;
     char text[256];
     std::snprintf(text, sizeof text, "Plot %s: %s%s, expected about %s (studentized residual %s)##out%zu", label.c_str(),
-                  table_number(o.value, 4).c_str(), unit_suffix.c_str(), table_number(o.expected, 4).c_str(),
+                  value_text(o.value).c_str(), unit_suffix.c_str(), table_number(o.expected, 3).c_str(),
                   table_number(o.studentized_external, 3).c_str(), k);
     if (solid_button(text, ImVec2(width, row), item_look, &st->targets, "outlier " + label))
       action = CheckAction{CheckAction::Kind::open_plot, static_cast<size_t>(o.record)};
@@ -162,11 +162,11 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   }
 
   heading("The analysis");
-  ImGui::TextWrapped("%s, %d plots analysed%s. Grand mean %s, CV %s %%, R squared %s, residual SD %s.",
+  ImGui::TextWrapped("%s, %d plots analysed%s. Grand mean %s%s, CV %s %%, R squared %s, residual SD %s%s.",
                      design_kind_title(a->design), a->n,
                      a->n_missing ? (", " + std::to_string(a->n_missing) + " without a value").c_str() : "",
-                     table_number(a->grand_mean, 5).c_str(), table_number(a->cv_percent, 3).c_str(),
-                     table_number(a->r_squared, 3).c_str(), table_number(a->residual_sd, 4).c_str());
+                     table_number(a->grand_mean, 5).c_str(), unit_suffix.c_str(), table_number(a->cv_percent, 3).c_str(),
+                     table_number(a->r_squared, 3).c_str(), table_number(a->residual_sd, 4).c_str(), unit_suffix.c_str());
   if (a->lsd || a->hsd || a->mdd_percent) {
     std::string line;
     if (a->lsd) line += term::lsd_title(a->alpha) + " " + table_number(*a->lsd, 4) + unit_suffix + ".  ";
@@ -235,7 +235,7 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
       }
       ImGui::EndTable();
     }
-    std::string line = "SE of a difference " + table_number(m.sed, 3) + ", LSD " + table_number(m.lsd, 4) + unit_suffix;
+    std::string line = "SE of a difference " + table_number(m.sed, 3) + unit_suffix + ", LSD " + table_number(m.lsd, 4) + unit_suffix;
     if (m.lsd_max > m.lsd_min * (1 + 1e-9))
       line += " (pairs " + table_number(m.lsd_min, 4) + " to " + table_number(m.lsd_max, 4) + ")";
     if (m.q_critical > 0) line += ", Tukey HSD " + table_number(m.hsd, 4) + unit_suffix;

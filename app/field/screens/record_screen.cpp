@@ -100,7 +100,16 @@ void apply_record_command(const RecordCommand& c, RecordSession& s, RecordScreen
     case RecordCommand::Kind::value_is_right:
       show_status(s.confirm_saved(c.text), "marked as checked: the value is right");
       break;
-    case RecordCommand::Kind::skip: show_status(s.skip(c.text, c.note), "skipped: " + c.text); break;
+    case RecordCommand::Kind::skip: {
+      const RecordView before = s.view();
+      const Status st = s.skip(c.text, c.note);
+      std::string done = "skipped plot " + before.plot_label + ": " + c.text;
+      if (before.current && before.current->rfind("missing", 0) != 0)
+        done += " (it held " + *before.current + "; Undo last entry brings it back)";
+      const std::string notice = s.view().notice;
+      show_status(st, notice.empty() ? done : notice + "\n" + done);
+      break;
+    }
     case RecordCommand::Kind::next: s.next(); moved(); break;
     case RecordCommand::Kind::previous: s.previous(); moved(); break;
     case RecordCommand::Kind::jump: {
@@ -110,21 +119,34 @@ void apply_record_command(const RecordCommand& c, RecordSession& s, RecordScreen
       if (st && ui->banner.empty()) show_status(st, "plot " + s.view().plot_label);
       break;
     }
-    case RecordCommand::Kind::undo: show_status(s.undo(), "the last entry was undone (a new log row)"); break;
-    case RecordCommand::Kind::set_walk:
-      show_status(s.set_walk(c.walk), std::string(term::kTodaysWalk) + ": " + s.walk().describe(s.trial()));
-      if (ui->tone == RecordScreenState::Tone::saved) ui->banner = std::string(term::kTodaysWalk) + ": " + s.walk().describe(s.trial());
+    case RecordCommand::Kind::undo: {
+      const Status st = s.undo();
+      const std::string notice = s.view().notice;
+      const std::string done = "undid the last entry on plot " + s.view().plot_label + ", " + s.view().trait_name +
+                               " (a new log row)";
+      show_status(st, notice.empty() ? done : notice + "\n" + done);
       break;
+    }
+    case RecordCommand::Kind::set_walk: {
+      const Status st = s.set_walk(c.walk);
+      const std::string notice = s.view().notice;
+      const std::string done = std::string(term::kTodaysWalk) + ": " + s.walk().describe(s.trial());
+      show_status(st, notice.empty() ? done : notice + "\n" + done);
+      break;
+    }
     case RecordCommand::Kind::note: show_status(s.add_note(c.text), "note kept for plot " + s.view().plot_label); break;
   }
 }
 
 std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredTrial& trial, const Walk& walk,
-                                              bool asked_about_saved, const Theme& theme, float scale,
+                                              const std::string& saved_question, const Theme& theme, float scale,
                                               RecordScreenState* st, float top_px) {
   std::vector<RecordCommand> out;
   st->targets.clear();
-  read_keys(v, st, &out);
+  // Keys reach the value only while the value is on screen (not under the
+  // walk chooser).
+  if (!st->choosing_walk) read_keys(v, st, &out);
+  else st->held_keys.clear();
   const ImGuiViewport* vp = ImGui::GetMainViewport();
   const ScreenWindow window("Record", theme, top_px,
                             {{ImGuiCol_FrameBg, theme.panel},
@@ -174,6 +196,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   }
   std::string recorded = "Recorded: " + (v.current ? *v.current : std::string("nothing yet"));
   if (!v.note.empty()) recorded += "   (note: " + v.note + ")";
+  if (!v.pending_note.empty()) recorded += "   (note waiting for the value: " + v.pending_note + ")";
   ImGui::TextUnformatted(recorded.c_str());
   // Today's walk: the chooser's button and the walk's progress, two lines
   // of fixed height whatever they say.
@@ -285,30 +308,46 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
 
   // The banner: a reserved area of fixed height (rule: nothing moves).
   // Fewer reserved lines where the text is large for the window.
-  const float banner_text_h = (narrow ? kBannerLines - 1 : kBannerLines) * ImGui::GetTextLineHeightWithSpacing();
+  const int banner_lines = narrow ? kBannerLines - 1 : portrait ? kBannerLines : kBannerLines + 2;
+  const float banner_text_h = banner_lines * ImGui::GetTextLineHeightWithSpacing();
   const float banner_buttons_h = 1.3f * target;
   const auto draw_banner = [&](float w) {
     const bool tone = st->tone != RecordScreenState::Tone::none && !st->banner.empty();
-    const Rgb bg = !tone                                          ? theme.background
+    const bool question = !tone && !saved_question.empty() && v.typed.empty();
+    const Rgb bg = question                                       ? theme.confirm
+                   : !tone                                        ? theme.background
                    : st->tone == RecordScreenState::Tone::saved   ? theme.saved
                    : st->tone == RecordScreenState::Tone::confirm ? theme.confirm
                                                                   : theme.refuse;
-    const Rgb fg = !tone                                          ? theme.text
+    const Rgb fg = question                                       ? theme.confirm_text
+                   : !tone                                        ? theme.text
                    : st->tone == RecordScreenState::Tone::saved   ? theme.saved_text
                    : st->tone == RecordScreenState::Tone::confirm ? theme.confirm_text
                                                                   : theme.refuse_text;
     const float h = banner_text_h + banner_buttons_h + 2 * style.WindowPadding.y + style.ItemSpacing.y;
     ImGui::PushStyleColor(ImGuiCol_ChildBg, to_imgui(bg));
     ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(fg));
-    ImGui::BeginChild("banner", ImVec2(w, h), false, ImGuiWindowFlags_NoScrollbar | ImGuiWindowFlags_AlwaysUseWindowPadding);
+    // An edge in the text colour: a pale banner on a pale page still shows.
+    ImGui::PushStyleColor(ImGuiCol_Border, to_imgui(tone || question ? theme.text : theme.background));
+    ImGui::PushStyleVar(ImGuiStyleVar_ChildBorderSize, 2.0f * scale);
+    ImGui::BeginChild("banner", ImVec2(w, h), true, ImGuiWindowFlags_NoScrollbar | ImGuiWindowFlags_AlwaysUseWindowPadding);
     ImGui::BeginChild("banner text", ImVec2(0, banner_text_h), false, ImGuiWindowFlags_NoScrollbar);
     drag_to_scroll(scale);
-    if (tone) {
+    const std::string& words = tone ? st->banner : saved_question;
+    if (!words.empty()) {
       ImGui::PushTextWrapPos(0.0f);
-      ImGui::TextUnformatted(st->banner.c_str());
+      ImGui::TextUnformatted(words.c_str());
       ImGui::PopTextWrapPos();
     }
+    const bool more = ImGui::GetScrollMaxY() > ImGui::GetScrollY() + 1;
     ImGui::EndChild();
+    if (more) {
+      // Say that the banner holds more than it shows (drag it to read on).
+      const ImVec2 at = ImGui::GetItemRectMax();
+      const char* cue = "more: drag the message up";
+      const ImVec2 size = ImGui::CalcTextSize(cue);
+      ImGui::GetWindowDrawList()->AddText(ImVec2(at.x - size.x, at.y - size.y), ImGui::GetColorU32(ImGuiCol_Text), cue);
+    }
     // The answers to the banner's question, only while it is asked about the
     // text on screen (rule E2).
     const bool asking = st->tone == RecordScreenState::Tone::confirm && v.has_pending;
@@ -324,13 +363,14 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
                          &st->targets, "Save suggestion"))
           out.push_back({RecordCommand::Kind::save_suggestion, {}});
       }
-    } else if (asked_about_saved && v.typed.empty()) {
+    } else if (!saved_question.empty() && v.typed.empty()) {
       // A saved value Before leaving asks about: the crew can say it is right.
       if (big_button(term::kValueIsRight, inner, banner_buttons_h, theme.button, theme.button_text, st))
         out.push_back({RecordCommand::Kind::value_is_right, kOutlierCheck});
     }
     ImGui::EndChild();
-    ImGui::PopStyleColor(2);
+    ImGui::PopStyleVar();
+    ImGui::PopStyleColor(3);
   };
 
   // Landscape: the keypad on the left, the walk, banner and commands on the
@@ -356,10 +396,22 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
   const float key_floor = std::max(kTouchTargetPx, ImGui::GetFontSize() + 2 * style.FramePadding.y + 8.0f);
   const float key_h = std::clamp(room / 5, key_floor, std::max(key_floor, kKeyPx * std::max(1.0f, scale)));
   ImGui::BeginGroup();
-  ImGui::PushFont(huge);
-  const std::string value_line = "Value: " + v.typed + "_";
-  ImGui::TextUnformatted(value_line.c_str());
-  ImGui::PopFont();
+  {
+    // The value line is exactly as wide as the keypad, whatever is typed, so
+    // that nothing beside it moves; a long value gets a smaller font, then
+    // shows its end.
+    ImGui::BeginChild("value", ImVec2(pad_width, value_h), false,
+                      ImGuiWindowFlags_NoScrollbar | ImGuiWindowFlags_NoScrollWithMouse);
+    std::string line = "Value: " + v.typed + "_";
+    ImFont* font = huge;
+    if (ImGui::CalcTextSize(line.c_str()).x * huge->FontSize / ImGui::GetFontSize() > pad_width) font = large;
+    ImGui::PushFont(font);
+    while (ImGui::CalcTextSize(line.c_str()).x > pad_width && line.size() > 10)
+      line = "Value: ..." + line.substr(std::min(line.size(), size_t{11}));
+    ImGui::TextUnformatted(line.c_str());
+    ImGui::PopFont();
+    ImGui::EndChild();
+  }
   static const char* kKeys[4][3] = {{"7", "8", "9"}, {"4", "5", "6"}, {"1", "2", "3"}, {".", "0", "Del"}};
   for (auto& row : kKeys) {
     for (int c = 0; c < 3; ++c) {

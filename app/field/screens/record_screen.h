@@ -80,11 +80,11 @@ inline constexpr float kTouchTargetPx = 48.0f;
 inline float touch_px(float scale) { return kTouchTargetPx * (scale > 1.0f ? scale : 1.0f); }
 
 // `top_px`: where the screen starts below the navigation bar. `trial` gives
-// the walk chooser its traits and blocks. `asked_about_saved`: Before leaving
-// lists the cell's saved value (an outlier or a value to check), so the
-// banner offers "Value is right".
+// the walk chooser its traits and blocks. `saved_question`: what Before
+// leaving asks about the cell's saved value (an outlier or a value to check),
+// else empty; the banner shows it and offers "Value is right".
 std::vector<RecordCommand> draw_record_screen(const RecordView& view, const StoredTrial& trial, const Walk& walk,
-                                              bool asked_about_saved, const Theme& theme, float scale,
+                                              const std::string& saved_question, const Theme& theme, float scale,
                                               RecordScreenState* state, float top_px = 0.0f);
 
 // Shows a command's outcome in the banner.

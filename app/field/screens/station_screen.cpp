@@ -5,6 +5,7 @@
 #include <cstdio>
 
 #include "app/field/screens/widgets.h"
+#include "app/work/glossary.h"
 
 namespace furrow {
 
@@ -54,10 +55,12 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
   // Conflicts of the open trial.
   if (v.trial) {
     ImGui::Spacing();
-    ImGui::Text("%zu conflicts to settle in %s", v.conflicts.size(), v.trial->plan.name.c_str());
+    ImGui::TextWrapped("%s to settle in %s", count_of(static_cast<long>(v.conflicts.size()), term::kConflict).c_str(),
+                       v.trial->plan.name.c_str());
     ImGui::TextWrapped("Each settlement is saved as a new record with your name; nothing is overwritten.");
     for (size_t c = 0; c < v.conflicts.size(); ++c) {
       const ConflictCell& cell = v.conflicts[c];
+      const ConflictId id_of_cell{cell.plot_index, cell.trait_index, cell.occasion};
       const std::string label = "plot " + v.trial->layout.plots[cell.plot_index].label;
       ImGui::Separator();
       ImGui::Text("%s, %s%s", label.c_str(), v.trial->plan.traits[cell.trait_index].name.c_str(),
@@ -72,16 +75,16 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
         if (!first) flow_next(w);
         first = false;
         if (solid_button(id.c_str(), ImVec2(w, h), plain, &st->targets, "keep " + label + " " + std::to_string(r)))
-          action = StationAction{StationAction::Kind::keep, c, r, {}};
+          action = StationAction{StationAction::Kind::keep, c, r, id_of_cell, row.key, {}};
       }
       const std::string other = "Other value or missing##other" + std::to_string(c);
       flow_next(button_width("Other value or missing", scale));
       if (solid_button(other.c_str(), ImVec2(button_width("Other value or missing", scale), h), plain, &st->targets,
                        "other " + label)) {
-        st->editing = static_cast<int>(c);
+        st->editing = id_of_cell;
         st->typed[0] = 0;
       }
-      if (st->editing == static_cast<int>(c)) {
+      if (st->editing == id_of_cell) {
         ImGui::PushItemWidth(std::min(width, 12 * h));
         ImGui::PushStyleVar(ImGuiStyleVar_FramePadding,
                             ImVec2(ImGui::GetStyle().FramePadding.x, (h - ImGui::GetFontSize()) / 2));
@@ -93,12 +96,12 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
         flow_next(button_width("Save as value", scale));
         if (solid_button(("Save as value##v" + std::to_string(c)).c_str(), ImVec2(button_width("Save as value", scale), h),
                          plain, &st->targets, "save value " + label) && st->typed[0])
-          action = StationAction{StationAction::Kind::new_value, c, 0, st->typed};
+          action = StationAction{StationAction::Kind::new_value, c, 0, id_of_cell, {}, st->typed};
         flow_next(button_width("Save as missing", scale));
         if (solid_button(("Save as missing##m" + std::to_string(c)).c_str(),
                          ImVec2(button_width("Save as missing", scale), h), plain, &st->targets,
                          "save missing " + label) && st->typed[0])
-          action = StationAction{StationAction::Kind::mark_missing, c, 0, st->typed};
+          action = StationAction{StationAction::Kind::mark_missing, c, 0, id_of_cell, {}, st->typed};
       }
     }
   }

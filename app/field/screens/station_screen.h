@@ -28,8 +28,16 @@ struct StationView {
   std::vector<TrialSummary> trials;          // in the data folder
 };
 
+// A conflict's cell, by what it is (not by its place in a list that another
+// program's merge or settlement may change under the finger).
+struct ConflictId {
+  size_t plot_index = 0, trait_index = 0;
+  int occasion = 1;
+  bool operator==(const ConflictId&) const = default;
+};
+
 struct StationScreenState {
-  int editing = -1;                  // conflict whose value or reason is being typed
+  std::optional<ConflictId> editing;  // conflict whose value or reason is being typed
   char typed[64] = {};
   std::string message;               // outcome of the last action
   bool message_is_problem = false;
@@ -39,7 +47,9 @@ struct StationScreenState {
 struct StationAction {
   enum class Kind { import_bundles, write_bundle, export_data, export_report, keep, new_value, mark_missing } kind =
       Kind::import_bundles;
-  size_t conflict = 0, row = 0;      // keep: which conflict and which of its rows
+  size_t conflict = 0, row = 0;      // keep: which conflict and which of its rows, as drawn
+  ConflictId cell;                   // keep, new_value, mark_missing: the cell
+  ObservationKey keep;               // keep: the row whose value stands
   std::string text;                  // new_value: the value; mark_missing: the reason
 };
 

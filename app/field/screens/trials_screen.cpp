@@ -52,13 +52,18 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
     const TrialSummary& s = v.trials[i];
     char text[700];
     if (s.problem.empty())
-      std::snprintf(text, sizeof text, "%s%s\n%s, %d plots, %d traits\n%.0f %% collected, last change %s##t%zu",
+      std::snprintf(text, sizeof text, "%s%s\n%s, %d plots, %d traits; %s%s\n%.0f %% collected, last change %s##t%zu",
                     s.name.c_str(), s.path == v.current ? "  (open now)" : "", s.design.c_str(), s.plots, s.traits,
+                    s.file_name.c_str(),
+                    std::filesystem::path(s.path).parent_path() == std::filesystem::path(v.folder) ? ""
+                                                                                                    : " (elsewhere)",
                     s.progress.percent(), readable_time(s.progress.last_change).c_str(), i);
     else
       std::snprintf(text, sizeof text, "%s\ncannot be read: %s##t%zu", s.file_name.c_str(), s.problem.c_str(), i);
     ButtonLook look = s.path == v.current ? ButtonLook{t.accent, t.accent_text} : ButtonLook{t.panel, t.text};
     look.align_left = true;
+    look.border_px = 2.0f * scale;   // a pale row needs an edge on the page
+    look.border = t.text;
     const float remove_w = button_width("Remove", scale);
     const float row_w = std::max(touch_px(scale), width - remove_w - ImGui::GetStyle().ItemSpacing.x);
     if (solid_button(text, ImVec2(row_w, 2.2f * h), look, &st->targets, "trial " + s.file_name) && s.problem.empty())
@@ -84,6 +89,8 @@ std::optional<TrialsAction> draw_trials_screen(const TrialsView& v, const Theme&
     const std::string name = std::filesystem::path(v.plan_files[i]).filename().string();
     ButtonLook look{t.panel, t.text};
     look.align_left = true;
+    look.border_px = 2.0f * scale;
+    look.border = t.text;
     if (solid_button(("Create from " + name + "##p" + std::to_string(i)).c_str(), ImVec2(width, h), look,
                      &st->targets, "plan " + name))
       action = TrialsAction{TrialsAction::Kind::create_from_plan, v.plan_files[i]};

@@ -16,8 +16,9 @@ ScreenWindow::ScreenWindow(const char* name, const Theme& t, float top_px,
   ImGui::SetNextWindowSize(ImVec2(vp->WorkSize.x, vp->WorkSize.y - top_px));
   ImGui::PushStyleColor(ImGuiCol_WindowBg, to_imgui(t.background));
   ImGui::PushStyleColor(ImGuiCol_Text, to_imgui(t.text));
+  ImGui::PushStyleColor(ImGuiCol_TextDisabled, to_imgui(t.muted_text));   // hints in empty fields: 7:1 too
   for (const auto& [slot, colour] : extra) ImGui::PushStyleColor(slot, to_imgui(colour));
-  colours_ = 2 + static_cast<int>(extra.size());
+  colours_ = 3 + static_cast<int>(extra.size());
   ImGui::Begin(name, nullptr,
                ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings | flags);
 }

@@ -91,6 +91,39 @@ TEST_CASE("skip with a reason, jump by label, undo as a new log row") {
   }
 }
 
+TEST_CASE("a value confirmed as right, a note or an undo keep who measured it") {
+  const std::string db = test::demo_day_trial("observer_kept.furrow");   // height by Mara
+  auto s = RecordSession::open(db, "Crew1");
+  REQUIRE(s.ok());
+  s->set_trait(1);
+  REQUIRE(s->jump_to("307").ok());
+  REQUIRE(s->confirm_saved("outlier").ok());
+  REQUIRE(s->add_note("checked twice").ok());
+  auto open = open_trial_database(db);
+  REQUIRE(open.ok());
+  auto live = live_observations(open->db, open->trial.trait_ids[1]);
+  REQUIRE(live.ok());
+  bool found = false;
+  for (const auto& x : *live)
+    if (x.plot_id == open->trial.plot_ids[s->plot_index()]) {
+      found = true;
+      CHECK(x.observer == "Mara");
+      CHECK(x.note == "checked twice");
+      CHECK(has_check(x.confirmed_checks, "outlier"));
+    }
+  CHECK(found);
+}
+
+TEST_CASE("a note kept for a plot without a value is said to be dropped when the crew moves on") {
+  const std::string db = test::fresh_demo_trial("note_dropped.furrow");
+  auto s = RecordSession::open(db, "Ana");
+  REQUIRE(s.ok());
+  REQUIRE(s->add_note("stakes bent").ok());
+  CHECK(s->view().pending_note == "stakes bent");
+  s->next();
+  CHECK(s->view().notice.find("the note for plot 101") != std::string::npos);
+}
+
 TEST_CASE("blind scoring hides the treatment; walking all traits per plot") {
   const std::string db = test::fresh_demo_trial("blind.furrow");
   auto s = RecordSession::open(db, "Ana");

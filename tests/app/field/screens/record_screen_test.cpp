@@ -25,7 +25,7 @@ class HeadlessScreen {
  public:
   HeadlessScreen(RecordSession* session, float width, float height)
       : session_(session), ui_(width, height, [this] {
-          const auto commands = draw_record_screen(session_->view(), session_->trial(), session_->walk(), false, theme_,
+          const auto commands = draw_record_screen(session_->view(), session_->trial(), session_->walk(), "", theme_,
                                                    1.0f, &state_);
           pending_.insert(pending_.end(), commands.begin(), commands.end());
         }) {
@@ -296,6 +296,39 @@ TEST_CASE("the keypad, Save and plot navigation do not move when the banner appe
       CHECK(refused[i].y0 == before[i].y0);
     }
   }
+}
+
+TEST_CASE("keys typed while the walk chooser covers the value save nothing") {
+  const std::string db = test::fresh_demo_trial("hidden_keys.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  screen.tap("Today's walk");
+  screen.type_slowly("85");
+  screen.press_enter();
+  CHECK_FALSE(stored(db, "101", 0).has_value());
+  CHECK(session->view().typed.empty());
+}
+
+TEST_CASE("a long typed value does not push the commands sideways; a skip says what it dropped and replaced") {
+  const std::string db = test::demo_day_trial("long_value.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  session->set_trait(1);
+  REQUIRE(session->jump_to("309").ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  const TapTarget before = *test::find_target(screen.state().targets, "Previous plot");
+  for (int i = 0; i < 14; ++i) screen.tap("8");
+  const TapTarget after = *test::find_target(screen.state().targets, "Previous plot");
+  CHECK(after.x0 == before.x0);
+  CHECK(after.x1 == before.x1);
+  for (const TapTarget& t : screen.state().targets) CHECK(t.x1 <= 1280.0f);
+  screen.tap("Skip plot...");
+  screen.tap("flooded");
+  const std::string banner = screen.state().banner;
+  CHECK(banner.find("typed on plot 309 was not saved") != std::string::npos);
+  CHECK(banner.find("skipped plot 309: flooded") != std::string::npos);
+  CHECK(banner.find("it held") != std::string::npos);
 }
 
 TEST_CASE("every tappable item is at least 48 px in both directions at scale 1 (Material Design touch target)") {

@@ -84,3 +84,28 @@ TEST_CASE("import starts from one tap; every target is at least 48 px in both sh
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("a value being typed stays with its cell when another program changes the list of conflicts") {
+  Headless h(1280, 800);
+  const std::string first = "plot " + h.trial.layout.plots[0].label;
+  h.ui.tap(*test::find_target(h.state.targets, "other " + first));
+  REQUIRE(test::find_target(h.state.targets, "typed " + first) != nullptr);
+  // A merge from the command line puts a new conflict (plot 3) ahead of it.
+  ConflictCell earlier = h.view.conflicts.front();
+  earlier.plot_index = 2;
+  h.view.conflicts.insert(h.view.conflicts.begin(), earlier);
+  h.ui.frame();
+  CHECK(test::find_target(h.state.targets, "typed " + first) != nullptr);
+  CHECK(test::find_target(h.state.targets, "typed plot " + h.trial.layout.plots[2].label) == nullptr);
+  // And a Keep carries the cell and the row itself, not only places in the list.
+  h.ui.tap(*test::find_target(h.state.targets, "keep " + first + " 0"));
+  REQUIRE(h.action.has_value());
+  CHECK(h.action->cell.plot_index == 0);
+  CHECK(h.action->keep.device_id == "aaaa");
+}
+
+}  // namespace
+}  // namespace furrow
