@@ -492,6 +492,19 @@ class FieldApp final : public FieldAppState {
           }
           auto open = open_trial_database(path);
           const bool station = open && open->trial.role == "station";
+          const auto copy = std::find_if(trials_->trials.begin(), trials_->trials.end(), [&](const TrialSummary& t) {
+            return t.uid == s.uid && t.path != path;
+          });
+          if (station && !action->confirmed && copy != trials_->trials.end()) {
+            TrialsAction again{TrialsAction::Kind::copy_for_device, path, true};
+            trials_ui_.question = TrialsQuestion{
+                "This device already has a copy of that station's trial (" + copy->file_name +
+                    "). Open it, or make another copy (a second device identity on this tablet)?",
+                {{"Open " + copy->file_name, {TrialsAction::Kind::open, copy->path}},
+                 {"Make another copy", again},
+                 {"Cancel", {TrialsAction::Kind::cancel, {}}}}};
+            return;
+          }
           if (station && !action->confirmed) {
             TrialsAction open_it{TrialsAction::Kind::open, path, true};
             trials_ui_.question = TrialsQuestion{
@@ -510,8 +523,8 @@ class FieldApp final : public FieldAppState {
           again.confirmed = true;
           trials_ui_.question = TrialsQuestion{
               "A trial named \"" + same.front().name + "\" is already on this device (" + same.front().file_name +
-                  "). Create another one from the same plan (a new randomisation and a new trial), or open the one "
-                  "you have?",
+                  "). Create another trial from the same plan (a new trial with its own identity; the layout comes "
+                  "from the plan), or open the one you have?",
               {{"Open " + same.front().file_name, {TrialsAction::Kind::open, same.front().path}},
                {"Create another", again},
                {"Cancel", {TrialsAction::Kind::cancel, {}}}}};

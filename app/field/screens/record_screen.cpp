@@ -86,13 +86,15 @@ void apply_record_command(const RecordCommand& c, RecordSession& s, RecordScreen
     ui->tone = notice.empty() ? RecordScreenState::Tone::none : RecordScreenState::Tone::refuse;
   };
   switch (c.kind) {
+    // Typing starts anew: a question or a refusal about earlier text, or a
+    // notice about another plot, no longer applies.
     case RecordCommand::Kind::type:
       s.type(c.text);
-      if (ui->tone == RecordScreenState::Tone::confirm) ui->tone = RecordScreenState::Tone::none;
+      if (ui->tone != RecordScreenState::Tone::saved) ui->tone = RecordScreenState::Tone::none;
       break;
     case RecordCommand::Kind::erase:
       s.erase();
-      if (ui->tone == RecordScreenState::Tone::confirm) ui->tone = RecordScreenState::Tone::none;
+      if (ui->tone != RecordScreenState::Tone::saved) ui->tone = RecordScreenState::Tone::none;
       break;
     case RecordCommand::Kind::save: show_outcome(s.save(), ui); break;
     case RecordCommand::Kind::confirm: show_outcome(s.confirm(), ui); break;
@@ -387,8 +389,9 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
     // The commands use the width beside the keypad (up to a reach a thumb covers).
     cmd = std::max(target, std::min(8.0f * target, (width - pad_width - 2 * style.ItemSpacing.x - target) / 2));
   }
-  // Keys as tall as the space left allows (large text must not push Save off
-  // the screen), never below the touch-target size nor above kKeyPx.
+  // Keys as tall as the space left allows, so that Save stays on screen while
+  // there is room; with large text on a small screen the page scrolls instead
+  // (drag it), never making a key smaller than the touch size or its label.
   const float value_h = huge->FontSize * ImGui::GetIO().FontGlobalScale + style.ItemSpacing.y;
   const float room = ImGui::GetContentRegionAvail().y - value_h - 5 * style.ItemSpacing.y -
                      (portrait ? 3 * (1.3f * target + style.ItemSpacing.y) : 0);
