@@ -40,7 +40,9 @@ void draw_help_screen(const Theme& t, float scale, float top_px) {
   ImGui::TextWrapped(
       "Before leaving lists what today's walk still lacks, one line per plot with every finding: conflicts between "
       "devices, outlier plots, values to check, values not yet recorded; traits outside the walk are counted in one "
-      "line. Tap a line to open that plot; when a value is right after all, tap Value is right there.");
+      "line. Tap a line to open that plot; when a value is right after all, tap Value is right there. A value "
+      "confirmed when it was entered is asked about again if the analysis later finds it far from what the other "
+      "plots predict: that is a new question.");
   ImGui::TextWrapped(
       "Field map shows the plots where they lie in the field: by status (each state has its own pattern too), by "
       "value (dark purple for low values, through blue and green, to yellow for high ones) or by residual (blue "
