@@ -135,18 +135,9 @@ std::vector<Finding> check_entry(const Trait& trait, const std::string& text, co
   if (parsed->number) {
     const double v = *parsed->number;
     const std::string shown = parsed->text + unit;
-    if ((trait.hard_min && v < *trait.hard_min) || (trait.hard_max && v > *trait.hard_max)) {
-      out.push_back({Severity::refuse, "hard_limit",
-                     shown + " is outside the possible range of " + trait.name + " (" +
-                         (trait.hard_min ? number_text(*trait.hard_min) : "") + " to " +
-                         (trait.hard_max ? number_text(*trait.hard_max) : "") + unit + ")"});
-      return out;
-    }
-    if ((trait.soft_min && v < *trait.soft_min) || (trait.soft_max && v > *trait.soft_max))
-      out.push_back({Severity::confirm, "soft_limit",
-                     shown + " is outside the usual range of " + trait.name + " (" +
-                         (trait.soft_min ? number_text(*trait.soft_min) : "") + " to " +
-                         (trait.soft_max ? number_text(*trait.soft_max) : "") + unit + "): check and confirm"});
+    // A likely decimal slip: far from the other plots, while ten times or a
+    // tenth of it is near them. Worked out first, so that a value refused for
+    // the possible range still offers what was probably meant.
     const bool numeric_kind = trait.kind == TraitKind::decimal || trait.kind == TraitKind::percent ||
                               trait.kind == TraitKind::count;
     std::optional<SlipStats> slip = context.slip;
@@ -156,22 +147,39 @@ std::vector<Finding> check_entry(const Trait& trait, const std::string& text, co
       for (double x : context.other_values) dev.push_back(std::abs(x - med));
       slip = SlipStats{med, kMadToSd * median(dev)};
     }
-    if (numeric_kind && slip && v != 0) {
+    std::optional<Finding> slip_finding;
+    if (numeric_kind && slip && v != 0 && slip->sd > 0) {
       const double med = slip->median;
       const double sd = slip->sd;
-      if (sd > 0) {
-        const double z = std::abs(v - med) / sd;
-        const double z_times = std::abs(10 * v - med) / sd;
-        const double z_tenth = std::abs(v / 10 - med) / sd;
-        if (z > kSlipFarZ && std::min(z_times, z_tenth) < kSlipNearZ) {
-          const double meant = z_times < z_tenth ? 10 * v : v / 10;
-          out.push_back({Severity::confirm, "decimal_slip",
-                         shown + " looks like a decimal slip: the other plots are near " + number_text(med) + unit +
-                             ". Did you mean " + number_text(meant) + unit + "?",
-                         slip_suggestion(trait, meant)});
-        }
+      const double z = std::abs(v - med) / sd;
+      const double z_times = std::abs(10 * v - med) / sd;
+      const double z_tenth = std::abs(v / 10 - med) / sd;
+      if (z > kSlipFarZ && std::min(z_times, z_tenth) < kSlipNearZ) {
+        const double meant = z_times < z_tenth ? 10 * v : v / 10;
+        slip_finding = Finding{Severity::confirm, "decimal_slip",
+                               shown + " looks like a decimal slip: the other plots are near " + number_text(med) + unit +
+                                   ". Did you mean " + number_text(meant) + unit + "?",
+                               slip_suggestion(trait, meant)};
       }
     }
+    if ((trait.hard_min && v < *trait.hard_min) || (trait.hard_max && v > *trait.hard_max)) {
+      Finding refused{Severity::refuse, "hard_limit",
+                      shown + " is outside the possible range of " + trait.name + " (" +
+                          (trait.hard_min ? number_text(*trait.hard_min) : "") + " to " +
+                          (trait.hard_max ? number_text(*trait.hard_max) : "") + unit + ")"};
+      if (slip_finding) {
+        refused.message += ". " + slip_finding->message;
+        refused.suggestion = slip_finding->suggestion;
+      }
+      out.push_back(refused);
+      return out;
+    }
+    if ((trait.soft_min && v < *trait.soft_min) || (trait.soft_max && v > *trait.soft_max))
+      out.push_back({Severity::confirm, "soft_limit",
+                     shown + " is outside the usual range of " + trait.name + " (" +
+                         (trait.soft_min ? number_text(*trait.soft_min) : "") + " to " +
+                         (trait.soft_max ? number_text(*trait.soft_max) : "") + unit + "): check and confirm"});
+    if (slip_finding) out.push_back(*slip_finding);
     if (context.expectation && context.expectation->sd > 0) {
       const PlotExpectation& e = *context.expectation;
       const double z = std::abs(v - e.expected) / e.sd;

@@ -168,7 +168,7 @@ RecordView RecordSession::view() const {
   if (values.size() == 1) v.current = values.begin()->second;
   else if (values.size() > 1) v.current = "CONFLICT";
   v.typed = typed_;
-  v.has_pending = pending_.has_value();
+  v.has_pending = pending_.has_value() && !pending_->refused;
   v.suggestion = pending_ ? pending_->suggestion : "";
   v.notice = notice_;
   v.pending_note = note_;
@@ -263,7 +263,7 @@ EntryOutcome RecordSession::enter(const std::string& text) {
 EntryOutcome RecordSession::confirm() {
   EntryOutcome out;
   // E2: Confirm answers the question about exactly the text on screen.
-  if (!pending_ || pending_->text != typed_) {
+  if (!pending_ || pending_->text != typed_ || pending_->refused) {
     pending_.reset();
     out.message = "there is no value waiting for confirmation";
     return out;
@@ -296,6 +296,10 @@ EntryOutcome RecordSession::check_and_save(bool confirmed) {
   const auto w = worst(out.findings);
   if (w == Severity::refuse) {
     pending_.reset();
+    // A value refused for its range may still be a likely slip: offer the
+    // value probably meant (E4), never a Confirm.
+    for (const Finding& f : out.findings)
+      if (!f.suggestion.empty() && f.suggestion != text) pending_ = Pending{text, f.suggestion, true};
     out.kind = EntryOutcome::Kind::refused;
     out.message = with_findings("not saved:", out.findings);
     return out;

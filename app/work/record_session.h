@@ -175,6 +175,7 @@ class RecordSession {
   struct Pending {
     std::string text;
     std::string suggestion;
+    bool refused = false;   // only the suggestion is offered, not Confirm
   };
   std::optional<Pending> pending_;
   std::string notice_;

@@ -354,7 +354,13 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
     // text on screen (rule E2).
     const bool asking = st->tone == RecordScreenState::Tone::confirm && v.has_pending;
     const float inner = w - 2 * style.WindowPadding.x;
-    if (asking) {
+    if (st->tone == RecordScreenState::Tone::refuse && !v.has_pending && !v.suggestion.empty()) {
+      // Refused for its range, but a likely slip: only the value probably meant.
+      const std::string label = "Save " + v.suggestion + " instead";
+      if (solid_button(label.c_str(), ImVec2(inner, banner_buttons_h), ButtonLook{theme.accent, theme.accent_text},
+                       &st->targets, "Save suggestion"))
+        out.push_back({RecordCommand::Kind::save_suggestion, {}});
+    } else if (asking) {
       const float bw = v.suggestion.empty() ? inner : (inner - style.ItemSpacing.x) / 2;
       if (big_button("Confirm value", bw, banner_buttons_h, theme.button, theme.button_text, st))
         out.push_back({RecordCommand::Kind::confirm, {}});

@@ -220,6 +220,23 @@ TEST_CASE("Save 91 instead: one tap saves the suggestion, checked like any entry
   CHECK(stored(db, "110", 1) == "94");
 }
 
+TEST_CASE("a slip beyond the possible range is refused and still offers the value probably meant") {
+  const std::string db = test::demo_day_trial("slip_up.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  session->set_trait(1);
+  REQUIRE(session->jump_to("112").ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  for (const char* k : {"9", "1", "0"}) screen.tap(k);
+  screen.tap("Save");
+  CHECK(screen.state().tone == RecordScreenState::Tone::refuse);
+  CHECK(screen.state().banner.find("possible range") != std::string::npos);
+  CHECK(screen.state().banner.find("Did you mean 91") != std::string::npos);
+  CHECK(test::find_target(screen.state().targets, "Confirm value") == nullptr);   // never confirmable
+  screen.tap("Save suggestion");
+  CHECK(stored(db, "112", 1) == "91");
+}
+
 TEST_CASE("a typed value does not follow the crew to the next plot; a question does not outlive its text") {
   const std::string db = test::demo_day_trial("follow.furrow");
   auto session = RecordSession::open(db, "Ana");
