@@ -220,7 +220,7 @@ std::vector<RecordCommand> draw_record_screen(const RecordView& v, const StoredT
     look.align_left = true;
     if (solid_button((walk_label + "##walk").c_str(), ImVec2(w, target), look, &st->targets, "Today's walk"))
       st->choosing_walk = !st->choosing_walk;
-    ImGui::BeginChild("progress", ImVec2(w, 2 * ImGui::GetTextLineHeightWithSpacing()), false,
+    ImGui::BeginChild("progress", ImVec2(w, (narrow ? 3 : 2) * ImGui::GetTextLineHeightWithSpacing()), false,
                       ImGuiWindowFlags_NoScrollbar | ImGuiWindowFlags_NoScrollWithMouse);
     ImGui::PushTextWrapPos(0.0f);
     ImGui::TextUnformatted(progress.c_str());
