@@ -791,6 +791,18 @@ Status reseal_bundle(const std::string& path) {
     while (s->step()) m[s->text(0)] = s->text(1);
   }
   std::int64_t rows = 0, links = 0;
+  auto counted = content_digest(*db, m, &rows, &links);
+  if (!counted) return counted.problem();
+  // The counts as the file now holds them, then the checksum over it all.
+  for (auto [key, n] : {std::pair{"observations", rows}, std::pair{"replacements", links}}) {
+    if (m[key].find_first_not_of("0123456789") != std::string::npos) continue;   // keep a forged count's text
+    m[key] = std::to_string(n);
+    auto c = db->prepare("UPDATE manifest SET value = ? WHERE key = ?");
+    if (!c) return c.problem();
+    c->bind(1, m[key]).bind(2, key);
+    FURROW_TRY(c->run());
+  }
+  rows = links = 0;
   auto digest = content_digest(*db, m, &rows, &links);
   if (!digest) return digest.problem();
   auto u = db->prepare("UPDATE manifest SET value = ? WHERE key = 'checksum'");
