@@ -1,5 +1,7 @@
 #include "storage/plan_file.h"
 
+#include <cstdlib>
+
 #include <algorithm>
 #include <cmath>
 #include <map>
@@ -56,7 +58,17 @@ bool parse_number(const std::string& s, double* out) {
 
 }  // namespace
 
-std::string csv_field(const std::string& s) {
+std::string csv_field(const std::string& raw) {
+  // A text cell a spreadsheet would run as a formula (=, +, -, @, or a tab or
+  // carriage return first; OWASP's advice on CSV injection) gets a leading
+  // apostrophe; numbers such as -5 stay as they are.
+  std::string s = raw;
+  if (!s.empty() && std::string("=+-@\t\r").find(s.front()) != std::string::npos) {
+    char* end = nullptr;
+    std::strtod(s.c_str(), &end);
+    const bool number = end && *end == '\0' && s.size() > 1;
+    if (!number) s = "'" + s;
+  }
   if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
   std::string q = "\"";
   for (char c : s) { if (c == '"') q += '"'; q += c; }

@@ -28,10 +28,29 @@ Statement& Statement::bind(int i, const std::optional<double>& v) {
   return *this;
 }
 
+std::string plain_sqlite_error(int code, const std::string& detail) {
+  switch (code & 0xFF) {
+    case SQLITE_FULL: return "the disk is full (" + detail + "): nothing was saved; free some space and try again";
+    case SQLITE_READONLY:
+      return "the file cannot be written (" + detail + "): a read-only file system, a read-only file or no permission";
+    case SQLITE_BUSY:
+    case SQLITE_LOCKED:
+      return "another program is using the trial file (a merge or a copy?) and held it for more than 5 s (" + detail +
+             "): nothing was saved; try again";
+    case SQLITE_CANTOPEN:
+      return "the file cannot be opened (" + detail + "): check that the folder exists and can be written";
+    case SQLITE_IOERR: return "the disk failed to read or write (" + detail + "): check the storage and free space";
+    case SQLITE_CORRUPT:
+    case SQLITE_NOTADB: return "the file is damaged or not a Furrow file (" + detail + ")";
+    default: return detail;
+  }
+}
+
 bool Statement::step() {
   const int rc = sqlite3_step(stmt_);
   if (rc == SQLITE_ROW) return true;
-  if (rc != SQLITE_DONE && error_.empty()) error_ = sqlite3_errmsg(sqlite3_db_handle(stmt_));
+  if (rc != SQLITE_DONE && error_.empty())
+    error_ = plain_sqlite_error(sqlite3_extended_errcode(sqlite3_db_handle(stmt_)), sqlite3_errmsg(sqlite3_db_handle(stmt_)));
   return false;
 }
 
@@ -82,14 +101,16 @@ Database::~Database() {
 Result<Database> Database::open(const std::string& path, bool create) {
   Database d;
   const int flags = SQLITE_OPEN_READWRITE | (create ? SQLITE_OPEN_CREATE : 0);
-  if (sqlite3_open_v2(path.c_str(), &d.db_, flags, nullptr) != SQLITE_OK) {
+  if (const int rc = sqlite3_open_v2(path.c_str(), &d.db_, flags, nullptr); rc != SQLITE_OK) {
     std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
-    return make_problem("cannot open " + path + ": " + msg);
+    return make_problem(path + ": " + plain_sqlite_error(rc, msg));
   }
   sqlite3_busy_timeout(d.db_, 5000);
   for (const char* pragma : {"PRAGMA foreign_keys = ON", "PRAGMA journal_mode = WAL", "PRAGMA synchronous = FULL"}) {
     if (auto s = d.exec(pragma); !s) return make_problem(path + ": " + s.problem().message);
   }
+  if (!create && sqlite3_db_readonly(d.db_, "main") == 1)
+    return make_problem(path + ": " + plain_sqlite_error(SQLITE_READONLY, "opened read-only"));
   return d;
 }
 
@@ -142,6 +163,18 @@ Result<Database> Database::open_read_only(const std::string& path) {
   return d;
 }
 
+Result<Database> Database::open_looking(const std::string& path) {
+  Database d;
+  if (const int rc = sqlite3_open_v2(path.c_str(), &d.db_, SQLITE_OPEN_READONLY, nullptr); rc != SQLITE_OK) {
+    std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
+    return make_problem(path + ": " + plain_sqlite_error(rc, msg));
+  }
+  sqlite3_busy_timeout(d.db_, 5000);
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_TRUSTED_SCHEMA, 0, nullptr);
+  return d;
+}
+
 Result<Database> Database::create_standalone(const std::string& path) {
   Database d;
   if (sqlite3_open_v2(path.c_str(), &d.db_, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE, nullptr) != SQLITE_OK) {
@@ -157,10 +190,10 @@ int Database::changes() const { return sqlite3_changes(db_); }
 
 Status Database::exec(const std::string& sql) {
   char* err = nullptr;
-  if (sqlite3_exec(db_, sql.c_str(), nullptr, nullptr, &err) != SQLITE_OK) {
+  if (const int rc = sqlite3_exec(db_, sql.c_str(), nullptr, nullptr, &err); rc != SQLITE_OK) {
     std::string msg = err ? err : "unknown error";
     sqlite3_free(err);
-    return make_problem(msg);
+    return make_problem(plain_sqlite_error(sqlite3_extended_errcode(db_) ? sqlite3_extended_errcode(db_) : rc, msg));
   }
   return ok_status();
 }
@@ -168,7 +201,7 @@ Status Database::exec(const std::string& sql) {
 Result<Statement> Database::prepare(const std::string& sql) {
   sqlite3_stmt* s = nullptr;
   if (sqlite3_prepare_v2(db_, sql.c_str(), static_cast<int>(sql.size()), &s, nullptr) != SQLITE_OK)
-    return make_problem(sqlite3_errmsg(db_));
+    return make_problem(plain_sqlite_error(sqlite3_extended_errcode(db_), sqlite3_errmsg(db_)));
   return Statement(s);
 }
 

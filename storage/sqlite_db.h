@@ -72,6 +72,9 @@ class Database {
   // connection stops after kUntrustedStepLimit virtual-machine steps. The
   // caller must still check the schema before its first query.
   static Result<Database> open_read_only(const std::string& path);
+  // Opens a file of ours for reading only, seeing what its WAL holds too;
+  // writes nothing to the file itself.
+  static Result<Database> open_looking(const std::string& path);
   // A file written once as a whole: rollback journal (no WAL beside it),
   // synchronous=FULL.
   static Result<Database> create_standalone(const std::string& path);
@@ -91,6 +94,11 @@ class Database {
 // a 20,000-row bundle is read and merged in well under 10^8 steps).
 inline constexpr int kUntrustedMaxBytes = 1 << 20;
 inline constexpr std::int64_t kUntrustedStepLimit = 2'000'000'000;
+
+// SQLite's error in the words a crew or station manager needs: what
+// happened (disk full, read-only, held by another program, damaged) and
+// that nothing was saved; `detail` is SQLite's own message, kept in brackets.
+std::string plain_sqlite_error(int code, const std::string& detail);
 
 // Returns the Problem of a failed Status or Result from the enclosing
 // function (which returns Status or a Result).

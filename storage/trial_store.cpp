@@ -351,6 +351,31 @@ Status create_trial_database(const std::string& path, const TrialPlan& plan, con
 
 Result<OpenTrial> open_trial_database(const std::string& path) {
   if (!std::filesystem::exists(path)) return make_problem(path + " does not exist");
+  {
+    // Looked at first without writing a byte: a file that is not a Furrow
+    // trial (another program's database, a bundle) is refused untouched.
+    // A disk with no room left fails even a read (SQLite needs its shared-
+    // memory file beside the log): say so in those words.
+    const auto why = [&](const std::string& message) {
+      std::error_code ec;
+      const auto space = std::filesystem::space(std::filesystem::absolute(path).parent_path(), ec);
+      if (!ec && space.available < 64 * 1024)
+        return make_problem(path + ": the disk is full (" + std::to_string(space.available / 1024) +
+                            " KB free): nothing can be read or saved until space is freed");
+      return make_problem(path + ": cannot be read: " + message);
+    };
+    auto probe = Database::open_looking(path);
+    if (!probe) return why(probe.problem().message);
+    auto kind = probe->prepare(
+        "SELECT (SELECT application_id FROM pragma_application_id), (SELECT user_version FROM pragma_user_version), "
+        "(SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name IN ('trial', 'plot', 'observation'))");
+    if (!kind) return why(kind.problem().message);
+    if (!kind->step()) return why(kind->error());
+    if (kind->integer(0) == kBundleApplicationIdForTrials)
+      return make_problem(path + " is a bundle, not a trial database: merge it with furrow merge");
+    if (kind->integer(1) < 1 || kind->integer(2) != 3)
+      return make_problem(path + ": not a Furrow trial database (no trial, plots and log in it); it was left as it was");
+  }
   auto db = Database::open(path, false);
   if (!db) return db.problem();
   OpenTrial out{std::move(db).value(), {}};

@@ -22,6 +22,8 @@
 namespace furrow {
 
 inline constexpr int kSchemaVersion = 4;
+// PRAGMA application_id of a bundle ("FRB1"): a trial command given a bundle says so.
+inline constexpr std::int64_t kBundleApplicationIdForTrials = 0x46524231;
 
 // Brings the schema to kSchemaVersion. A database from a newer Furrow is
 // refused (its user_version is higher than ours).

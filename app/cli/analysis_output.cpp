@@ -1,4 +1,6 @@
 #include "app/cli/analysis_output.h"
+#include "app/cli/output_safety.h"
+#include <iostream>
 #include "app/work/glossary.h"
 
 #include <cmath>
@@ -208,7 +210,11 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNam
     j["notes"] = a.notes;
     all.push_back(j);
   }
-  return (analyses.size() == 1 ? all[0] : all).dump(2) + "\n";
+  bool replaced = false;
+  std::string text = json_text(analyses.size() == 1 ? all[0] : all, &replaced) + "\n";
+  if (replaced)
+    std::cerr << "note: some level names or values held bytes that are not valid UTF-8; they are shown as U+FFFD\n";
+  return text;
 }
 
 }  // namespace furrow

@@ -1,4 +1,5 @@
 #include "app/cli/cli_station.h"
+#include "app/cli/output_safety.h"
 #include "app/work/glossary.h"
 
 #include <iostream>
@@ -15,7 +16,7 @@ namespace {
 constexpr int kExitBadInput = 2;
 
 int fail(const std::string& message) {
-  std::cerr << message << "\n";
+  std::cerr << terminal_safe(named_once(message)) << "\n";
   return kExitBadInput;
 }
 
@@ -44,7 +45,7 @@ int run_merge(const std::string& db_path, const std::vector<std::string>& bundle
   for (const std::string& b : bundles) {
     auto out = merge_bundle(open->db, open->trial, b);
     if (!out) {
-      std::cerr << "refused " << out.problem().message << "\n";
+      std::cerr << "refused " << terminal_safe(out.problem().message) << "\n";
       ++refused;
       continue;
     }
@@ -75,14 +76,17 @@ int run_conflicts(const std::string& db_path, bool json) {
       out.push_back({{"plot", t.layout.plots[c.plot_index].label}, {"trait", t.plan.traits[c.trait_index].code},
                      {"occasion", c.occasion}, {"rows", rows}});
     }
-    std::cout << out.dump(2) << "\n";
+    bool replaced = false;
+    std::cout << json_text(out, &replaced) << "\n";
+    if (replaced)
+      std::cerr << "note: some names, notes or values held bytes that are not valid UTF-8; they are shown as U+FFFD\n";
     return 0;
   }
   std::cout << count_of(static_cast<long>(conflicts->size()), term::kConflict) << "\n";
   for (const ConflictCell& c : *conflicts) {
-    std::cout << "plot " << t.layout.plots[c.plot_index].label << ", " << t.plan.traits[c.trait_index].code
-              << ", occasion " << c.occasion << ":\n";
-    for (const auto& r : c.rows) std::cout << "  " << row_text(r) << "\n";
+    std::cout << "plot " << terminal_safe(t.layout.plots[c.plot_index].label) << ", "
+              << terminal_safe(t.plan.traits[c.trait_index].code) << ", occasion " << c.occasion << ":\n";
+    for (const auto& r : c.rows) std::cout << "  " << terminal_safe(row_text(r)) << "\n";
   }
   return 0;
 }

@@ -1,4 +1,6 @@
 #include "app/cli/cli_trial.h"
+#include "app/cli/output_safety.h"
+#include "storage/text_file.h"
 
 #include <algorithm>
 #include <fstream>
@@ -21,7 +23,9 @@ namespace {
 constexpr int kExitBadInput = 2;
 
 int fail(const std::string& where, const std::string& message) {
-  std::cerr << where << ": " << message << "\n";
+  // The file named once: messages from storage often start with it already.
+  if (message.rfind(where + ":", 0) == 0 || message.rfind(where + " ", 0) == 0) std::cerr << terminal_safe(message) << "\n";
+  else std::cerr << terminal_safe(where + ": " + message) << "\n";
   return kExitBadInput;
 }
 
@@ -88,7 +92,11 @@ int run_record(const RecordRequest& r) {
   }
   EntryOutcome out = session->enter(r.value);
   for (const Finding& f : out.findings) std::cerr << severity_key(f.severity) << ": " << f.message << "\n";
-  if (out.kind == EntryOutcome::Kind::refused) return kExitBadInput;
+  if (out.kind == EntryOutcome::Kind::refused) {
+    // A refused value has its findings; a save that failed says why.
+    if (worst(out.findings) != Severity::refuse) return fail(r.db, out.message);
+    return kExitBadInput;
+  }
   if (out.kind == EntryOutcome::Kind::needs_confirmation) {
     if (!r.confirm) {
       std::cerr << "not saved: confirm with --confirm if the value is right\n";
@@ -140,8 +148,9 @@ int run_export(const std::string& db_path, const std::string& kind, const std::s
     std::cout << text;
     return 0;
   }
-  std::ofstream f(out, std::ios::binary);
-  if (!(f << text)) return fail(out, "cannot write the file");
+  // Written beside it and renamed: a full disk never leaves half a file in
+  // place of the earlier good one.
+  if (auto w = write_text_file(out, text); !w) return fail(out, w.problem().message);
   return 0;
 }
 

@@ -5,8 +5,9 @@
 //     shown while typing; when the screen shows another cell, or the crew
 //     leaves the Record screen, nothing is typed any more;
 //   - keypad digits, the point and keyboard keys append to it; Del and
-//     Backspace take one character off; a saved value, a skip or an Undo
-//     that writes clears it.
+//     Backspace take one character off; taking a slip's suggestion puts it in
+//     place of the typed text; a saved value, a skip or an Undo that writes
+//     clears it.
 // Invariant: every row the log gains comes from one tap of Save, Confirm
 // value, the slip's suggestion or Enter (a value: exactly the model's typed
 // text, or the suggestion tapped, normalised as the trait stores it, on the
@@ -207,6 +208,9 @@ class TapRun {
       const std::string& l = target.label;
       if (at_record_ && l.size() == 1 && ((l[0] >= '0' && l[0] <= '9') || l[0] == '.')) typed_ += l;
       if (at_record_ && l == "Del" && !typed_.empty()) typed_.pop_back();
+      // Taking the suggestion puts it on screen in place of the typed text
+      // (it is then checked like any entry, and may itself be asked about).
+      if (at_record_ && l == "Save suggestion" && !suggestion.empty()) typed_ = suggestion;
     }
     // A finger takes longer than two frames between taps: let the layout
     // settle (a closed panel shortens the page and ImGui clamps the scroll
