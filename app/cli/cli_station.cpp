@@ -92,8 +92,9 @@ int run_conflicts(const std::string& db_path, bool json) {
 }
 
 int run_settle(const SettleRequest& r) {
-  const int ways = !r.keep.empty() + !r.value.empty() + !r.missing.empty();
-  if (ways != 1) return fail("settle: give exactly one of --keep DEVICE/SEQUENCE, --value V or --missing REASON");
+  const int ways = !r.keep.empty() + !r.keep_value.empty() + !r.value.empty() + !r.missing.empty();
+  if (ways != 1)
+    return fail("settle: give exactly one of --keep-value V, --keep DEVICE/SEQUENCE, --value V or --missing REASON");
   auto open = open_trial_database(r.db);
   if (!open) return fail(r.db + ": " + open.problem().message);
   const StoredTrial& t = open->trial;
@@ -110,7 +111,29 @@ int run_settle(const SettleRequest& r) {
   Settlement s;
   s.by = r.by;
   s.note = r.note;
-  if (!r.keep.empty()) {
+  if (!r.keep_value.empty()) {
+    // The row holding that value, compared as values (5.5 is 5.50).
+    const Trait& trait = t.plan.traits[cell->trait_index];
+    auto parsed = parse_trait_value(trait, r.keep_value);
+    if (!parsed) return fail("settle: --keep-value " + r.keep_value + ": " + parsed.problem().message);
+    LiveObservation wanted;
+    wanted.value = parsed->text;
+    wanted.number = parsed->number;
+    std::vector<const LiveObservation*> holding;
+    for (const auto& row : cell->rows)
+      if (row.value && value_identity(row) == value_identity(wanted)) holding.push_back(&row);
+    if (holding.empty())
+      return fail("settle: no row of plot " + r.plot + ", " + r.trait + " holds " + r.keep_value +
+                  " (see furrow conflicts)");
+    if (holding.size() > 1) {
+      std::string keys;
+      for (const auto* row : holding) keys += " " + row->key.device_id + "/" + std::to_string(row->key.sequence);
+      return fail("settle: " + std::to_string(holding.size()) + " rows hold " + r.keep_value +
+                  "; name the one to keep with --keep (one of" + keys + ")");
+    }
+    s.kind = Settlement::Kind::keep;
+    s.keep = holding.front()->key;
+  } else if (!r.keep.empty()) {
     s.kind = Settlement::Kind::keep;
     const auto slash = r.keep.find('/');
     if (slash == std::string::npos) return fail("settle: --keep is DEVICE/SEQUENCE, as furrow conflicts lists them");

@@ -13,7 +13,7 @@ int run_merge(const std::string& db_path, const std::vector<std::string>& bundle
 int run_conflicts(const std::string& db_path, bool json);
 
 struct SettleRequest {
-  std::string db, plot, trait, keep, value, missing, by, note;
+  std::string db, plot, trait, keep, keep_value, value, missing, by, note;
   int occasion = 1;
 };
 int run_settle(const SettleRequest& r);

@@ -86,6 +86,7 @@ int main(int argc, char** argv) {
   settle->add_option("--trait", settle_req.trait, "trait code")->required();
   settle->add_option("--occasion", settle_req.occasion, "occasion (default 1)");
   settle->add_option("--keep", settle_req.keep, "keep this row's value: DEVICE/SEQUENCE as listed");
+  settle->add_option("--keep-value", settle_req.keep_value, "keep the row that holds this value (no ids needed)");
   settle->add_option("--value", settle_req.value, "a new value (checked like an entry)");
   settle->add_option("--missing", settle_req.missing, "no value, with the reason");
   settle->add_option("--by", settle_req.by, "who settles")->required();

@@ -78,9 +78,15 @@ bad = run("settle", "--db", path("station.furrow"), "--plot", "102", "--trait", 
 check(bad.returncode == 2 and "not one of the disagreeing rows" in bad.stderr, "keep must name a disagreeing row")
 check(content("station.furrow") == before, "refused settlements change nothing")
 
-keep = next(r for r in listed[0]["rows"] if r["value"] == "98")
-run("settle", "--db", path("station.furrow"), "--plot", "102", "--trait", "height_cm", "--keep",
-    f"{keep['device']}/{keep['sequence']}", "--by", "Station manager")
+bad = run("settle", "--db", path("station.furrow"), "--plot", "102", "--trait", "height_cm", "--keep-value", "97",
+          "--by", "Station manager", ok=False)
+check(bad.returncode == 2 and "no row of plot 102, height_cm holds 97" in bad.stderr,
+      f"--keep-value names a value one row holds ({bad.stderr.strip()})")
+check(content("station.furrow") == before, "a refused --keep-value changes nothing")
+# The station manager keeps 98 by its value, with no device id to copy
+# (98.0 is the same value).
+run("settle", "--db", path("station.furrow"), "--plot", "102", "--trait", "height_cm", "--keep-value", "98.0",
+    "--by", "Station manager")
 run("settle", "--db", path("station.furrow"), "--plot", "104", "--trait", "height_cm", "--missing", "plot damaged",
     "--by", "Station manager", "--note", "hail on the east end")
 check(json.loads(run("conflicts", "--db", path("station.furrow"), "--json").stdout) == [], "no conflicts left")
