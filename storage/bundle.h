@@ -15,16 +15,44 @@
 //                          replaced_sequence
 //   holding(device_id, max_sequence)  what the maker holds of each device's log
 // The checksum is SHA-1 (FIPS 180-4) over a canonical serialisation of the
-// manifest (less the checksum) and every row in key order; it detects a
-// damaged or altered file, it is not a signature.
+// manifest's stored text (less the checksum), the holdings and every row and
+// link in key order; it detects a damaged file. It is NOT a signature: anyone
+// who edits a bundle can write it again, so nothing below relies on it.
 //
-// A device's bundle holds the log rows the station is not known to hold
-// (every row of the log the first time), plus every row those replace, so
-// that any bundle can be merged alone. Merging adds the rows the database
-// does not hold, in one transaction: merging bundles in any order, any
-// number of times, gives the same log (the union). A bundle for another
-// trial, another plan, with a bad checksum, truncated or not a bundle is
-// refused and the database is left as it was.
+// A device's bundle holds its own log rows the station is not known to hold
+// (every row the first time); the station's bundle holds its whole log.
+// Merging adds the rows the database does not hold, in one transaction: the
+// same bundles in any order, any number of times, give the same log, except
+// that a bundle whose device's earlier rows have not arrived waits for them
+// (R5).
+//
+// Trust. A bundle arrives from a device the station does not control, so it
+// is untrusted input, checked whole before anything is written:
+//   R1. The file is opened read-only and immutable, in SQLite's defensive
+//       mode with the schema untrusted, triggers and views off, strings of
+//       at most 1 MB and a bounded number of steps; its schema must be
+//       exactly a bundle's (no view, trigger, virtual table, extra column)
+//       before any query; then format, integrity, counts and checksum.
+//   R2. Another trial's bundle, or one made with another plan, is refused.
+//   R3. A station takes bundles from devices only; a device from its station
+//       only. A device's bundle carries rows of its maker only, and its maker
+//       is not the station's own device id.
+//   R4. A row may replace rows of its own device only; only the station's
+//       rows (settlements) replace another device's.
+//   R5. A device's sequences start at 1 and follow on from what the station
+//       holds of it with no gap; a held row must come back identical (a
+//       differing one means two files share a device id: a copied tablet).
+//   R6. Every row is checked as an entry is: its plot and trait are in the
+//       plan, the occasion exists, a value or a reason (not both), the value
+//       parses for the trait's kind within the hard limits, decimals, scale
+//       and categories, is written as Furrow writes it and its number
+//       matches; the note, observer, reason and time are of sane form.
+//   R7. Values agree as values (5.5 and 5.50; see value_identity).
+// What this does not protect against: a bundle made on an enrolled device by
+// whoever holds it (a stolen, unlocked tablet writes rows as that device), and
+// a forged bundle that breaks no rule above: without signatures a forger can
+// write rows under a device id it has seen. Keys and signatures per device,
+// with enrolment and revocation at the station, are the next step.
 
 #include <cstdint>
 #include <string>
