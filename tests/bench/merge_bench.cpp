@@ -8,6 +8,7 @@
 
 #include <chrono>
 #include <cstdio>
+#include <cstdlib>
 #include <filesystem>
 #include <fstream>
 #include <string>
@@ -61,14 +62,14 @@ int main(int argc, char** argv) {
     if (!open) return fail(open.problem().message);
     const furrow::StoredTrial& t = open->trial;
     auto s = furrow::in_transaction(open->db, [&]() -> furrow::Status {
-      auto ins = open->db.prepare("INSERT INTO observation VALUES (?,?,?,?,?,?,?,NULL,'',?,?)");
+      auto ins = open->db.prepare("INSERT INTO observation VALUES (?,?,?,?,?,?,?,NULL,'',?,?,'')");
       if (!ins) return ins.problem();
       std::int64_t seq = 0;
       for (size_t k = 0; k < t.trait_ids.size(); ++k)
         for (size_t p = 0; p < t.plot_ids.size(); ++p) {
-          const double v = 80 + static_cast<double>((p * 37 + k * 11 + d) % 600) / 10.0;
           char text[16];
-          std::snprintf(text, sizeof text, "%.1f", v);
+          std::snprintf(text, sizeof text, "%.1f", 80 + static_cast<double>((p * 37 + k * 11 + d) % 600) / 10.0);
+          const double v = std::strtod(text, nullptr);   // the number as Furrow parses the text
           ins->reset();
           ins->bind(1, t.device_id).bind(2, ++seq).bind(3, t.plot_ids[p]).bind(4, t.trait_ids[k]).bind(5, d + 1)
               .bind(6, std::string(text)).bind(7, v).bind(8, "crew " + std::to_string(d))
