@@ -645,11 +645,13 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
   for (size_t i = 0; i < trial.layout.plots.size(); ++i) plot_id[trial.layout.plots[i].label] = trial.plot_ids[i];
   for (size_t k = 0; k < trial.plan.traits.size(); ++k) trait_id[trial.plan.traits[k].code] = trial.trait_ids[k];
 
+  // The rows are read once, checked whole, then inserted from memory.
+  std::vector<Row> rows;
+  std::vector<Link> links;
   {
-    std::vector<Row> rows;
-    std::vector<Link> links;
     auto read = b->db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, "
-                              "missing_reason, note, observer, recorded_at, confirmed_checks FROM observation");
+                              "missing_reason, note, observer, recorded_at, confirmed_checks FROM observation "
+                              "ORDER BY device_id, sequence");
     if (!read) return make_problem(path + ": " + read.problem().message);
     while (read->step()) rows.push_back(read_row(*read));
     if (read->failed()) return make_problem(path + ": " + read->error());
@@ -661,9 +663,6 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
   }
   MergeOutcome out{m, 0, 0};
   Status merged = in_transaction(db, [&]() -> Status {
-    auto read = b->db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, "
-                              "missing_reason, note, observer, recorded_at, confirmed_checks FROM observation ORDER BY device_id, sequence");
-    if (!read) return read.problem();
     auto insert = db.prepare("INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, "
                              "missing_reason, note, observer, recorded_at, confirmed_checks) VALUES (?,?,?,?,?,?,?,?,?,?,?,?) "
                              "ON CONFLICT DO NOTHING");
@@ -672,8 +671,7 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
                            " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
                            "WHERE o.device_id = ? AND o.sequence = ?");
     if (!held) return held.problem();
-    while (read->step()) {
-      const Row r = read_row(*read);
+    for (const Row& r : rows) {
       const auto p = plot_id.find(r.plot_label);
       const auto t = trait_id.find(r.trait_code);
       if (p == plot_id.end() || t == trait_id.end())
@@ -695,17 +693,14 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
         return make_problem(path + ": row " + r.device_id + "/" + std::to_string(r.sequence) +
                             " differs from the row of that key this database holds; the two logs disagree");
     }
-    if (read->failed()) return make_problem(path + ": " + read->error());
-    auto links = b->db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement");
-    if (!links) return links.problem();
     auto link = db.prepare("INSERT INTO replacement (device_id, sequence, replaced_device_id, replaced_sequence) "
                            "VALUES (?,?,?,?) ON CONFLICT DO NOTHING");
     if (!link) return link.problem();
-    while (links->step()) {
+    for (const Link& l : links) {
       link->reset();
-      link->bind(1, links->text(0)).bind(2, links->integer(1)).bind(3, links->text(2)).bind(4, links->integer(3));
+      link->bind(1, l.device_id).bind(2, l.sequence).bind(3, l.replaced_device_id).bind(4, l.replaced_sequence);
       if (auto s = link->run(); !s)
-        return make_problem(path + ": a link of row " + links->text(0) + "/" + std::to_string(links->integer(1)) +
+        return make_problem(path + ": a link of row " + l.device_id + "/" + std::to_string(l.sequence) +
                             " names a row neither file holds (" + s.problem().message + ")");
       out.replacements_added += db.changes();
     }

@@ -151,10 +151,10 @@ Result<Database> Database::open_read_only(const std::string& path) {
   sqlite3_limit(d.db_, SQLITE_LIMIT_TRIGGER_DEPTH, 1);
   d.steps_ = std::make_unique<std::int64_t>(0);
   sqlite3_progress_handler(
-      d.db_, 1000,
+      d.db_, 100000,
       [](void* p) -> int {
         auto* steps = static_cast<std::int64_t*>(p);
-        *steps += 1000;
+        *steps += 100000;
         return *steps > kUntrustedStepLimit ? 1 : 0;
       },
       d.steps_.get());

@@ -104,7 +104,7 @@ check(os.path.exists(os.path.join(data, "bundles", "done", "c.bundle"))
 targets = os.path.join(work, "fresh_targets.txt")
 app = subprocess.Popen(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", furrow, "field", "--db", station,
                         "--observer", "Station manager", "--screen", "station", "--targets-out", targets],
-                       env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+                       env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
 try:
     def listed(label):
         try:
@@ -124,7 +124,13 @@ try:
           f"the screen dropped the settled conflict {seen_after:.2f} s after the command-line settle (at most 1 s)")
     print(f"fresh view: {seen_after:.2f} s from the command-line settle to the redrawn Station screen")
 finally:
-    app.terminate()
+    # xvfb-run is a shell script: end its whole process group (the app and
+    # the X server with it), not only the script.
+    import signal
+    try:
+        os.killpg(app.pid, signal.SIGTERM)
+    except ProcessLookupError:
+        pass
     app.wait(timeout=30)
 
 # A crew member's tablet: the app starts on the Trials screen of an empty
