@@ -24,7 +24,7 @@ struct Finding {
   std::string check;     // short key: hard_limit, soft_limit, decimals, scale, category, date, number,
                          // decimal_slip, repeated, unlikely
   std::string message;
-  std::string suggestion;   // decimal_slip: the value the crew probably meant, as text to enter (else empty)
+  std::string suggestion{};   // decimal_slip: the value the crew probably meant, as text to enter (else empty)
 };
 
 // A decimal slip is considered once a trait has this many other values, and

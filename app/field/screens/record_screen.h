@@ -39,9 +39,9 @@ struct RecordCommand {
     set_walk,        // walk: the new choice
     note             // text: a note for this plot
   } kind = Kind::next;
-  std::string text;
-  std::string note;
-  WalkChoice walk;
+  std::string text{};
+  std::string note{};
+  WalkChoice walk{};
 };
 
 // Where each tappable item was drawn in the last frame (screen pixels), so

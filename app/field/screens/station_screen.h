@@ -49,8 +49,8 @@ struct StationAction {
       Kind::import_bundles;
   size_t conflict = 0, row = 0;      // keep: which conflict and which of its rows, as drawn
   ConflictId cell;                   // keep, new_value, mark_missing: the cell
-  ObservationKey keep;               // keep: the row whose value stands
-  std::string text;                  // new_value: the value; mark_missing: the reason
+  ObservationKey keep{};             // keep: the row whose value stands
+  std::string text{};                // new_value: the value; mark_missing: the reason
 };
 
 std::optional<StationAction> draw_station_screen(const StationView& view, const Theme& theme, float scale,
