@@ -156,6 +156,7 @@ class FieldApp final : public FieldAppState {
       if (!settings_.observer.empty()) session_->set_observer(settings_.observer);
     }
     leaving_.reset();   // alpha changes the outliers
+    question_list_.reset();
     analysis_.reset();
     if (!settings_path_.empty())
       if (auto s = save_settings(settings_path_, settings_); !s) std::cerr << s.problem().message << "\n";
@@ -190,6 +191,18 @@ class FieldApp final : public FieldAppState {
   // kept until the log, trait or occasion change.
   std::string saved_question(const RecordView& v) {
     if (!v.current || !v.typed.empty() || v.current->rfind("missing", 0) == 0 || *v.current == "CONFLICT") return {};
+    for (const LeavingItem& item : trait_list().items)
+      if (item.plot_index == session_->plot_index() && item.trait_index == session_->trait_index() &&
+          item.occasion == session_->occasion() &&
+          (item.has(LeavingItem::Kind::outlier) || item.has(LeavingItem::Kind::flagged)))
+        return item.message + ". If it is right, tap " + term::kValueIsRight + ".";
+    return {};
+  }
+
+  // Before leaving for the session's trait and occasion on every plot,
+  // whatever today's walk (the status map's marks and the Record screen's
+  // question share it), kept until the log, trait or occasion change.
+  const BeforeLeaving& trait_list() {
     const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0};
     if (!question_list_ || !(question_key_ == key)) {
       const StoredTrial& t = session_->trial();
@@ -198,12 +211,7 @@ class FieldApp final : public FieldAppState {
           Walk(t, WalkChoice{{t.plan.traits[key.trait].code}, key.occasion, {}, false}));
       question_key_ = key;
     }
-    for (const LeavingItem& item : question_list_->items)
-      if (item.plot_index == session_->plot_index() && item.trait_index == session_->trait_index() &&
-          item.occasion == session_->occasion() &&
-          (item.has(LeavingItem::Kind::outlier) || item.has(LeavingItem::Kind::flagged)))
-        return item.message + ". If it is right, tap " + term::kValueIsRight + ".";
-    return {};
+    return *question_list_;
   }
 
   std::string observer() const { return options_.observer.empty() ? settings_.observer : options_.observer; }
@@ -601,14 +609,9 @@ class FieldApp final : public FieldAppState {
       const Result<Analysis>* a = map_ui_.colouring == MapColouring::residual ? &analysis() : nullptr;
       // The status map marks what Before leaving would ask about this trait
       // and occasion on every plot, whatever today's walk is.
-      std::optional<BeforeLeaving> marks;
-      if (map_ui_.colouring == MapColouring::status) {
-        const StoredTrial& t = session_->trial();
-        marks = furrow::before_leaving(t, session_->live(), settings_.alpha,
-                                       Walk(t, WalkChoice{{t.plan.traits[key.trait].code}, key.occasion, {}, false}));
-      }
       map_ = build_field_map(session_->trial(), session_->live(), key.trait, key.occasion, map_ui_.colouring, theme_,
-                             marks ? &*marks : nullptr, a && *a ? &**a : nullptr);
+                             map_ui_.colouring == MapColouring::status ? &trait_list() : nullptr,
+                             a && *a ? &**a : nullptr);
       map_key_ = key;
       labels_.clear();
       for (const PlannedPlot& p : session_->trial().layout.plots) labels_.push_back(p.label);
@@ -649,12 +652,11 @@ class FieldApp final : public FieldAppState {
     // Blind scoring hides treatment names while collecting: the analysis by
     // treatment would name them, so it waits until blind scoring is off.
     if (settings_.blind_scoring) {
-      static const std::vector<EveryTraitOutlier> none;
       const auto blind = draw_check_screen(session_->trial(), nullptr,
                                            "blind scoring is on, and the analysis would name the treatments; turn it "
                                            "off in Settings to see it",
                                            trait_title(), session_->trial().plan.traits[session_->trait_index()].unit,
-                                           none, theme_, scale, top, &check_ui_);
+                                           kNone, theme_, scale, top, &check_ui_);
       if (blind && blind->kind == CheckAction::Kind::next_trait) step_trait(1);
       if (blind && blind->kind == CheckAction::Kind::previous_trait) step_trait(-1);
       return;
