@@ -6,7 +6,7 @@ set -euo pipefail
 PACKAGES=(
   cmake g++ make pkg-config
   libeigen3-dev libboost-math-dev
-  libsqlite3-dev
+  libsqlite3-dev libsodium-dev
   libimgui-dev libglfw3-dev libgl-dev libstb-dev fonts-dejavu-core
   nlohmann-json3-dev libcli11-dev doctest-dev
   python3 python3-scipy python3-statsmodels python3-pandas python3-numpy

@@ -1,7 +1,5 @@
 #include "storage/bundle.h"
 
-#include <boost/uuid/detail/sha1.hpp>
-
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -14,48 +12,50 @@
 
 #include "core/design.h"
 #include "core/entry_checks.h"
+#include "storage/enrolment.h"
+#include "storage/keys.h"
+#include "storage/text_file.h"
 
 namespace furrow {
 namespace {
 
 constexpr std::int64_t kBundleApplicationId = 0x46524231;   // "FRB1"
 constexpr const char* kFormat = "furrow-bundle";
-constexpr const char* kVersion = "2";   // 2: rows carry `confirmed_checks`
+constexpr const char* kVersion = "3";   // 2: rows carry `confirmed_checks`; 3: signed
 
-// SHA-1 over length-prefixed fields, so that no two different sequences of
+// The signed file (see bundle.h): magic, signer's key, signature, image length, image.
+constexpr char kMagic[17] = "FURROW BUNDLE 3\n";
+constexpr size_t kKeyAt = 16, kSignatureAt = 48, kLengthAt = 112, kImageAt = 120;
+constexpr std::uintmax_t kMaxBundleBytes = std::uintmax_t{512} << 20;
+
+// BLAKE2b over length-prefixed fields, so that no two different sequences of
 // fields give the same stream.
 class Digest {
  public:
   void field(const std::string& s) {
     const std::string head = std::to_string(s.size()) + ":";
-    h_.process_bytes(head.data(), head.size());
-    h_.process_bytes(s.data(), s.size());
+    h_.update(head);
+    h_.update(s);
   }
   void field(const std::optional<std::string>& s) {
     if (s) field(*s);
-    else h_.process_byte('~');
+    else h_.update("~");
   }
   void field(std::int64_t v) { field(std::to_string(v)); }
   void field(const std::optional<double>& v) {
     if (!v) {
-      h_.process_byte('~');
+      h_.update("~");
       return;
     }
     char buf[40];
     std::snprintf(buf, sizeof buf, "%.17g", *v);
     field(std::string(buf));
   }
-  void end_row() { h_.process_byte('\n'); }
-  std::string hex() {
-    boost::uuids::detail::sha1::digest_type d;
-    h_.get_digest(d);
-    char buf[48];
-    std::snprintf(buf, sizeof buf, "%08x%08x%08x%08x%08x", d[0], d[1], d[2], d[3], d[4]);
-    return buf;
-  }
+  void end_row() { h_.update("\n"); }
+  std::string hex() { return h_.hex(); }
 
  private:
-  boost::uuids::detail::sha1 h_;
+  Hasher h_;
 };
 
 std::string opt_key(const std::optional<double>& v) {
@@ -89,29 +89,6 @@ struct Link {
   std::string replaced_device_id;
   std::int64_t replaced_sequence = 0;
 };
-
-void digest_row(Digest& d, const Row& r) {
-  d.field(r.device_id);
-  d.field(r.sequence);
-  d.field(r.plot_label);
-  d.field(r.trait_code);
-  d.field(r.occasion);
-  d.field(r.value);
-  d.field(r.number);
-  d.field(r.missing_reason);
-  d.field(r.note);
-  d.field(r.observer);
-  d.field(r.recorded_at);
-  d.field(r.confirmed_checks);
-  d.end_row();
-}
-void digest_link(Digest& d, const Link& l) {
-  d.field(l.device_id);
-  d.field(l.sequence);
-  d.field(l.replaced_device_id);
-  d.field(l.replaced_sequence);
-  d.end_row();
-}
 
 const char* kManifestKeys[] = {"format",          "version",    "trial_uid",    "trial_name",   "plan_hash",
                                "maker_device_id", "maker_role", "created_at",   "observations", "replacements"};
@@ -217,68 +194,79 @@ const SchemaObjects& expected_bundle_schema() {
   return expected;
 }
 
-// The checksum of a bundle's content as stored: the manifest's text (but the
-// checksum itself), the holdings, every row and every link, in key order.
-// Counts the rows and links.
-Result<std::string> content_digest(Database& db, const std::map<std::string, std::string>& manifest,
-                                   std::int64_t* rows, std::int64_t* links) {
-  Digest d;
-  for (const auto& [k, v] : manifest) {
-    if (k == "checksum") continue;
-    d.field(k);
-    d.field(v);
-  }
+// A bundle file read whole, its signature checked against the key it
+// names (so its bytes are as its signer wrote them; whether that signer may
+// write here is for the caller to decide).
+struct SignedFile {
+  std::string bytes;
+  std::string signer_key;   // 32 bytes
+  std::string file_hash;    // BLAKE2b-256 of every byte, hex
+  std::string_view image() const { return std::string_view(bytes).substr(kImageAt); }
+};
+
+Result<SignedFile> read_signed_file(const std::string& path) {
+  const auto fail = [&](const std::string& why) { return make_problem(path + ": " + why); };
+  std::error_code ec;
+  const auto size = std::filesystem::file_size(path, ec);
+  if (ec) return fail("cannot be read (no such file?)");
+  if (size > kMaxBundleBytes)
+    return fail("refused: " + std::to_string(size >> 20) + " MB is more than a bundle may hold (" +
+                std::to_string(kMaxBundleBytes >> 20) + " MB)");
+  SignedFile f;
   {
-    auto s = db.prepare("SELECT device_id, max_sequence FROM holding ORDER BY device_id");
-    if (!s) return s.problem();
-    while (s->step()) {
-      d.field(s->text(0));
-      d.field(s->integer(1));
-    }
-    if (s->failed()) return make_problem(s->error());
+    std::ifstream in(path, std::ios::binary);
+    if (!in) return fail("cannot be read");
+    f.bytes.resize(static_cast<size_t>(size));
+    in.read(f.bytes.data(), static_cast<std::streamsize>(size));
+    if (static_cast<std::uintmax_t>(in.gcount()) != size) return fail("cannot be read whole (it changed while read?)");
   }
-  {
-    auto s = db.prepare("SELECT device_id, sequence, plot_label, trait_code, occasion, value, number, missing_reason, "
-                        "note, observer, recorded_at, confirmed_checks FROM observation ORDER BY device_id, sequence");
-    if (!s) return s.problem();
-    while (s->step()) {
-      digest_row(d, read_row(*s));
-      ++*rows;
-    }
-    if (s->failed()) return make_problem(s->error());
-  }
-  {
-    auto s = db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement "
-                        "ORDER BY device_id, sequence, replaced_device_id, replaced_sequence");
-    if (!s) return s.problem();
-    while (s->step()) {
-      digest_link(d, {s->text(0), s->integer(1), s->text(2), s->integer(3)});
-      ++*links;
-    }
-    if (s->failed()) return make_problem(s->error());
-  }
-  return d.hex();
+  if (f.bytes.compare(0, 16, std::string("SQLite format 3\0", 16)) == 0)
+    return fail("not a signed Furrow bundle (an SQLite file: a bundle of an older Furrow, or another program's "
+                "file); bundles are signed since version 3: write it again with this Furrow");
+  if (f.bytes.size() < kImageAt + 100 || f.bytes.compare(0, kKeyAt, kMagic) != 0)
+    return fail("not a Furrow bundle");
+  std::uint64_t length = 0;
+  for (int i = 7; i >= 0; --i) length = (length << 8) | static_cast<unsigned char>(f.bytes[kLengthAt + i]);
+  if (length != f.bytes.size() - kImageAt)
+    return fail("truncated or extended: it says it holds " + std::to_string(length) + " bytes of data, it holds " +
+                std::to_string(f.bytes.size() - kImageAt));
+  f.signer_key = f.bytes.substr(kKeyAt, kPublicKeyBytes);
+  const std::string_view all(f.bytes);
+  if (!verify_parts(f.signer_key, all.substr(kSignatureAt, kSignatureBytes),
+                    {all.substr(0, kSignatureAt), all.substr(kLengthAt)}))
+    return fail("refused: its signature does not match its content (altered or damaged since it was signed)");
+  f.file_hash = hash_hex(all);
+  return f;
 }
 
-// An open bundle whose format, integrity and checksum have been checked.
+// The file a bundle's image becomes: signed by `key`.
+std::string seal(std::string_view image, const KeyPair& key) {
+  std::string head(kImageAt, '\0');
+  std::memcpy(head.data(), kMagic, kKeyAt);
+  std::memcpy(head.data() + kKeyAt, key.public_key.data(), kPublicKeyBytes);
+  std::uint64_t length = image.size();
+  for (size_t i = 0; i < 8; ++i) head[kLengthAt + i] = static_cast<char>((length >> (8 * i)) & 0xFF);
+  const std::string_view h(head);
+  const std::string signature = sign_parts(key.secret_key, {h.substr(0, kSignatureAt), h.substr(kLengthAt), image});
+  std::memcpy(head.data() + kSignatureAt, signature.data(), kSignatureBytes);
+  std::string out;
+  out.reserve(head.size() + image.size());
+  out += head;
+  out += image;
+  return out;
+}
+
+// An open bundle whose format and integrity have been checked.
 struct OpenBundle {
   Database db;
   BundleManifest manifest;
   std::map<std::string, std::int64_t> holding;
 };
 
-Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
+Result<OpenBundle> open_bundle(const std::string& path, const SignedFile& file) {
   const auto fail = [&](const std::string& why) { return make_problem(path + ": " + why); };
-  {
-    std::ifstream in(path, std::ios::binary);
-    if (!in) return fail("cannot be read (no such file?)");
-    char head[16] = {};
-    in.read(head, 16);
-    if (in.gcount() < 16 || std::memcmp(head, "SQLite format 3", 16) != 0)
-      return fail("not a Furrow bundle (not an SQLite file)");
-  }
-  auto db = Database::open_read_only(path);
-  if (!db) return fail(db.problem().message);
+  auto db = Database::open_untrusted_image(std::string(file.image()));
+  if (!db) return fail("damaged or not a bundle: " + db.problem().message);
   OpenBundle b{std::move(db).value(), {}, {}};
   {
     auto s = b.db.prepare("PRAGMA application_id");
@@ -314,6 +302,7 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
   if (m["version"] != kVersion) return fail("bundle version " + m["version"] + " is not one this Furrow reads");
   for (const char* k : kManifestKeys)
     if (!m.count(k)) return fail(std::string("the manifest has no '") + k + "'");
+  if (m.size() != std::size(kManifestKeys)) return fail("refused: its manifest holds entries a bundle does not have");
   BundleManifest& man = b.manifest;
   man.trial_uid = m["trial_uid"];
   man.trial_name = m["trial_name"];
@@ -321,7 +310,8 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
   man.maker_device_id = m["maker_device_id"];
   man.maker_role = m["maker_role"];
   man.created_at = m["created_at"];
-  man.checksum = m["checksum"];
+  man.file_hash = file.file_hash;
+  man.signer_key = file.signer_key;
   for (const char* key : {"observations", "replacements"}) {
     const std::string& v = m[key];
     if (v.empty() || v.size() > 12 || v.find_first_not_of("0123456789") != std::string::npos)
@@ -333,20 +323,19 @@ Result<OpenBundle> open_bundle(const std::string& path, bool verify_rows) {
     auto s = b.db.prepare("SELECT device_id, max_sequence FROM holding ORDER BY device_id");
     if (!s) return fail("damaged or truncated: " + s.problem().message);
     while (s->step()) b.holding[s->text(0)] = s->integer(1);
+    if (s->failed()) return fail("damaged or truncated: " + s->error());
   }
-  if (!verify_rows) return b;
-  std::int64_t rows = 0, links = 0;
-  auto digest = content_digest(b.db, m, &rows, &links);
-  if (!digest) return fail("damaged or truncated: " + digest.problem().message);
-  if (rows != man.observations || links != man.replacements)
-    return fail("holds " + std::to_string(rows) + " observations and " + std::to_string(links) +
-                " links but its manifest says " + std::to_string(man.observations) + " and " +
-                std::to_string(man.replacements) + " (truncated or altered)");
-  if (*digest != man.checksum) return fail("the checksum does not match its content (the file was damaged or altered)");
   return b;
 }
 
-
+// The counts a manifest gives must be what the file holds.
+Status check_counts(const BundleManifest& m, std::int64_t rows, std::int64_t links) {
+  if (rows != m.observations || links != m.replacements)
+    return make_problem("holds " + std::to_string(rows) + " observations and " + std::to_string(links) +
+                        " links but its manifest says " + std::to_string(m.observations) + " and " +
+                        std::to_string(m.replacements) + " (truncated or altered)");
+  return ok_status();
+}
 
 }  // namespace
 
@@ -422,6 +411,9 @@ Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, cons
   auto held = holdings(db);
   if (!held) return held.problem();
 
+  auto key = own_key(db);
+  if (!key) return make_problem(out_path + ": cannot sign the bundle: " + key.problem().message);
+
   BundleManifest m;
   m.trial_uid = trial.uid;
   m.trial_name = trial.plan.name;
@@ -431,26 +423,12 @@ Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, cons
   m.created_at = utc_now();
   m.observations = static_cast<std::int64_t>(rows.size());
   m.replacements = static_cast<std::int64_t>(links.size());
-  Digest d;
+  m.signer_key = key->public_key;
   const auto fields = manifest_fields(m);
-  for (const auto& [k, v] : fields) {
-    d.field(k);
-    d.field(v);
-  }
-  for (const auto& [dev, n] : *held) {
-    d.field(dev);
-    d.field(n);
-  }
-  for (const Row& r : rows) digest_row(d, r);
-  for (const Link& l : links) digest_link(d, l);
-  m.checksum = d.hex();
 
-  const std::string part = out_path + ".part";
-  std::error_code ec;
-  std::filesystem::remove(part, ec);
-  Status written = [&]() -> Status {
-    auto b = Database::create_standalone(part);
-    if (!b) return b.problem();
+  auto b = Database::create_in_memory();
+  if (!b) return make_problem(out_path + ": " + b.problem().message);
+  Status built = [&]() -> Status {
     FURROW_TRY(b->exec("PRAGMA application_id = " + std::to_string(kBundleApplicationId)));
     FURROW_TRY(b->exec(kBundleSchema));
     return in_transaction(*b, [&]() -> Status {
@@ -461,9 +439,6 @@ Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, cons
         ms->bind(1, k).bind(2, v);
         FURROW_TRY(ms->run());
       }
-      ms->reset();
-      ms->bind(1, "checksum").bind(2, m.checksum);
-      FURROW_TRY(ms->run());
       auto hs = b->prepare("INSERT INTO holding (device_id, max_sequence) VALUES (?, ?)");
       if (!hs) return hs.problem();
       for (const auto& [dev, n] : *held) {
@@ -490,18 +465,24 @@ Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, cons
       return ok_status();
     });
   }();
-  if (!written) {
-    std::filesystem::remove(part, ec);
-    return make_problem(out_path + ": " + written.problem().message);
-  }
-  std::filesystem::rename(part, out_path, ec);
-  if (ec) return make_problem(out_path + ": cannot write: " + ec.message());
+  if (!built) return make_problem(out_path + ": " + built.problem().message);
+  auto image = b->image();
+  if (!image) return make_problem(out_path + ": " + image.problem().message);
+  const std::string file = seal(*image, *key);
+  m.file_hash = hash_hex(file);
+  if (auto w = write_text_file(out_path, file); !w) return w.problem();
   return m;
 }
 
 Result<BundleManifest> read_bundle_manifest(const std::string& path) {
-  auto b = open_bundle(path, true);
+  auto file = read_signed_file(path);
+  if (!file) return file.problem();
+  auto b = open_bundle(path, *file);
   if (!b) return b.problem();
+  auto n = b->db.prepare("SELECT (SELECT count(*) FROM observation), (SELECT count(*) FROM replacement)");
+  if (!n || !n->step()) return make_problem(path + ": damaged or truncated");
+  if (auto c = check_counts(b->manifest, n->integer(0), n->integer(1)); !c)
+    return make_problem(path + ": " + c.problem().message);
   return b->manifest;
 }
 
@@ -511,6 +492,14 @@ const std::string kGapWords = "(its sequences have a gap: merge its earlier bund
 
 // Lengths a row's free text may have (ours; far above what a crew types).
 constexpr size_t kMaxNoteBytes = 2000, kMaxNameBytes = 200, kMaxReasonBytes = 200;
+
+// What the station says when two files share a device id.
+std::string clone_words(const std::string& device_id, const std::string& label) {
+  return "two tablets hold copies of one device's trial file (device " + device_id + ", " + label +
+         "), and each has recorded its own rows. Nothing was merged. Give the copy that made this bundle a new "
+         "identity: furrow device renew --station THIS_TRIAL --db THAT_COPY (none of its rows is lost), then merge "
+         "its new bundle";
+}
 
 bool is_device_id(const std::string& s) {
   if (s.size() != 16) return false;
@@ -532,7 +521,7 @@ bool is_utc_time(const std::string& s) {
 // Every row of a bundle is checked as an entry is, and against who may
 // write it (rules in bundle.h). Returns why the first bad row is refused.
 Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, const BundleManifest& m,
-                  const StoredTrial& trial, Database& db) {
+                  const StoredTrial& trial, const Enrolment& signer, Database& db) {
   std::map<std::string, const Trait*> traits;
   for (const Trait& t : trial.plan.traits) traits[t.code] = &t;
   std::set<std::string> plots;
@@ -551,7 +540,11 @@ Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, 
     const std::string where = "row " + r.device_id + "/" + std::to_string(r.sequence);
     if (!is_device_id(r.device_id)) return make_problem(where + ": the device id is not one Furrow makes");
     if (r.sequence < 1) return make_problem(where + ": sequences start at 1");
-    if (at_station && r.device_id != m.maker_device_id)
+    // (A renewed device's bundle may carry its old id's rows it replaces,
+    // those the station held when it was renewed; they must come back identical.)
+    const bool predecessor = !signer.succeeds_device_id.empty() && r.device_id == signer.succeeds_device_id &&
+                             r.sequence <= signer.succeeds_up_to;
+    if (at_station && r.device_id != m.maker_device_id && !predecessor)
       return make_problem(where + ": a row of another device (a device's bundle carries its own rows only)");
     if (r.device_id == m.maker_device_id) maker_sequences.push_back(r.sequence);
     by_key[{r.device_id, r.sequence}] = &r;
@@ -584,12 +577,16 @@ Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, 
     if (!is_utc_time(r.recorded_at)) return make_problem(where + ": the time '" + r.recorded_at + "' is not a UTC time");
     if (r.confirmed_checks.size() > kMaxNameBytes) return make_problem(where + ": its confirmed checks are too long");
   }
-  // Authority: a device's rows replace only that device's rows; only the
-  // station's rows (settlements) replace another device's.
+  // Authority: a device's rows replace only that device's rows (and a
+  // renewed device's, its old id's rows the station held when it was
+  // renewed); only the station's rows (settlements) replace another
+  // device's. At a device, its station's signed bundle is the authority.
   for (const Link& l : links) {
     const std::string where = "row " + l.device_id + "/" + std::to_string(l.sequence);
     if (!by_key.count({l.device_id, l.sequence})) return make_problem(where + ": a link from a row the bundle does not carry");
-    if (l.device_id != l.replaced_device_id && (at_station || l.device_id != m.maker_device_id))
+    const bool succession = !signer.succeeds_device_id.empty() && l.replaced_device_id == signer.succeeds_device_id &&
+                            l.replaced_sequence >= 1 && l.replaced_sequence <= signer.succeeds_up_to;
+    if (at_station && l.device_id != l.replaced_device_id && !succession)
       return make_problem(where + " replaces row " + l.replaced_device_id + "/" + std::to_string(l.replaced_sequence) +
                           " of another device; only the station settles between devices");
     if (l.device_id == l.replaced_device_id && l.replaced_sequence >= l.sequence)
@@ -623,9 +620,43 @@ Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, 
 bool waits_for_earlier_bundle(const Problem& p) { return p.message.find(kGapWords) != std::string::npos; }
 
 Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const std::string& path) {
-  // Every bundle is checked whole, even one merged before: a file altered
-  // since then is refused, not waved through by its old manifest.
-  auto b = open_bundle(path, true);
+  // Every bundle is checked whole, even one merged before: its signature
+  // first (one byte changed anywhere and it is refused), then who signed it.
+  auto file = read_signed_file(path);
+  if (!file) return file.problem();
+  const auto refuse = [&](const std::string& why) { return make_problem(path + ": refused: " + why); };
+  auto who = enrolment_by_key(db, file->signer_key);
+  if (!who) return make_problem(path + ": " + who.problem().message);
+  const std::string fingerprint = key_fingerprint(file->signer_key);
+  const bool at_station = trial.role == "station";
+  if (at_station) {
+    if (!*who)
+      return refuse("it is signed with a key this station has not enrolled (key " + fingerprint +
+                    "); the station takes bundles only from the device copies it made (furrow trial copy) or enrolled "
+                    "(furrow device enrol)");
+    if ((*who)->role == "station")
+      return refuse("it is signed with this station's own key; a station takes bundles from its devices only");
+    if ((*who)->revoked())
+      return refuse("device " + (*who)->device_id + " (" + (*who)->label + ") was revoked on " +
+                    *(*who)->revoked_at + " by " + (*who)->revoked_by.value_or("?") +
+                    "; its bundles are refused (the rows merged before stay, marked)");
+  } else if (!*who || (*who)->role != "station") {
+    return refuse("it is not signed by this trial's station (key " + fingerprint +
+                  "); a device takes bundles from its own station only");
+  }
+  const Enrolment& signer = **who;
+  {
+    // Merged before (the very same bytes): nothing new, and nothing to write.
+    auto s = db.prepare("SELECT 1 FROM merged_bundle WHERE checksum = ?");
+    if (!s) return s.problem();
+    s->bind(1, file->file_hash);
+    if (s->step()) {
+      auto b = open_bundle(path, *file);
+      if (!b) return b.problem();
+      return MergeOutcome{b->manifest, 0, 0};
+    }
+  }
+  auto b = open_bundle(path, *file);
   if (!b) return b.problem();
   const BundleManifest& m = b->manifest;
   if (m.trial_uid != trial.uid)
@@ -634,13 +665,9 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
   if (m.plan_hash != plan_hash(trial))
     return make_problem(path + ": made with a different plan of '" + m.trial_name +
                         "' (plan hash " + m.plan_hash.substr(0, 12) + " here " + plan_hash(trial).substr(0, 12) + ")");
-  {
-    // Merged before (same checksum): nothing new, and nothing to write.
-    auto s = db.prepare("SELECT 1 FROM merged_bundle WHERE checksum = ?");
-    if (!s) return s.problem();
-    s->bind(1, m.checksum);
-    if (s->step()) return MergeOutcome{m, 0, 0};
-  }
+  if (m.maker_device_id != signer.device_id)
+    return refuse("it says it was made by " + m.maker_device_id + " but is signed with the key of " +
+                  signer.device_id + " (" + signer.label + ")");
   std::map<std::string, std::int64_t> plot_id, trait_id;
   for (size_t i = 0; i < trial.layout.plots.size(); ++i) plot_id[trial.layout.plots[i].label] = trial.plot_ids[i];
   for (size_t k = 0; k < trial.plan.traits.size(); ++k) trait_id[trial.plan.traits[k].code] = trial.trait_ids[k];
@@ -659,7 +686,9 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
     if (!ls) return make_problem(path + ": " + ls.problem().message);
     while (ls->step()) links.push_back({ls->text(0), ls->integer(1), ls->text(2), ls->integer(3)});
     if (ls->failed()) return make_problem(path + ": " + ls->error());
-    if (auto c = check_rows(rows, links, m, trial, db); !c) return make_problem(path + ": refused: " + c.problem().message);
+    if (auto c = check_counts(m, static_cast<std::int64_t>(rows.size()), static_cast<std::int64_t>(links.size())); !c)
+      return make_problem(path + ": " + c.problem().message);
+    if (auto c = check_rows(rows, links, m, trial, signer, db); !c) return refuse(c.problem().message);
   }
   MergeOutcome out{m, 0, 0};
   Status merged = in_transaction(db, [&]() -> Status {
@@ -690,8 +719,12 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
       held->reset();
       held->bind(1, r.device_id).bind(2, r.sequence);
       if (!held->step() || !(read_row(*held) == r))
-        return make_problem(path + ": row " + r.device_id + "/" + std::to_string(r.sequence) +
-                            " differs from the row of that key this database holds; the two logs disagree");
+        return make_problem(path + ": refused: row " + r.device_id + "/" + std::to_string(r.sequence) +
+                            " differs from the row of that key this file holds: " +
+                            (at_station ? clone_words(r.device_id, signer.label)
+                                        : "another copy of this trial file is recording as this device (" +
+                                              r.device_id + "); the station manager gives one copy a new identity "
+                                              "(furrow device renew), then no row is lost"));
     }
     auto link = db.prepare("INSERT INTO replacement (device_id, sequence, replaced_device_id, replaced_sequence) "
                            "VALUES (?,?,?,?) ON CONFLICT DO NOTHING");
@@ -716,7 +749,7 @@ Result<MergeOutcome> merge_bundle(Database& db, const StoredTrial& trial, const 
     }
     auto note = db.prepare("INSERT INTO merged_bundle VALUES (?,?,?,?,?) ON CONFLICT DO NOTHING");
     if (!note) return note.problem();
-    note->bind(1, m.checksum).bind(2, m.maker_device_id).bind(3, utc_now()).bind(4, out.observations_added)
+    note->bind(1, m.file_hash).bind(2, m.maker_device_id).bind(3, utc_now()).bind(4, out.observations_added)
         .bind(5, out.replacements_added);
     return note->run();
   });
@@ -749,61 +782,258 @@ Result<std::string> canonical_log(Database& db) {
   return out;
 }
 
-Status copy_trial_for_device(const std::string& station_path, const std::string& device_path) {
+namespace {
+
+void remove_trial_file(const std::string& path) {
+  std::error_code ec;
+  for (const char* suffix : {"", "-wal", "-shm", "-journal"}) std::filesystem::remove(path + suffix, ec);
+}
+
+// The station's enrolment as a device's copy holds it.
+Result<Enrolment> station_enrolment(OpenTrial& station, const DeviceEnrolment& who) {
+  if (station.trial.role != "station")
+    return make_problem("this file is a device's copy, not a station's trial; copies are made from the station's file");
+  auto key = own_key(station.db);
+  if (!key) return key.problem();
+  Enrolment e;
+  e.device_id = station.trial.device_id;
+  e.role = "station";
+  e.public_key = key->public_key;
+  e.label = "Station";
+  e.enrolled_by = who.by;
+  e.enrolled_at = utc_now();
+  return e;
+}
+
+Status check_enrolment_request(const DeviceEnrolment& who) {
+  if (who.by.empty() || who.by.size() > 200) return make_problem("say who enrols the device (a name of at most 200 bytes)");
+  if (who.label.size() > 200) return make_problem("the device's label is longer than 200 bytes");
+  return ok_status();
+}
+
+// A new device copy at `device_path` of the station's trial, enrolled at the
+// station (as the successor of `succeeds` up to `up_to`, when given).
+Result<std::string> make_device_copy(OpenTrial& station, const std::string& station_path,
+                                     const std::string& device_path, const DeviceEnrolment& who,
+                                     const std::string& succeeds, std::int64_t up_to) {
+  FURROW_TRY(check_enrolment_request(who));
   if (std::filesystem::exists(device_path)) return make_problem(device_path + " already exists; choose a new file name");
-  auto station = open_trial_database(station_path);
-  if (!station) return station.problem();
+  auto station_entry = station_enrolment(station, who);
+  if (!station_entry) return make_problem(station_path + ": " + station_entry.problem().message);
   const std::string temp = device_path + ".station-bundle";
-  auto made = write_bundle(station->db, station->trial, temp, true);
+  auto made = write_bundle(station.db, station.trial, temp, true);
   if (!made) return made.problem();
+  std::string device_id;
   Status result = [&]() -> Status {
-    FURROW_TRY(create_trial_database(device_path, station->trial.plan, station->trial.layout,
-                                     TrialIdentity{station->trial.uid, "device"}));
+    FURROW_TRY(create_trial_database(device_path, station.trial.plan, station.trial.layout,
+                                     TrialIdentity{station.trial.uid, "device"}));
     auto device = open_trial_database(device_path);
     if (!device) return device.problem();
+    device_id = device->trial.device_id;
+    auto key = own_key(device->db);
+    if (!key) return make_problem(device_path + ": " + key.problem().message);
+    FURROW_TRY(add_enrolment(device->db, *station_entry));
     auto merged = merge_bundle(device->db, device->trial, temp);
     if (!merged) return merged.problem();
+    Enrolment e;
+    e.device_id = device_id;
+    e.public_key = key->public_key;
+    e.label = who.label.empty() ? std::filesystem::path(device_path).stem().string() : who.label;
+    e.enrolled_by = who.by;
+    e.enrolled_at = utc_now();
+    e.succeeds_device_id = succeeds;
+    e.succeeds_up_to = up_to;
+    if (auto s = add_enrolment(station.db, e); !s) return make_problem(station_path + ": " + s.problem().message);
     return ok_status();
   }();
   std::error_code ec;
   std::filesystem::remove(temp, ec);
-  if (!result)
-    for (const char* suffix : {"", "-wal", "-shm"}) std::filesystem::remove(device_path + suffix, ec);
-  return result;
+  if (!result) {
+    remove_trial_file(device_path);
+    return result.problem();
+  }
+  return device_id;
 }
 
-}  // namespace furrow
+}  // namespace
 
-namespace furrow {
+Status copy_trial_for_device(const std::string& station_path, const std::string& device_path,
+                             const DeviceEnrolment& who) {
+  if (std::filesystem::exists(device_path)) return make_problem(device_path + " already exists; choose a new file name");
+  auto station = open_trial_database(station_path);
+  if (!station) return station.problem();
+  auto made = make_device_copy(*station, station_path, device_path, who, "", 0);
+  if (!made) return made.problem();
+  return ok_status();
+}
 
-Status reseal_bundle(const std::string& path) {
-  auto db = Database::create_standalone(path);
-  if (!db) return db.problem();
-  std::map<std::string, std::string> m;
+Status enrol_existing_device(const std::string& station_path, const std::string& device_path,
+                             const DeviceEnrolment& who) {
+  FURROW_TRY(check_enrolment_request(who));
+  auto station = open_trial_database(station_path);
+  if (!station) return station.problem();
+  auto device = open_trial_database(device_path);
+  if (!device) return device.problem();
+  if (device->trial.role != "device") return make_problem(device_path + " is a station's trial, not a device's copy");
+  if (device->trial.uid != station->trial.uid)
+    return make_problem(device_path + " is a copy of '" + device->trial.plan.name + "' (" + device->trial.uid +
+                        "), not of this station's trial '" + station->trial.plan.name + "'");
+  if (plan_hash(device->trial) != plan_hash(station->trial))
+    return make_problem(device_path + " holds a different plan of '" + station->trial.plan.name + "'");
+  auto station_entry = station_enrolment(*station, who);
+  if (!station_entry) return make_problem(station_path + ": " + station_entry.problem().message);
+  auto known_station = enrolment_of(device->db, station_entry->device_id);
+  if (!known_station) return known_station.problem();
+  if (*known_station && (*known_station)->public_key != station_entry->public_key)
+    return make_problem(device_path + " knows another key for its station; it cannot be enrolled here");
+  auto key = own_key(device->db);
+  if (!key) return make_problem(device_path + ": " + key.problem().message);
+  auto known_device = enrolment_of(station->db, device->trial.device_id);
+  if (!known_device) return known_device.problem();
+  if (*known_device) {
+    if ((*known_device)->public_key == key->public_key && *known_station)
+      return make_problem(device_path + ": device " + device->trial.device_id + " is enrolled already");
+    if ((*known_device)->public_key != key->public_key)
+      return make_problem(device_path + ": the station enrolled device " + device->trial.device_id +
+                          " with another key (a copied file?); give this copy a new identity with furrow device renew");
+  }
+  if (!*known_station) FURROW_TRY(add_enrolment(device->db, *station_entry));
+  if (!*known_device) {
+    Enrolment e;
+    e.device_id = device->trial.device_id;
+    e.public_key = key->public_key;
+    e.label = who.label.empty() ? std::filesystem::path(device_path).stem().string() : who.label;
+    e.enrolled_by = who.by;
+    e.enrolled_at = utc_now();
+    if (auto s = add_enrolment(station->db, e); !s) return make_problem(station_path + ": " + s.problem().message);
+  }
+  return ok_status();
+}
+
+Result<RenewOutcome> renew_device_identity(const std::string& station_path, const std::string& device_path,
+                                           const DeviceEnrolment& who) {
+  FURROW_TRY(check_enrolment_request(who));
+  auto station = open_trial_database(station_path);
+  if (!station) return station.problem();
+  RenewOutcome out;
+  std::vector<Row> own;
+  std::vector<Link> own_links;
+  WalkChoice walk;
   {
-    auto s = db->prepare("SELECT key, value FROM manifest");
-    if (!s) return s.problem();
-    while (s->step()) m[s->text(0)] = s->text(1);
+    auto device = open_trial_database(device_path);
+    if (!device) return device.problem();
+    if (device->trial.role != "device") return make_problem(device_path + " is a station's trial, not a device's copy");
+    if (device->trial.uid != station->trial.uid)
+      return make_problem(device_path + " is a copy of '" + device->trial.plan.name + "', not of this station's trial '" +
+                          station->trial.plan.name + "'");
+    out.old_device_id = device->trial.device_id;
+    auto rows = device->db.prepare(std::string("SELECT ") + kRowColumns +
+                                   " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
+                                   "WHERE o.device_id = ? ORDER BY o.sequence");
+    if (!rows) return rows.problem();
+    rows->bind(1, out.old_device_id);
+    while (rows->step()) own.push_back(read_row(*rows));
+    if (rows->failed()) return make_problem(device_path + ": " + rows->error());
+    auto links = device->db.prepare("SELECT device_id, sequence, replaced_device_id, replaced_sequence FROM replacement "
+                                    "WHERE device_id = ? ORDER BY sequence");
+    if (!links) return links.problem();
+    links->bind(1, out.old_device_id);
+    while (links->step()) own_links.push_back({links->text(0), links->integer(1), links->text(2), links->integer(3)});
+    auto w = load_walk_choice(device->db);
+    if (w) walk = *w;
   }
-  std::int64_t rows = 0, links = 0;
-  auto counted = content_digest(*db, m, &rows, &links);
-  if (!counted) return counted.problem();
-  // The counts as the file now holds them, then the checksum over it all.
-  for (auto [key, n] : {std::pair{"observations", rows}, std::pair{"replacements", links}}) {
-    if (m[key].find_first_not_of("0123456789") != std::string::npos) continue;   // keep a forged count's text
-    m[key] = std::to_string(n);
-    auto c = db->prepare("UPDATE manifest SET value = ? WHERE key = ?");
-    if (!c) return c.problem();
-    c->bind(1, m[key]).bind(2, key);
-    FURROW_TRY(c->run());
+  // The old id's rows the station holds, identical, from the first on: they
+  // stay the old id's. Every later row becomes the new id's, in order.
+  {
+    auto held = station->db.prepare(std::string("SELECT ") + kRowColumns +
+                                    " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
+                                    "WHERE o.device_id = ? AND o.sequence = ?");
+    if (!held) return held.problem();
+    for (const Row& r : own) {
+      held->reset();
+      held->bind(1, r.device_id).bind(2, r.sequence);
+      if (r.sequence != out.kept_under_old_id + 1 || !held->step() || !(read_row(*held) == r)) break;
+      ++out.kept_under_old_id;
+    }
   }
-  rows = links = 0;
-  auto digest = content_digest(*db, m, &rows, &links);
-  if (!digest) return digest.problem();
-  auto u = db->prepare("UPDATE manifest SET value = ? WHERE key = 'checksum'");
-  if (!u) return u.problem();
-  u->bind(1, *digest);
-  return u->run();
+  const std::int64_t k = out.kept_under_old_id;
+  const std::string temp = device_path + ".renewing";
+  remove_trial_file(temp);
+  auto made = make_device_copy(*station, station_path, temp, who, out.old_device_id, k);
+  if (!made) return made.problem();
+  out.new_device_id = *made;
+  Status moved = [&]() -> Status {
+    auto fresh = open_trial_database(temp);
+    if (!fresh) return fresh.problem();
+    std::map<std::string, std::int64_t> plot_id, trait_id;
+    for (size_t i = 0; i < fresh->trial.layout.plots.size(); ++i)
+      plot_id[fresh->trial.layout.plots[i].label] = fresh->trial.plot_ids[i];
+    for (size_t t = 0; t < fresh->trial.plan.traits.size(); ++t)
+      trait_id[fresh->trial.plan.traits[t].code] = fresh->trial.trait_ids[t];
+    FURROW_TRY(in_transaction(fresh->db, [&]() -> Status {
+      auto insert = fresh->db.prepare("INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, "
+                                      "number, missing_reason, note, observer, recorded_at, confirmed_checks) "
+                                      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?)");
+      if (!insert) return insert.problem();
+      for (const Row& r : own) {
+        if (r.sequence <= k) continue;
+        insert->reset();
+        insert->bind(1, out.new_device_id).bind(2, r.sequence - k).bind(3, plot_id.at(r.plot_label))
+            .bind(4, trait_id.at(r.trait_code)).bind(5, r.occasion).bind(6, r.value).bind(7, r.number)
+            .bind(8, r.missing_reason).bind(9, r.note).bind(10, r.observer).bind(11, r.recorded_at)
+            .bind(12, r.confirmed_checks);
+        FURROW_TRY(insert->run());
+        ++out.rows_moved;
+      }
+      auto link = fresh->db.prepare("INSERT INTO replacement (device_id, sequence, replaced_device_id, replaced_sequence) "
+                                    "VALUES (?,?,?,?)");
+      if (!link) return link.problem();
+      for (const Link& l : own_links) {
+        if (l.sequence <= k) continue;
+        const bool moved_too = l.replaced_device_id == out.old_device_id && l.replaced_sequence > k;
+        link->reset();
+        link->bind(1, out.new_device_id).bind(2, l.sequence - k)
+            .bind(3, moved_too ? out.new_device_id : l.replaced_device_id)
+            .bind(4, moved_too ? l.replaced_sequence - k : l.replaced_sequence);
+        FURROW_TRY(link->run());
+      }
+      return ok_status();
+    }));
+    if (!walk.trait_codes.empty()) FURROW_TRY(save_walk_choice(fresh->db, walk));
+    return ok_status();
+  }();
+  if (!moved) {
+    remove_trial_file(temp);
+    return make_problem(device_path + ": the new identity could not be made (" + moved.problem().message +
+                        "); the copy is unchanged");
+  }
+  // The old file is kept beside the new one, never deleted.
+  out.kept_file = device_path + ".before-renewal-" + utc_now().substr(0, 10);
+  for (int n = 2; std::filesystem::exists(out.kept_file); ++n)
+    out.kept_file = device_path + ".before-renewal-" + utc_now().substr(0, 10) + "-" + std::to_string(n);
+  std::error_code ec;
+  std::filesystem::rename(device_path, out.kept_file, ec);
+  if (ec) return make_problem(device_path + ": cannot set the old file aside: " + ec.message());
+  std::filesystem::rename(temp, device_path, ec);
+  if (ec) return make_problem(device_path + ": the renewed copy is " + temp + " (cannot rename it: " + ec.message() + ")");
+  return out;
+}
+
+Status unpack_bundle(const std::string& bundle_path, const std::string& image_path) {
+  auto file = read_signed_file(bundle_path);
+  if (!file) return file.problem();
+  return write_text_file(image_path, std::string(file->image()));
+}
+
+Status seal_bundle(const std::string& image_path, const std::string& signer_trial_path, const std::string& bundle_path) {
+  auto signer = open_trial_database(signer_trial_path);
+  if (!signer) return signer.problem();
+  auto key = own_key(signer->db);
+  if (!key) return make_problem(signer_trial_path + ": " + key.problem().message);
+  std::ifstream in(image_path, std::ios::binary);
+  if (!in) return make_problem(image_path + ": cannot be read");
+  const std::string image((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  return write_text_file(bundle_path, seal(image, *key));
 }
 
 }  // namespace furrow

@@ -23,6 +23,7 @@
 //                                               optional ready layout (then no randomisation);
 //                                               SITE only in several-sites plans
 
+#include <set>
 #include <string>
 
 #include "core/trial_plan.h"
@@ -52,7 +53,9 @@ std::string layout_csv(const StoredTrial& trial);
 // Data as a long table (one line per log row that is live) or a wide table
 // (one line per plot, one column per trait and occasion; conflicts shown as
 // "CONFLICT", missing values as empty with the reason in a _reason column).
-std::string long_data_csv(const StoredTrial& trial, const std::vector<LiveObservation>& live);
+// `revoked_devices`: rows of those devices are marked in the device_revoked column.
+std::string long_data_csv(const StoredTrial& trial, const std::vector<LiveObservation>& live,
+                          const std::set<std::string>& revoked_devices = {});
 std::string wide_data_csv(const StoredTrial& trial, const std::vector<LiveObservation>& live);
 
 // Quotes a CSV field when it needs it.

@@ -4,6 +4,7 @@
 #include <sqlite3.h>
 
 #include <cstdio>
+#include <cstring>
 
 namespace furrow {
 
@@ -74,6 +75,15 @@ std::string Statement::text(int col) const {
   return p ? std::string(reinterpret_cast<const char*>(p), static_cast<size_t>(sqlite3_column_bytes(stmt_, col)))
            : std::string();
 }
+std::string Statement::blob(int col) const {
+  const void* p = sqlite3_column_blob(stmt_, col);
+  return p ? std::string(static_cast<const char*>(p), static_cast<size_t>(sqlite3_column_bytes(stmt_, col)))
+           : std::string();
+}
+Statement& Statement::bind_blob(int i, const std::string& v) {
+  sqlite3_bind_blob(stmt_, i, v.data(), static_cast<int>(v.size()), SQLITE_TRANSIENT);
+  return *this;
+}
 bool Statement::is_null(int col) const { return sqlite3_column_type(stmt_, col) == SQLITE_NULL; }
 std::optional<std::string> Statement::optional_text(int col) const {
   if (is_null(col)) return std::nullopt;
@@ -114,6 +124,38 @@ Result<Database> Database::open(const std::string& path, bool create) {
   return d;
 }
 
+namespace {
+
+// The hardening of a connection to an untrusted database (SQLite's "Defense
+// against the dark arts" advice): no functions or virtual tables run from
+// its schema, no writes to the schema even by accident, corrupt cells caught
+// on read, bounded strings and queries, and no query that runs without end
+// (a recursive view, say) - the progress handler stops any statement after
+// kUntrustedStepLimit virtual-machine steps.
+void harden(sqlite3* db, std::int64_t* steps) {
+  sqlite3_db_config(db, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
+  sqlite3_db_config(db, SQLITE_DBCONFIG_TRUSTED_SCHEMA, 0, nullptr);
+  sqlite3_db_config(db, SQLITE_DBCONFIG_ENABLE_TRIGGER, 0, nullptr);
+  sqlite3_db_config(db, SQLITE_DBCONFIG_ENABLE_VIEW, 0, nullptr);
+  sqlite3_limit(db, SQLITE_LIMIT_LENGTH, kUntrustedMaxBytes);
+  sqlite3_limit(db, SQLITE_LIMIT_SQL_LENGTH, 100000);
+  sqlite3_limit(db, SQLITE_LIMIT_COLUMN, 100);
+  sqlite3_limit(db, SQLITE_LIMIT_EXPR_DEPTH, 100);
+  sqlite3_limit(db, SQLITE_LIMIT_COMPOUND_SELECT, 3);
+  sqlite3_limit(db, SQLITE_LIMIT_ATTACHED, 0);
+  sqlite3_limit(db, SQLITE_LIMIT_TRIGGER_DEPTH, 1);
+  sqlite3_progress_handler(
+      db, 100000,
+      [](void* p) -> int {
+        auto* count = static_cast<std::int64_t*>(p);
+        *count += 100000;
+        return *count > kUntrustedStepLimit ? 1 : 0;
+      },
+      steps);
+}
+
+}  // namespace
+
 Result<Database> Database::open_read_only(const std::string& path) {
   Database d;
   // Percent-encode what a URI path cannot hold as it is.
@@ -132,35 +174,60 @@ Result<Database> Database::open_read_only(const std::string& path) {
     std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
     return make_problem("cannot open " + path + ": " + msg);
   }
-  // The file comes from a device we do not control (SQLite's "Defense
-  // against the dark arts" advice): no functions or virtual tables run from
-  // its schema, no writes to the schema even by accident, corrupt cells
-  // caught on read, bounded strings and queries, and no query that runs
-  // without end (a recursive view, say) - the progress handler stops any
-  // statement after kUntrustedStepLimit virtual-machine steps.
-  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
-  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_TRUSTED_SCHEMA, 0, nullptr);
-  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_ENABLE_TRIGGER, 0, nullptr);
-  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_ENABLE_VIEW, 0, nullptr);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_LENGTH, kUntrustedMaxBytes);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_SQL_LENGTH, 100000);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_COLUMN, 100);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_EXPR_DEPTH, 100);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_COMPOUND_SELECT, 3);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_ATTACHED, 0);
-  sqlite3_limit(d.db_, SQLITE_LIMIT_TRIGGER_DEPTH, 1);
   d.steps_ = std::make_unique<std::int64_t>(0);
-  sqlite3_progress_handler(
-      d.db_, 100000,
-      [](void* p) -> int {
-        auto* steps = static_cast<std::int64_t*>(p);
-        *steps += 100000;
-        return *steps > kUntrustedStepLimit ? 1 : 0;
-      },
-      d.steps_.get());
+  harden(d.db_, d.steps_.get());
   for (const char* pragma : {"PRAGMA cell_size_check = ON", "PRAGMA mmap_size = 0"})
     if (auto st = d.exec(pragma); !st) return make_problem(path + ": " + st.problem().message);
   return d;
+}
+
+Result<Database> Database::open_untrusted_image(const std::string& image) {
+  Database d;
+  if (sqlite3_open_v2(":memory:", &d.db_, SQLITE_OPEN_READWRITE, nullptr) != SQLITE_OK)
+    return make_problem("cannot open an in-memory database (out of memory)");
+  d.steps_ = std::make_unique<std::int64_t>(0);
+  harden(d.db_, d.steps_.get());
+  if (auto st = d.exec("PRAGMA cell_size_check = ON"); !st) return st.problem();
+  auto* buffer = static_cast<unsigned char*>(sqlite3_malloc64(image.size() ? image.size() : 1));
+  if (!buffer) return make_problem("no memory for a database of " + std::to_string(image.size()) + " bytes");
+  std::memcpy(buffer, image.data(), image.size());
+  const int rc = sqlite3_deserialize(d.db_, "main", buffer, static_cast<sqlite3_int64>(image.size()),
+                                     static_cast<sqlite3_int64>(image.size()),
+                                     SQLITE_DESERIALIZE_FREEONCLOSE | SQLITE_DESERIALIZE_READONLY);
+  if (rc != SQLITE_OK) return make_problem(plain_sqlite_error(rc, sqlite3_errmsg(d.db_)));
+  return d;
+}
+
+Result<Database> Database::open_image_copy(const std::string& image) {
+  Database d;
+  if (sqlite3_open_v2(":memory:", &d.db_, SQLITE_OPEN_READWRITE, nullptr) != SQLITE_OK)
+    return make_problem("cannot open an in-memory database (out of memory)");
+  auto* buffer = static_cast<unsigned char*>(sqlite3_malloc64(image.size() ? image.size() : 1));
+  if (!buffer) return make_problem("no memory for a database of " + std::to_string(image.size()) + " bytes");
+  std::memcpy(buffer, image.data(), image.size());
+  const int rc = sqlite3_deserialize(d.db_, "main", buffer, static_cast<sqlite3_int64>(image.size()),
+                                     static_cast<sqlite3_int64>(image.size()),
+                                     SQLITE_DESERIALIZE_FREEONCLOSE | SQLITE_DESERIALIZE_RESIZEABLE);
+  if (rc != SQLITE_OK) return make_problem(plain_sqlite_error(rc, sqlite3_errmsg(d.db_)));
+  sqlite3_db_config(d.db_, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
+  if (auto st = d.exec("PRAGMA foreign_keys = ON"); !st) return st.problem();
+  return d;
+}
+
+Result<Database> Database::create_in_memory() {
+  Database d;
+  if (sqlite3_open_v2(":memory:", &d.db_, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE, nullptr) != SQLITE_OK)
+    return make_problem("cannot open an in-memory database (out of memory)");
+  return d;
+}
+
+Result<std::string> Database::image() const {
+  sqlite3_int64 size = 0;
+  unsigned char* bytes = sqlite3_serialize(db_, "main", &size, 0);
+  if (!bytes) return make_problem("cannot take the database's image (out of memory)");
+  std::string out(reinterpret_cast<const char*>(bytes), static_cast<size_t>(size));
+  sqlite3_free(bytes);
+  return out;
 }
 
 Result<Database> Database::open_looking(const std::string& path) {

@@ -30,6 +30,7 @@ class Statement {
   Statement& bind(int i, const char* v) { return bind(i, std::string(v)); }
   Statement& bind(int i, const std::optional<std::string>& v);
   Statement& bind(int i, const std::optional<double>& v);
+  Statement& bind_blob(int i, const std::string& bytes);
 
   // Steps once: true when a row is ready, false when done or on error (then
   // `failed()` is true and `error()` holds SQLite's message).
@@ -40,6 +41,7 @@ class Statement {
   std::int64_t integer(int col) const;
   double real(int col) const;
   std::string text(int col) const;
+  std::string blob(int col) const;   // the bytes of a BLOB (or of a text)
   bool is_null(int col) const;
   std::optional<std::string> optional_text(int col) const;   // nullopt for NULL
   std::optional<double> optional_real(int col) const;
@@ -75,6 +77,16 @@ class Database {
   // Opens a file of ours for reading only, seeing what its WAL holds too;
   // writes nothing to the file itself.
   static Result<Database> open_looking(const std::string& path);
+  // An untrusted database image (a bundle's, already read into memory),
+  // opened read-only in memory with the same hardening as open_read_only.
+  static Result<Database> open_untrusted_image(const std::string& image);
+  // A writable copy in memory of one of our own databases' image (a file
+  // of an older schema, upgraded without writing to the file).
+  static Result<Database> open_image_copy(const std::string& image);
+  // A new empty database in memory (built, then taken whole with image()).
+  static Result<Database> create_in_memory();
+  // The database's bytes, as its file would hold them.
+  Result<std::string> image() const;
   // A file written once as a whole: rollback journal (no WAL beside it),
   // synchronous=FULL.
   static Result<Database> create_standalone(const std::string& path);

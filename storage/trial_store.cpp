@@ -6,8 +6,11 @@
 #include <cstdio>
 #include <ctime>
 #include <filesystem>
+#include <fstream>
 #include <random>
 #include <unordered_map>
+
+#include "storage/enrolment.h"
 
 namespace furrow {
 namespace {
@@ -163,6 +166,28 @@ CREATE VIEW conflict AS
                              ELSE 'm' || missing_reason END) > 1;
 )sql";
 
+// Version 5: this file's own signing key, and the keys it accepts bundles
+// signed with (storage/enrolment.h).
+constexpr const char* kSchemaV5 = R"sql(
+CREATE TABLE signing_key (
+  only_row INTEGER PRIMARY KEY CHECK (only_row = 1),
+  public_key BLOB NOT NULL,
+  secret_key BLOB NOT NULL,
+  made_at TEXT NOT NULL
+) STRICT;
+CREATE TABLE enrolment (
+  device_id TEXT PRIMARY KEY,
+  role TEXT NOT NULL CHECK (role IN ('station', 'device')),
+  public_key BLOB NOT NULL UNIQUE,
+  label TEXT NOT NULL,
+  enrolled_by TEXT NOT NULL,
+  enrolled_at TEXT NOT NULL,
+  revoked_at TEXT, revoked_by TEXT, revoked_reason TEXT,
+  succeeds_device_id TEXT NOT NULL DEFAULT '',
+  succeeds_up_to INTEGER NOT NULL DEFAULT 0
+) STRICT;
+)sql";
+
 std::string random_hex(int bytes) {
   std::random_device rd;
   std::string out;
@@ -270,8 +295,10 @@ Status insert_trial(Database& db, const TrialPlan& p, const Layout& layout, cons
   }
   auto ds = db.prepare("INSERT INTO this_device (only_row, device_id) VALUES (1, ?)");
   if (!ds) return ds.problem();
-  ds->bind(1, new_device_id());
-  return ds->run();
+  const std::string device_id = new_device_id();
+  ds->bind(1, device_id);
+  FURROW_TRY(ds->run());
+  return make_own_key(db, device_id, id.role);
 }
 
 }  // namespace
@@ -329,6 +356,16 @@ Status migrate(Database& db) {
       FURROW_TRY(db.exec(kSchemaV4));
       FURROW_TRY(db.exec("PRAGMA user_version = 4"));
     }
+    if (version < 5) {
+      FURROW_TRY(db.exec(kSchemaV5));
+      // A file made before keys gets its own now. A device's copy does not
+      // know its station's key yet: the station manager enrols it again
+      // (furrow device enrol) before bundles pass between them.
+      auto t = db.prepare("SELECT d.device_id, t.role FROM trial t, this_device d");
+      if (!t) return t.problem();
+      if (t->step()) FURROW_TRY(make_own_key(db, t->text(0), t->text(1)));
+      FURROW_TRY(db.exec("PRAGMA user_version = 5"));
+    }
     return ok_status();
   });
 }
@@ -349,7 +386,7 @@ Status create_trial_database(const std::string& path, const TrialPlan& plan, con
   return result;
 }
 
-Result<OpenTrial> open_trial_database(const std::string& path) {
+Result<OpenTrial> open_trial_database(const std::string& path, Access access) {
   if (!std::filesystem::exists(path)) return make_problem(path + " does not exist");
   {
     // Looked at first without writing a byte: a file that is not a Furrow
@@ -364,6 +401,13 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
                             " KB free): nothing can be read or saved until space is freed");
       return make_problem(path + ": cannot be read: " + message);
     };
+    {
+      std::ifstream in(path, std::ios::binary);
+      char head[16] = {};
+      in.read(head, sizeof head);
+      if (in.gcount() == sizeof head && std::string(head, sizeof head) == "FURROW BUNDLE 3\n")
+        return make_problem(path + " is a bundle, not a trial database: merge it with furrow merge");
+    }
     auto probe = Database::open_looking(path);
     if (!probe) return why(probe.problem().message);
     auto kind = probe->prepare(
@@ -376,8 +420,24 @@ Result<OpenTrial> open_trial_database(const std::string& path) {
     if (kind->integer(1) < 1 || kind->integer(2) != 3)
       return make_problem(path + ": not a Furrow trial database (no trial, plots and log in it); it was left as it was");
   }
-  auto db = Database::open(path, false);
-  if (!db) return db.problem();
+  Result<Database> db = make_problem("");
+  if (access == Access::read_only) {
+    // Nothing is written to the file, even when its schema is older: then
+    // it is upgraded in a copy in memory.
+    db = Database::open_looking(path);
+    if (!db) return db.problem();
+    auto v = db->prepare("PRAGMA user_version");
+    if (!v) return make_problem(path + ": " + v.problem().message);
+    if (v->step() && v->integer(0) < kSchemaVersion) {
+      auto image = db->image();
+      if (!image) return make_problem(path + ": " + image.problem().message);
+      db = Database::open_image_copy(*image);
+      if (!db) return make_problem(path + ": " + db.problem().message);
+    }
+  } else {
+    db = Database::open(path, false);
+    if (!db) return db.problem();
+  }
   OpenTrial out{std::move(db).value(), {}};
   Database& d = out.db;
   if (auto s = migrate(d); !s) return make_problem(path + ": " + s.problem().message);

@@ -21,7 +21,7 @@
 
 namespace furrow {
 
-inline constexpr int kSchemaVersion = 4;
+inline constexpr int kSchemaVersion = 5;
 // PRAGMA application_id of a bundle ("FRB1"): a trial command given a bundle says so.
 inline constexpr std::int64_t kBundleApplicationIdForTrials = 0x46524231;
 
@@ -56,7 +56,11 @@ struct OpenTrial {
   Database db;
   StoredTrial trial;
 };
-Result<OpenTrial> open_trial_database(const std::string& path);
+// Access::read_only (for commands that only read: show, export, report,
+// analyse, list) never writes to the file: no upgrade, no WAL switch, no
+// tables added; a file of an older schema is upgraded in a copy in memory.
+enum class Access { write, read_only };
+Result<OpenTrial> open_trial_database(const std::string& path, Access access = Access::write);
 
 // Marks the trial closed (collection over; reports drop the interim
 // caution). Closing a closed trial is refused.

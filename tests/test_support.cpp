@@ -48,6 +48,13 @@ DesignRoles rcbd_roles() {
   return r;
 }
 
+std::string bytes_of(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
 std::string fresh_demo_trial(const std::string& name) {
   const auto dir = scratch_dir("tests");
   std::filesystem::create_directories(dir);

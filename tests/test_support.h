@@ -13,6 +13,7 @@ namespace furrow::test {
 std::string reference_path(const std::string& relative);   // under tests/reference/data
 std::string generated_path(const std::string& relative);   // made by a fixture at test time
 std::string read_text(const std::string& path);
+std::string bytes_of(const std::string& path);             // every byte of a file ("" when it cannot be read)
 // A folder for this test process's files: the system's temporary folder,
 // "furrow_<name>_<process id>", so that two test runs on one machine (two
 // checkouts, or ctest -j) never share files. Not created or emptied here.

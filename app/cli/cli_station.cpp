@@ -7,6 +7,8 @@
 
 #include "core/entry_checks.h"
 #include "storage/bundle.h"
+#include "storage/enrolment.h"
+#include "storage/keys.h"
 #include "storage/settle.h"
 #include "storage/trial_store.h"
 
@@ -34,7 +36,8 @@ int run_bundle(const std::string& db_path, const std::string& out, bool everythi
   auto m = write_bundle(open->db, open->trial, out, everything);
   if (!m) return fail(m.problem().message);
   std::cout << "bundle " << out << ": " << count_of(m->observations, "observation") << ", "
-            << count_of(m->replacements, "link") << ", from " << m->maker_role << " " << m->maker_device_id << ", checksum " << m->checksum << "\n";
+            << count_of(m->replacements, "link") << ", from " << m->maker_role << " " << m->maker_device_id
+            << ", signed with key " << key_fingerprint(m->signer_key) << "\n";
   return 0;
 }
 
@@ -45,7 +48,8 @@ int run_merge(const std::string& db_path, const std::vector<std::string>& bundle
   for (const std::string& b : bundles) {
     auto out = merge_bundle(open->db, open->trial, b);
     if (!out) {
-      std::cerr << "refused " << terminal_safe(out.problem().message) << "\n";
+      const std::string& why = out.problem().message;
+      std::cerr << (why.find(": refused: ") == std::string::npos ? "refused " : "") << terminal_safe(why) << "\n";
       ++refused;
       continue;
     }
@@ -59,7 +63,7 @@ int run_merge(const std::string& db_path, const std::vector<std::string>& bundle
 }
 
 int run_conflicts(const std::string& db_path, bool json) {
-  auto open = open_trial_database(db_path);
+  auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return fail(db_path + ": " + open.problem().message);
   auto conflicts = list_conflicts(open->db, open->trial);
   if (!conflicts) return fail(db_path + ": " + conflicts.problem().message);
@@ -168,12 +172,91 @@ int run_trial_close(const std::string& db_path) {
   return 0;
 }
 
-int run_trial_copy(const std::string& station_path, const std::string& device_path) {
-  if (auto s = copy_trial_for_device(station_path, device_path); !s) return fail(s.problem().message);
+int run_trial_copy(const std::string& station_path, const std::string& device_path, const DeviceEnrolment& who) {
+  if (auto s = copy_trial_for_device(station_path, device_path, who); !s) return fail(s.problem().message);
   auto open = open_trial_database(device_path);
   if (!open) return fail(device_path + ": " + open.problem().message);
+  auto key = own_key(open->db);
   std::cout << "copied " << open->trial.plan.name << " to " << device_path << " (device " << open->trial.device_id
-            << ")\n";
+            << ", key " << (key ? key_fingerprint(key->public_key) : "?") << "), enrolled at " << station_path
+            << " by " << who.by << "\n";
+  return 0;
+}
+
+int run_device_list(const std::string& db_path, bool json) {
+  auto open = open_trial_database(db_path, Access::read_only);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  auto records = device_records(open->db);
+  if (!records) return fail(db_path + ": " + records.problem().message);
+  if (json) {
+    nlohmann::json out = nlohmann::json::array();
+    for (const DeviceRecord& r : *records) {
+      const Enrolment& e = r.enrolment;
+      out.push_back({{"device", e.device_id}, {"role", e.role}, {"label", e.label},
+                     {"key", key_fingerprint(e.public_key)}, {"enrolled_by", e.enrolled_by},
+                     {"enrolled_at", e.enrolled_at}, {"revoked_at", e.revoked_at ? nlohmann::json(*e.revoked_at) : nlohmann::json(nullptr)},
+                     {"revoked_by", e.revoked_by ? nlohmann::json(*e.revoked_by) : nlohmann::json(nullptr)},
+                     {"revoked_reason", e.revoked_reason ? nlohmann::json(*e.revoked_reason) : nlohmann::json(nullptr)},
+                     {"succeeds", e.succeeds_device_id.empty() ? nlohmann::json(nullptr) : nlohmann::json(e.succeeds_device_id)},
+                     {"succeeds_up_to", e.succeeds_up_to}, {"rows_in_log", r.rows_in_log},
+                     {"bundles_merged", r.bundles_merged},
+                     {"last_merged_at", r.last_merged_at.empty() ? nlohmann::json(nullptr) : nlohmann::json(r.last_merged_at)},
+                     {"last_rows_added", r.last_rows_added}});
+    }
+    bool replaced = false;
+    std::cout << json_text(out, &replaced) << "\n";
+    return 0;
+  }
+  std::cout << count_of(static_cast<long>(records->size()), "enrolled key") << " in " << open->trial.plan.name << "\n";
+  for (const DeviceRecord& r : *records) {
+    const Enrolment& e = r.enrolment;
+    std::string line = e.device_id + "  " + e.label + (e.role == "station" ? " (this trial's station)" : "") +
+                       "  key " + key_fingerprint(e.public_key) + "\n    enrolled " + e.enrolled_at + " by " +
+                       e.enrolled_by;
+    if (!e.succeeds_device_id.empty())
+      line += "; new identity of " + e.succeeds_device_id + " (its rows up to " + std::to_string(e.succeeds_up_to) + ")";
+    if (e.revoked())
+      line += "\n    REVOKED " + *e.revoked_at + " by " + e.revoked_by.value_or("?") +
+              (e.revoked_reason && !e.revoked_reason->empty() ? " (" + *e.revoked_reason + ")" : "") + ": its " +
+              count_of(r.rows_in_log, "row") + " merged before stay in the log, marked device_revoked in exports";
+    line += "\n    " + count_of(r.rows_in_log, "row") + " in the log";
+    if (e.role != "station")
+      line += r.bundles_merged ? ", " + count_of(r.bundles_merged, "bundle") + " merged, the last " + r.last_merged_at +
+                                     " (" + count_of(r.last_rows_added, "new row") + ")"
+                               : ", no bundle merged yet";
+    for (size_t at = 0; at <= line.size();) {
+      const size_t end = std::min(line.find('\n', at), line.size());
+      std::cout << terminal_safe(line.substr(at, end - at)) << "\n";
+      at = end + 1;
+    }
+  }
+  return 0;
+}
+
+int run_device_revoke(const std::string& db_path, const std::string& device, const std::string& by,
+                      const std::string& reason) {
+  auto open = open_trial_database(db_path);
+  if (!open) return fail(db_path + ": " + open.problem().message);
+  if (open->trial.role != "station") return fail(db_path + ": only the station's trial revokes devices");
+  if (auto s = revoke_device(open->db, device, by, reason); !s) return fail(db_path + ": " + s.problem().message);
+  std::cout << "revoked device " << device << " by " << by
+            << ": its later bundles are refused; the rows merged before stay, marked device_revoked in exports\n";
+  return 0;
+}
+
+int run_device_enrol(const std::string& station_path, const std::string& device_path, const DeviceEnrolment& who) {
+  if (auto s = enrol_existing_device(station_path, device_path, who); !s) return fail(s.problem().message);
+  std::cout << "enrolled " << device_path << " at " << station_path << " by " << who.by << "\n";
+  return 0;
+}
+
+int run_device_renew(const std::string& station_path, const std::string& device_path, const DeviceEnrolment& who) {
+  auto out = renew_device_identity(station_path, device_path, who);
+  if (!out) return fail(out.problem().message);
+  std::cout << device_path << " has a new identity: device " << out->new_device_id << " (was " << out->old_device_id
+            << ")\n  " << count_of(out->kept_under_old_id, "row") << " the station holds stay under the old id; "
+            << count_of(out->rows_moved, "row") << " now belong to the new id, nothing lost\n  the old file is kept as "
+            << out->kept_file << "\n  next: write this copy's bundle (furrow bundle) and merge it at the station\n";
   return 0;
 }
 

@@ -1,10 +1,12 @@
 #pragma once
-// Day's-end subcommands: `bundle`, `merge`, `conflicts`, `settle` and
-// `trial copy`. Exit codes: 0 done; 2 bad input or a refused bundle (the
+// Day's-end subcommands: `bundle`, `merge`, `conflicts`, `settle`,
+// `trial copy` and `device ...`. Exit codes: 0 done; 2 bad input or a refused bundle (the
 // database is left as it was for that bundle).
 
 #include <string>
 #include <vector>
+
+#include "storage/bundle.h"
 
 namespace furrow {
 
@@ -19,6 +21,13 @@ struct SettleRequest {
 int run_settle(const SettleRequest& r);
 
 int run_trial_close(const std::string& db_path);
-int run_trial_copy(const std::string& station_path, const std::string& device_path);
+int run_trial_copy(const std::string& station_path, const std::string& device_path, const DeviceEnrolment& who);
+
+// `device list|revoke|enrol|renew`: the keys a station enrolled.
+int run_device_list(const std::string& db_path, bool json);
+int run_device_revoke(const std::string& db_path, const std::string& device, const std::string& by,
+                      const std::string& reason);
+int run_device_enrol(const std::string& station_path, const std::string& device_path, const DeviceEnrolment& who);
+int run_device_renew(const std::string& station_path, const std::string& device_path, const DeviceEnrolment& who);
 
 }  // namespace furrow

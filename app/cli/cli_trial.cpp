@@ -14,6 +14,7 @@
 #include "app/work/trial_summary.h"
 #include "core/analysis.h"
 #include "core/entry_checks.h"
+#include "storage/enrolment.h"
 #include "storage/plan_file.h"
 #include "storage/trial_store.h"
 
@@ -48,7 +49,7 @@ int run_trial_new(const std::string& plan_path, const std::string& db_path) {
 }
 
 int run_trial_show(const std::string& db_path) {
-  auto open = open_trial_database(db_path);
+  auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return fail(db_path, open.problem().message);
   const StoredTrial& t = open->trial;
   auto live = live_observations(open->db, 0);
@@ -134,7 +135,7 @@ int run_walk(const WalkRequest& r) {
 }
 
 int run_export(const std::string& db_path, const std::string& kind, const std::string& out) {
-  auto open = open_trial_database(db_path);
+  auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return fail(db_path, open.problem().message);
   std::string text;
   if (kind == "layout") {
@@ -142,7 +143,12 @@ int run_export(const std::string& db_path, const std::string& kind, const std::s
   } else {
     auto live = live_observations(open->db, 0);
     if (!live) return fail(db_path, live.problem().message);
-    text = kind == "long" ? long_data_csv(open->trial, *live) : wide_data_csv(open->trial, *live);
+    std::set<std::string> revoked;
+    auto devices = list_enrolments(open->db);
+    if (!devices) return fail(db_path, devices.problem().message);
+    for (const Enrolment& e : *devices)
+      if (e.revoked()) revoked.insert(e.device_id);
+    text = kind == "long" ? long_data_csv(open->trial, *live, revoked) : wide_data_csv(open->trial, *live);
   }
   if (out.empty()) {
     std::cout << text;
@@ -156,7 +162,7 @@ int run_export(const std::string& db_path, const std::string& kind, const std::s
 
 int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json, double alpha,
                    const std::string& sums) {
-  auto open = open_trial_database(db_path);
+  auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return fail(db_path, open.problem().message);
   const StoredTrial& t = open->trial;
   size_t trait_index = 0;

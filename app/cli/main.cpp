@@ -57,6 +57,32 @@ int main(int argc, char** argv) {
   auto* trial_copy = trial->add_subcommand("copy", "Make a device's copy of the station's trial (new device id)");
   trial_copy->add_option("--from", copy_from, "the station's trial database")->required();
   trial_copy->add_option("--db", trial_db, "the device's trial database to create")->required();
+  furrow::DeviceEnrolment enrol_who;
+  trial_copy->add_option("--by", enrol_who.by, "who enrols the device (kept at the station with its key)")->required();
+  trial_copy->add_option("--label", enrol_who.label, "the device's name for people, e.g. \"Tablet 3\" (default: the file's name)");
+
+  // device list / revoke / enrol / renew
+  auto* device = app.add_subcommand("device", "The devices a station's trial takes bundles from (keys, enrolment)");
+  device->require_subcommand(1);
+  std::string device_db, device_station, device_id, revoke_reason;
+  bool device_json = false;
+  auto* device_list = device->add_subcommand("list", "List the enrolled devices: keys, who enrolled them, what each brought");
+  device_list->add_option("--db", device_db, "the station's trial database")->required();
+  device_list->add_flag("--json", device_json, "JSON instead of text");
+  auto* device_revoke = device->add_subcommand("revoke", "Refuse a device's later bundles (a lost or stolen tablet)");
+  device_revoke->add_option("--db", device_db, "the station's trial database")->required();
+  device_revoke->add_option("--device", device_id, "the device id, as furrow device list shows it")->required();
+  device_revoke->add_option("--by", enrol_who.by, "who revokes it")->required();
+  device_revoke->add_option("--reason", revoke_reason, "why");
+  auto* device_enrol = device->add_subcommand("enrol", "Enrol a device copy made before keys (both files at hand)");
+  auto* device_renew = device->add_subcommand(
+      "renew", "Give a copied device file a new identity at the station, keeping every row it recorded");
+  for (auto* c : {device_enrol, device_renew}) {
+    c->add_option("--station", device_station, "the station's trial database")->required();
+    c->add_option("--db", device_db, "the device's trial database")->required();
+    c->add_option("--by", enrol_who.by, "who does it (kept at the station)")->required();
+    c->add_option("--label", enrol_who.label, "the device's name for people");
+  }
 
   // Day's end: bundles, merging, conflicts.
   std::string station_db, bundle_out;
@@ -170,7 +196,11 @@ int main(int argc, char** argv) {
   }
   if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
   if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
-  if (trial_copy->parsed()) return furrow::run_trial_copy(copy_from, trial_db);
+  if (trial_copy->parsed()) return furrow::run_trial_copy(copy_from, trial_db, enrol_who);
+  if (device_list->parsed()) return furrow::run_device_list(device_db, device_json);
+  if (device_revoke->parsed()) return furrow::run_device_revoke(device_db, device_id, enrol_who.by, revoke_reason);
+  if (device_enrol->parsed()) return furrow::run_device_enrol(device_station, device_db, enrol_who);
+  if (device_renew->parsed()) return furrow::run_device_renew(device_station, device_db, enrol_who);
   if (trial_close->parsed()) return furrow::run_trial_close(trial_db);
   if (bundle->parsed()) return furrow::run_bundle(station_db, bundle_out, bundle_all);
   if (merge->parsed()) return furrow::run_merge(station_db, bundle_files);

@@ -481,7 +481,8 @@ class FieldApp final : public FieldAppState {
       case TrialsAction::Kind::open_demo: path = options_.demo_db; break;
       case TrialsAction::Kind::copy_for_device: {
         const std::string db = trial_path_for_plan(path, folder_);
-        if (auto c = copy_trial_for_device(path, db); !c) {
+        // Enrolled by whoever is recording on this device (the station keeps the name with the device's key).
+        if (auto c = copy_trial_for_device(path, db, DeviceEnrolment{"", observer()}); !c) {
           say(path + ": " + c.problem().message, true);
           return;
         }

@@ -74,7 +74,7 @@ th { background: #eee; }
 }  // namespace
 
 Result<std::string> report_html(const std::string& db_path, const ReportOptions& options) {
-  auto open = open_trial_database(db_path);
+  auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return make_problem(db_path + ": " + open.problem().message);
   const StoredTrial& t = open->trial;
   const TrialPlan& p = t.plan;

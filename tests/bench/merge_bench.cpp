@@ -57,7 +57,7 @@ int main(int argc, char** argv) {
   double write_ms = 0;
   for (int d = 0; d < 10; ++d) {
     const std::string device = (dir / ("device" + std::to_string(d) + ".furrow")).string();
-    if (auto s = furrow::copy_trial_for_device(station, device); !s) return fail(s.problem().message);
+    if (auto s = furrow::copy_trial_for_device(station, device, furrow::DeviceEnrolment{"", "Bench"}); !s) return fail(s.problem().message);
     auto open = furrow::open_trial_database(device);
     if (!open) return fail(open.problem().message);
     const furrow::StoredTrial& t = open->trial;

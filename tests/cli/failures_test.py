@@ -88,7 +88,7 @@ con.execute("CREATE TABLE inventory (item TEXT, count INTEGER)")
 con.execute("INSERT INTO inventory VALUES ('stakes', 400)")
 con.commit()
 con.close()
-run("trial", "copy", "--from", p("t.furrow"), "--db", p("dev.furrow"), check=True)
+run("trial", "copy", "--from", p("t.furrow"), "--db", p("dev.furrow"), "--by", "Test manager", check=True)
 run("record", "--db", p("dev.furrow"), "--plot", "101", "--trait", "height_cm", "--value", "90", "--observer", "Ana",
     check=True)
 run("bundle", "--db", p("dev.furrow"), "--out", p("dev.bundle"), check=True)
@@ -116,7 +116,7 @@ for name, bad in (("a surrogate", b"\xed\xa0\x80"), ("an overlong form", b"\xc0\
 
 # 5. A bundle's observer and note with a terminal escape and invalid UTF-8: the
 #    station's conflicts list shows neither raw.
-run("trial", "copy", "--from", p("t.furrow"), "--db", p("dev2.furrow"), check=True)
+run("trial", "copy", "--from", p("t.furrow"), "--db", p("dev2.furrow"), "--by", "Test manager", check=True)
 evil = b"\x1b[2J\x1b]0;owned\x07Eve\xed\xa0\x80"
 subprocess.run([furrow.encode(), b"record", b"--db", p("dev2.furrow").encode(), b"--plot", b"101", b"--trait",
                 b"height_cm", b"--value", b"95", b"--observer", evil, b"--note", evil], check=True, capture_output=True)

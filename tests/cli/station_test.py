@@ -42,7 +42,7 @@ def content(name):
 
 run("trial", "new", "--plan", plan, "--db", path("station.furrow"))
 for d in ("a", "b", "c"):
-    run("trial", "copy", "--from", path("station.furrow"), "--db", path(f"{d}.furrow"))
+    run("trial", "copy", "--from", path("station.furrow"), "--db", path(f"{d}.furrow"), "--by", "Mara Quill", "--label", f"Tablet {d}")
 # a and b both measure plots 101-104; they disagree on 102 and 104. c measures 105.
 for d, values in (("a", {"101": "96", "102": "98", "103": "101", "104": "88"}),
                   ("b", {"101": "96", "102": "89", "103": "101", "104": "99"}),
@@ -52,7 +52,7 @@ for d, values in (("a", {"101": "96", "102": "98", "103": "101", "104": "88"}),
             "--observer", f"crew {d}", "--confirm")
 for d in ("a", "b", "c"):
     out = run("bundle", "--db", path(f"{d}.furrow"), "--out", path(f"{d}.bundle")).stdout
-    check(" observation" in out and "checksum" in out, f"bundle {d} says what it holds ({out.strip()})")
+    check(" observation" in out and "signed with key " in out, f"bundle {d} says what it holds ({out.strip()})")
 merged = run("merge", "--db", path("station.furrow"), path("a.bundle"), path("b.bundle"), path("c.bundle")).stdout
 check("2 conflicts to settle" in merged, f"merge reports the conflicts ({merged.strip()})")
 again = run("merge", "--db", path("station.furrow"), path("c.bundle"), path("b.bundle"), path("a.bundle")).stdout
@@ -106,11 +106,12 @@ check("bundle" in out and ": 1 observation," in out, f"b's second bundle holds i
 # Refused bundles.
 run("trial", "new", "--plan", plan, "--db", path("other.furrow"))
 run("bundle", "--db", path("other.furrow"), "--out", path("other.bundle"))
-shutil.copy(path("a.bundle"), path("altered.bundle"))
-con = sqlite3.connect(path("altered.bundle"))
-with con:
-    con.execute("UPDATE observation SET value = '69' WHERE value = '96'")
-con.close()
+# One byte of a's database changed after it was signed (bundle.h: the image starts at byte 120).
+with open(path("a.bundle"), "rb") as f:
+    altered = bytearray(f.read())
+altered[120 + (len(altered) - 120) // 2] ^= 0x20
+with open(path("altered.bundle"), "wb") as f:
+    f.write(altered)
 with open(path("a.bundle"), "rb") as f:
     whole = f.read()
 with open(path("truncated.bundle"), "wb") as f:
@@ -118,11 +119,46 @@ with open(path("truncated.bundle"), "wb") as f:
 with open(path("notes.bundle"), "w") as f:
     f.write("plot,height\n101,96\n")
 before = content("station.furrow")
-for name, expect in (("other.bundle", "does not hold"), ("altered.bundle", "checksum"), ("truncated.bundle", ""),
-                     ("notes.bundle", "not a Furrow bundle"), ("a.furrow", "another kind of SQLite file"),
+for name, expect in (("other.bundle", "has not enrolled"), ("altered.bundle", "signature does not match"),
+                     ("truncated.bundle", "truncated"),
+                     ("notes.bundle", "not a Furrow bundle"), ("a.furrow", "not a signed Furrow bundle"),
                      ("missing.bundle", "cannot be read")):
     p = run("merge", "--db", path("station.furrow"), path(name), ok=False)
     check(p.returncode == 2 and path(name) in p.stderr and expect in p.stderr,
           f"{name} refused with its name and reason ({p.stderr.strip()[:160]})")
     check(content("station.furrow") == before, f"{name}: the station is byte for byte as it was")
+
+# The station's devices: who enrolled each, with its key, and what each brought.
+listed = json.loads(run("device", "list", "--db", path("station.furrow"), "--json").stdout)
+check([d["label"] for d in listed] == ["Station", "Tablet a", "Tablet b", "Tablet c"],
+      f"device list names the station and the three tablets ({[d['label'] for d in listed]})")
+check(all(d["enrolled_by"] == "Mara Quill" for d in listed[1:]), "with who enrolled them")
+check([d["rows_in_log"] for d in listed[1:]] == [4, 4, 1], "and the rows each brought")
+check(all(len(d["key"]) == 19 for d in listed), "and each key's fingerprint")
+text = run("device", "list", "--db", path("station.furrow")).stdout
+check("4 enrolled keys" in text and "Tablet c" in text and "by Mara Quill" in text, "device list as text")
+
+# Tablet c is lost: revoked, its later bundle refused; the rows it brought stay, marked.
+c_id = listed[3]["device"]
+bad = run("device", "revoke", "--db", path("station.furrow"), "--device", "0000000000000000", "--by", "Mara Quill",
+          ok=False)
+check(bad.returncode == 2 and "no device 0000000000000000 is enrolled" in bad.stderr, "revoking an unknown device is refused")
+out = run("device", "revoke", "--db", path("station.furrow"), "--device", c_id, "--by", "Mara Quill",
+          "--reason", "left at the far gate").stdout
+check("revoked device " + c_id in out, f"revoke says what it did ({out.strip()})")
+run("record", "--db", path("c.furrow"), "--plot", "106", "--trait", "height_cm", "--value", "92", "--observer", "crew c",
+    "--confirm")
+run("bundle", "--db", path("c.furrow"), "--out", path("c2.bundle"))
+before = content("station.furrow")
+p = run("merge", "--db", path("station.furrow"), path("c2.bundle"), ok=False)
+check(p.returncode == 2 and f"device {c_id} (Tablet c) was revoked on " in p.stderr and "by Mara Quill" in p.stderr,
+      f"the revoked tablet's bundle is refused in words ({p.stderr.strip()[:200]})")
+check(content("station.furrow") == before, "and the station is byte for byte as it was")
+rows = [r.split(",") for r in run("export", "--db", path("station.furrow"), "--long").stdout.splitlines()]
+check(rows[0][-1] == "device_revoked", "the long export has a device_revoked column")
+marked = [r[0] for r in rows[1:] if r[-1] == "yes"]
+check(marked == ["105"], f"and marks the revoked tablet's row ({marked})")
+listed = json.loads(run("device", "list", "--db", path("station.furrow"), "--json").stdout)
+check(listed[3]["revoked_by"] == "Mara Quill" and listed[3]["revoked_reason"] == "left at the far gate",
+      "device list shows who revoked it and why")
 check.finish()

@@ -35,7 +35,7 @@ def run(*args):
 
 run("trial", "new", "--plan", plan, "--db", station)
 for d in ("a", "b", "c"):
-    run("trial", "copy", "--from", station, "--db", os.path.join(work, f"{d}.furrow"))
+    run("trial", "copy", "--from", station, "--db", os.path.join(work, f"{d}.furrow"), "--by", "Test manager")
 for plot, b_value in (("101", "81"), ("102", "82"), ("103", "83")):
     run("record", "--db", os.path.join(work, "a.furrow"), "--plot", plot, "--trait", "height_cm", "--value", "96",
         "--observer", "Ana", "--confirm")

@@ -25,12 +25,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string bytes_of(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
 
 fs::path fresh_dir(const std::string& name) {
   const fs::path d = test::scratch_dir(name);
@@ -68,7 +62,7 @@ Day simulate_day() {
   fs::copy_file(test::fresh_demo_trial("bundle_station_src.furrow"), d.station);
   for (int i = 0; i < 10; ++i) {
     d.devices.push_back((d.dir / ("device" + std::to_string(i) + ".furrow")).string());
-    REQUIRE(copy_trial_for_device(d.station, d.devices.back()).ok());
+    REQUIRE(copy_trial_for_device(d.station, d.devices.back(), DeviceEnrolment{"", "Test manager"}).ok());
   }
   auto labels = [&] {
     auto open = open_trial_database(d.station);
@@ -263,8 +257,8 @@ TEST_CASE("a device that takes the station's bundle sees the settled values") {
   const std::string station = (dir / "station.furrow").string();
   fs::copy_file(test::fresh_demo_trial("bundle_settled_src.furrow"), station);
   const std::string a = (dir / "a.furrow").string(), b = (dir / "b.furrow").string();
-  REQUIRE(copy_trial_for_device(station, a).ok());
-  REQUIRE(copy_trial_for_device(station, b).ok());
+  REQUIRE(copy_trial_for_device(station, a, DeviceEnrolment{"", "Test manager"}).ok());
+  REQUIRE(copy_trial_for_device(station, b, DeviceEnrolment{"", "Test manager"}).ok());
   {
     auto sa = RecordSession::open(a, "Ana");
     auto sb = RecordSession::open(b, "Ben");
@@ -312,7 +306,7 @@ TEST_CASE("refused bundles name the file and the reason and leave the station by
   const std::string station = (dir / "station.furrow").string();
   fs::copy_file(test::fresh_demo_trial("bundle_refused_src.furrow"), station);
   const std::string device = (dir / "device.furrow").string();
-  REQUIRE(copy_trial_for_device(station, device).ok());
+  REQUIRE(copy_trial_for_device(station, device, DeviceEnrolment{"", "Test manager"}).ok());
   {
     auto s = RecordSession::open(device, "Ana");
     REQUIRE(s.ok());
@@ -336,7 +330,22 @@ TEST_CASE("refused bundles name the file and the reason and leave the station by
     REQUIRE(open.ok());
     const std::string out = (dir / "other_trial.bundle").string();
     REQUIRE(write_bundle(open->db, open->trial, out).ok());
-    cases.push_back({"another trial", out, "does not hold"});
+    cases.push_back({"another trial's station", out, "has not enrolled"});
+  }
+  // The station's own device, signing a manifest naming another trial or
+  // another plan (what whoever holds its file can do).
+  for (auto [key, value, expect] : {std::tuple{"trial_uid", "0123456789abcdef0123456789abcdef", "does not hold"},
+                                    std::tuple{"plan_hash", "00ff", "different plan"}}) {
+    const std::string image = (dir / (std::string(key) + ".sqlite")).string();
+    const std::string out = (dir / (std::string(key) + ".bundle")).string();
+    REQUIRE(unpack_bundle(good, image).ok());
+    {
+      auto db = Database::create_standalone(image);
+      REQUIRE(db.ok());
+      REQUIRE(db->exec(std::string("UPDATE manifest SET value = '") + value + "' WHERE key = '" + key + "'").ok());
+    }
+    REQUIRE(seal_bundle(image, device, out).ok());
+    cases.push_back({std::string("a manifest naming another ") + key, out, expect});
   }
   // The same trial, another plan (one trait's limit changed).
   {
@@ -350,30 +359,39 @@ TEST_CASE("refused bundles name the file and the reason and leave the station by
     REQUIRE(open.ok());
     const std::string out = (dir / "changed_plan.bundle").string();
     REQUIRE(write_bundle(open->db, open->trial, out).ok());
-    cases.push_back({"a different plan", out, "different plan"});
+    cases.push_back({"a different plan (a file the station never enrolled)", out, "has not enrolled"});
   }
-  // A value altered after the bundle was written.
+  // A value altered after the bundle was written (its signature kept), and
+  // a row removed by its own device (signed again with the device's key) with
+  // the manifest's count left alone.
   {
-    const std::string out = (dir / "altered.bundle").string();
-    fs::copy_file(good, out);
-    auto db = Database::create_standalone(out);
-    REQUIRE(db.ok());
-    REQUIRE(db->exec("UPDATE observation SET value = '59' WHERE sequence = 3").ok());
-    cases.push_back({"altered", out, "checksum"});
+    const std::string image = (dir / "altered.sqlite").string(), out = (dir / "altered.bundle").string();
+    REQUIRE(unpack_bundle(good, image).ok());
+    {
+      auto db = Database::create_standalone(image);
+      REQUIRE(db.ok());
+      REQUIRE(db->exec("UPDATE observation SET value = '59' WHERE sequence = 3").ok());
+    }
+    std::string bytes = test::bytes_of(good).substr(0, 112), body = test::bytes_of(image);
+    for (int i = 0; i < 8; ++i) bytes += static_cast<char>((body.size() >> (8 * i)) & 0xFF);
+    std::ofstream(out, std::ios::binary) << bytes << body;
+    cases.push_back({"altered", out, "signature does not match"});
   }
-  // A row removed and the manifest's count left alone.
   {
-    const std::string out = (dir / "row_removed.bundle").string();
-    fs::copy_file(good, out);
-    auto db = Database::create_standalone(out);
-    REQUIRE(db.ok());
-    REQUIRE(db->exec("DELETE FROM observation WHERE sequence = 6").ok());
+    const std::string image = (dir / "row_removed.sqlite").string(), out = (dir / "row_removed.bundle").string();
+    REQUIRE(unpack_bundle(good, image).ok());
+    {
+      auto db = Database::create_standalone(image);
+      REQUIRE(db.ok());
+      REQUIRE(db->exec("DELETE FROM observation WHERE sequence = 6").ok());
+    }
+    REQUIRE(seal_bundle(image, device, out).ok());
     cases.push_back({"a row removed", out, "manifest says"});
   }
   // Truncated halfway, and to its first page.
   for (const double keep : {0.5, 0.25}) {
     const std::string out = (dir / ("truncated" + std::to_string(keep) + ".bundle")).string();
-    const std::string all = bytes_of(good);
+    const std::string all = test::bytes_of(good);
     std::ofstream(out, std::ios::binary) << all.substr(0, static_cast<size_t>(all.size() * keep));
     cases.push_back({"truncated", out, ""});
   }
@@ -384,10 +402,10 @@ TEST_CASE("refused bundles name the file and the reason and leave the station by
     const std::string empty = (dir / "empty.bundle").string();
     std::ofstream(empty).close();
     cases.push_back({"an empty file", empty, "not a Furrow bundle"});
-    cases.push_back({"a trial database", device, "another kind of SQLite file"});
+    cases.push_back({"a trial database", device, "not a signed Furrow bundle"});
     cases.push_back({"no such file", (dir / "missing.bundle").string(), "cannot be read"});
   }
-  const std::string before = bytes_of(station);
+  const std::string before = test::bytes_of(station);
   for (const Case& c : cases) {
     CAPTURE(c.name);
     {
@@ -399,7 +417,7 @@ TEST_CASE("refused bundles name the file and the reason and leave the station by
       CHECK(out.problem().message.rfind(c.path + ": ", 0) == 0);
       CHECK(out.problem().message.find(c.expect) != std::string::npos);
     }
-    CHECK(bytes_of(station) == before);
+    CHECK(test::bytes_of(station) == before);
     CHECK_FALSE(fs::exists(station + "-wal"));
   }
   // And the good bundle still merges afterwards.
@@ -414,7 +432,7 @@ TEST_CASE("the plan hash is the same for every copy of a trial and changes with 
   const fs::path dir = fresh_dir("furrow_bundle_hash");
   const std::string station = (dir / "station.furrow").string();
   fs::copy_file(test::fresh_demo_trial("bundle_hash_src.furrow"), station);
-  REQUIRE(copy_trial_for_device(station, (dir / "device.furrow").string()).ok());
+  REQUIRE(copy_trial_for_device(station, (dir / "device.furrow").string(), DeviceEnrolment{"", "Test manager"}).ok());
   auto a = open_trial_database(station);
   auto b = open_trial_database((dir / "device.furrow").string());
   REQUIRE(a.ok());

@@ -22,13 +22,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string bytes_of(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 void enter(RecordSession& s, const std::string& plot, const std::string& trait, const std::string& value) {
   REQUIRE(s.set_trait(trait).ok());
   REQUIRE(s.jump_to(plot).ok());
@@ -52,8 +45,8 @@ Scenario make_scenario() {
   fs::copy_file(test::fresh_demo_trial("hostile_src.furrow"), sc.station);
   sc.a = (sc.dir / "a.furrow").string();
   sc.b = (sc.dir / "b.furrow").string();
-  REQUIRE(copy_trial_for_device(sc.station, sc.a).ok());
-  REQUIRE(copy_trial_for_device(sc.station, sc.b).ok());
+  REQUIRE(copy_trial_for_device(sc.station, sc.a, DeviceEnrolment{"", "Test manager"}).ok());
+  REQUIRE(copy_trial_for_device(sc.station, sc.b, DeviceEnrolment{"", "Test manager"}).ok());
   {
     // The station's own row on plot 101 height (a value a forger would overwrite).
     auto s = RecordSession::open(sc.station, "Station manager");
@@ -90,22 +83,53 @@ struct Case {
   std::string name, path, expect;
 };
 
-// A copy of A's good bundle with `sql` run on it and the checksum written again.
+// A's good bundle with `sql` run on the database inside, signed again with
+// A's own key: what whoever holds A's trial file (a hostile or careless
+// enrolled device) can do. With `sign` false the edited database keeps the
+// good bundle's signature.
 Case edited(const Scenario& sc, const std::string& name, const std::string& sql, const std::string& expect,
-            bool reseal = true) {
+            bool sign = true) {
   std::string file = name;
   for (char& c : file)
     if (!std::isalnum(static_cast<unsigned char>(c))) c = '_';
   const std::string out = (sc.dir / (file + ".bundle")).string();
-  fs::copy_file(sc.good, out, fs::copy_options::overwrite_existing);
+  const std::string image = (sc.dir / (file + ".sqlite")).string();
+  REQUIRE(unpack_bundle(sc.good, image).ok());
   {
-    auto db = Database::create_standalone(out);
+    auto db = Database::create_standalone(image);
     REQUIRE(db.ok());
     const Status s = db->exec(sql);
     REQUIRE_MESSAGE(s.ok(), name << ": " << (s ? "" : s.problem().message));
+    // The counts as the file now holds them, as a forger would write them
+    // (a count forged as text is kept; a table made a view has none).
+    if (sql.find("VIEW") == std::string::npos)
+      db->exec("UPDATE manifest SET value = (SELECT count(*) FROM observation) WHERE key = 'observations' AND "
+             "value NOT GLOB '*[^0-9]*'; UPDATE manifest SET value = (SELECT count(*) FROM replacement) "
+             "WHERE key = 'replacements' AND value NOT GLOB '*[^0-9]*'");
   }
-  if (reseal) REQUIRE(reseal_bundle(out).ok());
+  if (sign) {
+    REQUIRE(seal_bundle(image, sc.a, out).ok());
+  } else {
+    // The good bundle's head (its signature) with the edited database's length.
+    std::string bytes = test::bytes_of(sc.good).substr(0, 112), body = test::bytes_of(image);
+    for (int i = 0; i < 8; ++i) bytes += static_cast<char>((body.size() >> (8 * i)) & 0xFF);
+    std::ofstream(out, std::ios::binary) << bytes << body;
+  }
   return {name, out, expect};
+}
+
+// A's good bundle with one byte changed at `at`.
+Case flipped(const Scenario& sc, size_t at) {
+  std::string bytes = test::bytes_of(sc.good);
+  REQUIRE(at < bytes.size());
+  bytes[at] = static_cast<char>(bytes[at] ^ 0x20);
+  const std::string out = (sc.dir / ("flipped_" + std::to_string(at) + ".bundle")).string();
+  std::ofstream(out, std::ios::binary) << bytes;
+  // Where the byte is says which check refuses it first (bundle.h: the file).
+  const std::string expect = at < 16 ? "not a Furrow bundle"
+                             : at >= 112 && at < 120 ? "truncated or extended"
+                                                     : "signature does not match";
+  return {"one byte changed at " + std::to_string(at), out, expect};
 }
 
 std::string replace_all(std::string s, const std::string& from, const std::string& to) {
@@ -137,7 +161,7 @@ TEST_CASE("a catalogue of hostile bundles: each refused by name and reason, the 
              "SELECT n + 1 FROM r) SELECT n AS device_id, n AS sequence, n AS plot_label, n AS trait_code, "
              "n AS occasion, n AS value, n AS number, n AS missing_reason, n AS note, n AS observer, "
              "n AS recorded_at, n AS confirmed_checks FROM r",
-             "view", false),
+             "view"),
       edited(sc, "fault 5: heading 9999 beyond its limit",
              ids("UPDATE observation SET trait_code = 'heading_days', value = '9999', number = 9999 WHERE sequence = 1"),
              "possible range"),
@@ -154,9 +178,9 @@ TEST_CASE("a catalogue of hostile bundles: each refused by name and reason, the 
                  "INSERT OR REPLACE INTO holding VALUES ('{A}', 999)"),
              "made by a station"),
       edited(sc, "a trigger inside the bundle",
-             "CREATE TRIGGER t AFTER INSERT ON holding BEGIN DELETE FROM observation; END", "trigger", false),
-      edited(sc, "an extra table", "CREATE TABLE extra (x)", "not those of a Furrow bundle", false),
-      edited(sc, "a virtual table", "CREATE VIRTUAL TABLE v USING fts5(x)", "", false),
+             "CREATE TRIGGER t AFTER INSERT ON holding BEGIN DELETE FROM observation; END", "trigger"),
+      edited(sc, "an extra table", "CREATE TABLE extra (x)", "not those of a Furrow bundle"),
+      edited(sc, "a virtual table", "CREATE VIRTUAL TABLE v USING fts5(x)", ""),
       edited(sc, "an oversize note", "UPDATE observation SET note = printf('%.*c', 3000000, 'x') WHERE sequence = 1", ""),
       edited(sc, "an empty device id", "UPDATE observation SET device_id = '' WHERE sequence = 1; DELETE FROM replacement",
              "device id"),
@@ -185,20 +209,61 @@ TEST_CASE("a catalogue of hostile bundles: each refused by name and reason, the 
       edited(sc, "a plot not in the plan", "UPDATE observation SET plot_label = '999' WHERE sequence = 1",
              "not both in this trial"),
       edited(sc, "a maker id that is not one", "UPDATE manifest SET value = 'Z' WHERE key = 'maker_device_id'",
-             "not one Furrow makes"),
+             "signed with the key of"),
       edited(sc, "a maker claiming the station's own id",
-             ids("UPDATE manifest SET value = '{S}' WHERE key = 'maker_device_id'"), "station's own device id"),
+             ids("UPDATE manifest SET value = '{S}' WHERE key = 'maker_device_id'"), "signed with the key of"),
       edited(sc, "fault 13: a row count written as 1e3", "UPDATE manifest SET value = '3e0' WHERE key = 'observations'",
              "not a plain number"),
-      edited(sc, "a value altered and the checksum left", "UPDATE observation SET value = '59', number = 59 WHERE "
-             "sequence = 1", "checksum", false),
+      edited(sc, "a value altered and the signature left", "UPDATE observation SET value = '59', number = 59 WHERE "
+             "sequence = 1", "signature does not match", false),
+      edited(sc, "the maker's id changed to B's and signed by A",
+             ids("UPDATE manifest SET value = '{B}' WHERE key = 'maker_device_id'; UPDATE observation SET device_id = "
+                 "'{B}'; UPDATE replacement SET device_id = '{B}', replaced_device_id = '{B}'"),
+             "signed with the key of"),
+      edited(sc, "an extra manifest entry", "INSERT INTO manifest VALUES ('checksum', 'x')", "manifest holds entries"),
+      edited(sc, "NULL and wrong-typed keys (the table made loose to hold them)",
+             "CREATE TABLE loose AS SELECT * FROM observation; DROP TABLE observation; ALTER TABLE loose RENAME TO "
+             "observation; UPDATE observation SET plot_label = NULL, sequence = 'one' WHERE sequence = 1",
+             "not those of a Furrow bundle"),
   };
-  // (One byte changed anywhere in the file, unknown and revoked keys, and a
-  // station bundle signed by another station belong with the signatures,
-  // which this catalogue will gain with them: a byte flipped in the file's
-  // free space changes no row, so the content checksum cannot see it.)
+  {
+    // Signed with the key of a trial file this station never enrolled (a
+    // station of another trial, say), the manifest unchanged.
+    const std::string stranger = test::fresh_demo_trial("hostile_stranger.furrow");
+    const std::string image = (sc.dir / "stranger.sqlite").string(), out = (sc.dir / "stranger.bundle").string();
+    REQUIRE(unpack_bundle(sc.good, image).ok());
+    REQUIRE(seal_bundle(image, stranger, out).ok());
+    cases.push_back({"signed with a key the station never enrolled", out, "has not enrolled"});
+    // Signed by B, claiming to be A's.
+    const std::string as_b = (sc.dir / "signed_by_b.bundle").string();
+    REQUIRE(seal_bundle(image, sc.b, as_b).ok());
+    cases.push_back({"A's rows signed with B's key", as_b, "signed with the key of"});
+    // Signed with the station's own key.
+    const std::string as_station = (sc.dir / "signed_by_station.bundle").string();
+    REQUIRE(seal_bundle(image, sc.station, as_station).ok());
+    cases.push_back({"a device's bundle signed with the station's own key", as_station, "station's own key"});
+  }
+  {
+    // One byte changed anywhere: every byte of the head, and bytes spread
+    // through the database (pages, free space, the end).
+    const size_t size = test::bytes_of(sc.good).size();
+    for (size_t at = 0; at < 120; ++at) cases.push_back(flipped(sc, at));
+    for (size_t at = 120; at < size; at += 997) cases.push_back(flipped(sc, at));
+    cases.push_back(flipped(sc, size - 1));
+    // Cut short and grown.
+    const std::string bytes = test::bytes_of(sc.good);
+    const std::string cut = (sc.dir / "cut.bundle").string(), grown = (sc.dir / "grown.bundle").string();
+    std::ofstream(cut, std::ios::binary) << bytes.substr(0, bytes.size() - 512);
+    std::ofstream(grown, std::ios::binary) << bytes << std::string(512, '\0');
+    cases.push_back({"cut short by 512 bytes", cut, "truncated or extended"});
+    cases.push_back({"grown by 512 bytes", grown, "truncated or extended"});
+    // An unsigned SQLite file (a bundle of the format before signatures).
+    const std::string plain = (sc.dir / "plain.sqlite").string();
+    REQUIRE(unpack_bundle(sc.good, plain).ok());
+    cases.push_back({"an unsigned SQLite bundle", plain, "not a signed Furrow bundle"});
+  }
   CHECK(cases.size() >= 25);
-  const std::string before = bytes_of(sc.station);
+  const std::string before = test::bytes_of(sc.station);
   for (const Case& c : cases) {
     CAPTURE(c.name);
     auto st = open_trial_database(sc.station);
@@ -208,7 +273,7 @@ TEST_CASE("a catalogue of hostile bundles: each refused by name and reason, the 
     CAPTURE(out.problem().message);
     CHECK(out.problem().message.rfind(c.path + ": ", 0) == 0);
     CHECK(out.problem().message.find(c.expect) != std::string::npos);
-    CHECK(bytes_of(sc.station) == before);
+    CHECK(test::bytes_of(sc.station) == before);
   }
   // The good bundles still merge, and B's after A's.
   auto st = open_trial_database(sc.station);

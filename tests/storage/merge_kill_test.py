@@ -40,7 +40,7 @@ run("trial", "new", "--plan", plan, "--db", station)
 bundles = []
 for d in range(10):
     device = os.path.join(work, f"device{d}.furrow")
-    run("trial", "copy", "--from", station, "--db", device)
+    run("trial", "copy", "--from", station, "--db", device, "--by", "Test manager")
     con = sqlite3.connect(device)
     dev_id = con.execute("SELECT device_id FROM this_device").fetchone()[0]
     plots = [r[0] for r in con.execute("SELECT id FROM plot ORDER BY id")]
@@ -61,6 +61,13 @@ for d in range(10):
 
 
 def keys(path, table="observation"):
+    if path.endswith(".bundle"):
+        # A signed bundle: its SQLite database starts at byte 120 (storage/bundle.h).
+        with open(path, "rb") as f:
+            image = f.read()[120:]
+        path = path + ".sqlite"
+        with open(path, "wb") as f:
+            f.write(image)
     con = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
     k = set(con.execute(f"SELECT device_id, sequence FROM {table}").fetchall())
     con.close()

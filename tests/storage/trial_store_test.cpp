@@ -1,5 +1,6 @@
 // The trial database: schema rules, the append-only log and its views.
 
+#include "storage/enrolment.h"
 #include "storage/trial_store.h"
 
 #include <doctest/doctest.h>
@@ -144,6 +145,8 @@ TEST_CASE("a schema-1 database migrates to schema 2: log kept, a trial identity 
       DROP TABLE station_holding;
       DROP TABLE merged_bundle;
       DROP TABLE walk_choice;
+      DROP TABLE signing_key;
+      DROP TABLE enrolment;
       ALTER TABLE observation DROP COLUMN confirmed_checks;
       PRAGMA user_version = 1;
       COMMIT;
@@ -163,6 +166,14 @@ TEST_CASE("a schema-1 database migrates to schema 2: log kept, a trial identity 
   REQUIRE(version.ok());
   REQUIRE(version->step());
   CHECK(version->integer(0) == kSchemaVersion);
+  // Schema 5: the file was given its own key, enrolled as its station's.
+  auto key = own_key(open->db);
+  REQUIRE(key.ok());
+  auto self = enrolment_by_key(open->db, key->public_key);
+  REQUIRE(self.ok());
+  REQUIRE(self->has_value());
+  CHECK((*self)->role == "station");
+  CHECK((*self)->device_id == open->trial.device_id);
   auto fk = open->db.prepare("PRAGMA foreign_key_check");
   REQUIRE(fk.ok());
   CHECK_FALSE(fk->step());   // no dangling references

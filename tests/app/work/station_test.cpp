@@ -30,7 +30,7 @@ TEST_CASE("a folder of bundles goes into the right trials, one bundle per step, 
   fs::create_directories(devices);
   for (const char* name : {"a", "b"}) {
     const std::string dev = (devices / (std::string(name) + ".furrow")).string();
-    REQUIRE(copy_trial_for_device(station, dev).ok());
+    REQUIRE(copy_trial_for_device(station, dev, DeviceEnrolment{"", "Test manager"}).ok());
     auto s = RecordSession::open(dev, name);
     REQUIRE(s.ok());
     s->set_trait(1);
@@ -48,7 +48,7 @@ TEST_CASE("a folder of bundles goes into the right trials, one bundle per step, 
     const std::string other = (devices / "other.furrow").string();
     fs::copy_file(test::fresh_demo_trial("station_other_src.furrow"), other);
     const std::string other_device = (devices / "other_device.furrow").string();
-    REQUIRE(copy_trial_for_device(other, other_device).ok());
+    REQUIRE(copy_trial_for_device(other, other_device, DeviceEnrolment{"", "Test manager"}).ok());
     {
       auto s = RecordSession::open(other_device, "Oda");
       REQUIRE(s.ok());
