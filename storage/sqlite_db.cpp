@@ -3,8 +3,13 @@
 
 #include <sqlite3.h>
 
+#include <cerrno>
 #include <cstdio>
 #include <cstring>
+#include <filesystem>
+#include <optional>
+
+#include <unistd.h>
 
 namespace furrow {
 
@@ -108,16 +113,55 @@ Database::~Database() {
   if (db_) sqlite3_close_v2(db_);
 }
 
+namespace {
+
+// "file:PATH" with what a URI path cannot hold percent-encoded, and `query`.
+std::string uri_of(const std::string& path, const std::string& query) {
+  std::string uri = "file:";
+  for (unsigned char c : path) {
+    if (c == '%' || c == '?' || c == '#' || c < 0x20) {
+      char buf[4];
+      std::snprintf(buf, sizeof buf, "%%%02X", c);
+      uri += buf;
+    } else {
+      uri += static_cast<char>(c);
+    }
+  }
+  return uri + "?" + query;
+}
+
+// Why the folder of `path` cannot be written ("" when it can).
+std::string unwritable_folder(const std::string& path) {
+  std::error_code ec;
+  const auto folder = std::filesystem::absolute(path, ec).parent_path();
+  if (ec) return "";
+  if (::access(folder.c_str(), W_OK) == 0) return "";
+  if (errno == EROFS) return "it is on a read-only file system (a write-protected card or drive?)";
+  if (errno == EACCES) return "its folder cannot be written (no permission)";
+  return "";
+}
+
+}  // namespace
+
 Result<Database> Database::open(const std::string& path, bool create) {
   Database d;
   const int flags = SQLITE_OPEN_READWRITE | (create ? SQLITE_OPEN_CREATE : 0);
+  const auto unwritable = [&]() -> std::optional<Problem> {
+    const std::string why = unwritable_folder(path);
+    if (why.empty()) return std::nullopt;
+    return make_problem(path + ": " + why + ": it can be shown, exported and analysed, but nothing can be saved");
+  };
   if (const int rc = sqlite3_open_v2(path.c_str(), &d.db_, flags, nullptr); rc != SQLITE_OK) {
+    if (auto p = unwritable()) return *p;
     std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
     return make_problem(path + ": " + plain_sqlite_error(rc, msg));
   }
   sqlite3_busy_timeout(d.db_, 5000);
   for (const char* pragma : {"PRAGMA foreign_keys = ON", "PRAGMA journal_mode = WAL", "PRAGMA synchronous = FULL"}) {
-    if (auto s = d.exec(pragma); !s) return make_problem(path + ": " + s.problem().message);
+    if (auto s = d.exec(pragma); !s) {
+      if (auto p = unwritable()) return *p;
+      return make_problem(path + ": " + s.problem().message);
+    }
   }
   if (!create && sqlite3_db_readonly(d.db_, "main") == 1)
     return make_problem(path + ": " + plain_sqlite_error(SQLITE_READONLY, "opened read-only"));
@@ -158,18 +202,7 @@ void harden(sqlite3* db, std::int64_t* steps) {
 
 Result<Database> Database::open_read_only(const std::string& path) {
   Database d;
-  // Percent-encode what a URI path cannot hold as it is.
-  std::string uri = "file:";
-  for (unsigned char c : path) {
-    if (c == '%' || c == '?' || c == '#' || c < 0x20) {
-      char buf[4];
-      std::snprintf(buf, sizeof buf, "%%%02X", c);
-      uri += buf;
-    } else {
-      uri += static_cast<char>(c);
-    }
-  }
-  uri += "?immutable=1";
+  const std::string uri = uri_of(path, "immutable=1");
   if (sqlite3_open_v2(uri.c_str(), &d.db_, SQLITE_OPEN_READONLY | SQLITE_OPEN_URI, nullptr) != SQLITE_OK) {
     std::string msg = d.db_ ? sqlite3_errmsg(d.db_) : "out of memory";
     return make_problem("cannot open " + path + ": " + msg);
@@ -205,6 +238,9 @@ Result<Database> Database::open_image_copy(const std::string& image) {
   auto* buffer = static_cast<unsigned char*>(sqlite3_malloc64(image.size() ? image.size() : 1));
   if (!buffer) return make_problem("no memory for a database of " + std::to_string(image.size()) + " bytes");
   std::memcpy(buffer, image.data(), image.size());
+  // A file in WAL mode says so in its header (bytes 18 and 19 are 2); a
+  // database in memory has no WAL: mark the copy as a rollback-journal file.
+  if (image.size() >= 100) buffer[18] = buffer[19] = 1;
   const int rc = sqlite3_deserialize(d.db_, "main", buffer, static_cast<sqlite3_int64>(image.size()),
                                      static_cast<sqlite3_int64>(image.size()),
                                      SQLITE_DESERIALIZE_FREEONCLOSE | SQLITE_DESERIALIZE_RESIZEABLE);
@@ -239,7 +275,24 @@ Result<Database> Database::open_looking(const std::string& path) {
   sqlite3_busy_timeout(d.db_, 5000);
   sqlite3_db_config(d.db_, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
   sqlite3_db_config(d.db_, SQLITE_DBCONFIG_TRUSTED_SCHEMA, 0, nullptr);
-  return d;
+  if (d.exec("SELECT 1 FROM sqlite_master LIMIT 1")) return d;
+  // A file in WAL mode in a folder that cannot be written (a read-only file
+  // system): SQLite cannot make the shared-memory file beside it. With no
+  // log left beside the file, everything is in the file: read it as it is.
+  const std::string why = unwritable_folder(path);
+  std::error_code ec;
+  const auto wal = std::filesystem::file_size(path + "-wal", ec);
+  if (why.empty()) return d;   // the caller's first query says what is wrong
+  if (!ec && wal > 0)
+    return make_problem(path + ": " + why + ", and the file's last saves are still in " + path +
+                        "-wal beside it; copy both files to a folder that can be written and open the copy");
+  Database r;
+  if (sqlite3_open_v2(uri_of(path, "immutable=1").c_str(), &r.db_, SQLITE_OPEN_READONLY | SQLITE_OPEN_URI, nullptr) !=
+      SQLITE_OK)
+    return make_problem(path + ": " + why + " and the file cannot be read there");
+  sqlite3_db_config(r.db_, SQLITE_DBCONFIG_DEFENSIVE, 1, nullptr);
+  sqlite3_db_config(r.db_, SQLITE_DBCONFIG_TRUSTED_SCHEMA, 0, nullptr);
+  return r;
 }
 
 Result<Database> Database::create_standalone(const std::string& path) {

@@ -81,6 +81,49 @@ check("the disk is full" in r.stderr and "exit 2" in r.stdout,
 check("export exit 2" in r.stdout and "earlier export unchanged" in r.stdout,
       f"an export on a full disk fails and leaves the earlier file whole ({r.stdout.strip()} {r.stderr.strip()})")
 
+# 2b. A read-only file system (a write-protected card): the read-only
+#     commands work; a save says why it cannot be made, naming the file once.
+script = f"""
+mkdir -p '{p("ro")}'
+mount -t tmpfs -o size=2m tmpfs '{p("ro")}'
+cp '{p("t.furrow")}' '{p("ro")}/t.furrow'
+mount -o remount,ro '{p("ro")}'
+'{furrow}' trial show --db '{p("ro")}/t.furrow' > /dev/null && echo "show ok"
+'{furrow}' export --db '{p("ro")}/t.furrow' --layout > /dev/null && echo "export ok"
+'{furrow}' report --db '{p("ro")}/t.furrow' --out '{p("ro_report.html")}' > /dev/null && echo "report ok"
+'{furrow}' conflicts --db '{p("ro")}/t.furrow' > /dev/null && echo "conflicts ok"
+'{furrow}' device list --db '{p("ro")}/t.furrow' > /dev/null && echo "device list ok"
+'{furrow}' record --db '{p("ro")}/t.furrow' --plot 101 --trait height_cm --value 90 --observer Ana || echo "record exit $?"
+"""
+r = subprocess.run(["unshare", "-m", "sh", "-c", script], capture_output=True, text=True)
+for what in ("show", "export", "report", "conflicts", "device list"):
+    check(f"{what} ok" in r.stdout, f"{what} works on a read-only file system ({r.stdout.strip()} {r.stderr.strip()[:200]})")
+check("record exit 2" in r.stdout and r.stderr.strip() == p("ro") + "/t.furrow: it is on a read-only file system "
+      "(a write-protected card or drive?): it can be shown, exported and analysed, but nothing can be saved",
+      f"a save on a read-only file system says so in words ({r.stderr.strip()})")
+
+# 2c. A file of the schema before keys (4), given to read-only commands: not
+#     upgraded, not written; a writing command upgrades it.
+shutil.copy(p("t.furrow"), p("old.furrow"))
+con = sqlite3.connect(p("old.furrow"))
+con.executescript("DROP TABLE signing_key; DROP TABLE enrolment; PRAGMA user_version = 4;")
+con.close()
+before = digest(p("old.furrow"))
+for args in (("trial", "show"), ("export", "--long"), ("report", "--out", p("old.html")), ("conflicts",),
+             ("device", "list")):
+    r = run(*args[:2], "--db", p("old.furrow"), *args[2:], text=True) if args[0] == "device" else \
+        run(args[0], *([args[1]] if args[0] == "trial" else []), "--db", p("old.furrow"),
+            *(args[1:] if args[0] != "trial" else []), text=True)
+    check(r.returncode == 0, f"{' '.join(args)} reads a schema-4 file ({r.stderr.strip()})")
+    check(digest(p("old.furrow")) == before, f"{' '.join(args)} left the schema-4 file byte for byte as it was")
+run("record", "--db", p("old.furrow"), "--plot", "101", "--trait", "height_cm", "--value", "90", "--observer", "Ana",
+    check=True)
+con = sqlite3.connect(p("old.furrow"))
+check(con.execute("PRAGMA user_version").fetchone()[0] == 5 and
+      con.execute("SELECT count(*) FROM signing_key").fetchone()[0] == 1,
+      "a save upgrades it to schema 5 and gives it its own key")
+con.close()
+
 # 3. Another program's database and a bundle, given to read-only commands.
 other = p("other.db")
 con = sqlite3.connect(other)
