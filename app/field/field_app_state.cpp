@@ -322,6 +322,8 @@ class FieldApp final : public FieldAppState {
         if (open) {
           auto c = list_conflicts(open->db, open->trial);
           if (c) station_->conflicts = std::move(c).value();
+          auto d = device_records(open->db);
+          if (d) station_->devices = std::move(d).value();
         }
       }
     }
@@ -362,6 +364,17 @@ class FieldApp final : public FieldAppState {
       case StationAction::Kind::keep:
       case StationAction::Kind::new_value:
       case StationAction::Kind::mark_missing: settle(*action); break;
+      case StationAction::Kind::revoke_device: {
+        auto open = open_trial_database(trial_path_);
+        Status done = open ? revoke_device(open->db, action->text, observer(), "revoked on the Station screen")
+                           : Status(open.problem());
+        station_ui_.message = done ? "Device " + action->text + " revoked: its later bundles are refused; what it "
+                                     "brought before stays, marked in the exported data"
+                                   : done.problem().message;
+        station_ui_.message_is_problem = !done;
+        station_.reset();
+        break;
+      }
     }
   }
 

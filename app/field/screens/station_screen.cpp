@@ -6,6 +6,7 @@
 
 #include "app/field/screens/widgets.h"
 #include "app/work/glossary.h"
+#include "storage/keys.h"
 
 namespace furrow {
 
@@ -102,6 +103,57 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
                          ImVec2(button_width("Save as missing", scale), h), plain, &st->targets,
                          "save missing " + label) && st->typed[0])
           action = StationAction{StationAction::Kind::mark_missing, c, 0, id_of_cell, {}, st->typed};
+      }
+    }
+  }
+
+  // The devices this station's trial takes bundles from.
+  if (v.trial && v.trial->role == "station" && v.devices.size() > 1) {
+    ImGui::Spacing();
+    ImGui::Separator();
+    ImGui::Text("Devices of this trial");
+    ImGui::TextWrapped("Bundles are merged only from these devices, each checked by its key. Revoke a device that is "
+                       "lost or stolen: its later bundles are refused; what it brought before stays, marked.");
+    // "2026-05-01T07:00:00.000Z" as people read it: "2026-05-01 07:00 UTC".
+    const auto when = [](const std::string& iso) {
+      return iso.size() < 16 ? iso : iso.substr(0, 10) + " " + iso.substr(11, 5) + " UTC";
+    };
+    for (const DeviceRecord& d : v.devices) {
+      const Enrolment& e = d.enrolment;
+      if (e.role == "station") continue;
+      ImGui::Separator();
+      const std::string brought =
+          d.bundles_merged ? count_of(d.bundles_merged, "bundle") + " merged, the last " + when(d.last_merged_at) +
+                                 " (" + count_of(d.last_rows_added, "new value") + ")"
+                           : "no bundle merged yet";
+      ImGui::TextWrapped("%s  (device %s, key %s)", e.label.c_str(), e.device_id.c_str(),
+                         key_fingerprint(e.public_key).c_str());
+      ImGui::TextWrapped("Enrolled %s by %s; %s in the log; %s", when(e.enrolled_at).c_str(), e.enrolled_by.c_str(),
+                         count_of(d.rows_in_log, "value").c_str(), brought.c_str());
+      if (e.revoked()) {
+        banner(("Revoked " + when(*e.revoked_at) + " by " + e.revoked_by.value_or("?") +
+                ": its later bundles are refused")
+                   .c_str(),
+               t.refuse, t.refuse_text);
+        continue;
+      }
+      if (st->revoking != e.device_id) {
+        const std::string label = "Revoke " + e.label + "...##revoke" + e.device_id;
+        if (solid_button(label.c_str(), ImVec2(button_width(("Revoke " + e.label + "...").c_str(), scale), h), plain,
+                         &st->targets, "revoke " + e.device_id))
+          st->revoking = e.device_id;
+      } else {
+        const std::string yes = "Revoke " + e.label + ": refuse its later bundles";
+        const ButtonLook danger{t.refuse, t.refuse_text};
+        if (solid_button((yes + "##yes" + e.device_id).c_str(), ImVec2(button_width(yes.c_str(), scale), h), danger,
+                         &st->targets, "confirm revoke " + e.device_id)) {
+          action = StationAction{StationAction::Kind::revoke_device, 0, 0, {}, {}, e.device_id};
+          st->revoking.clear();
+        }
+        flow_next(button_width("Keep it", scale));
+        if (solid_button(("Keep it##no" + e.device_id).c_str(), ImVec2(button_width("Keep it", scale), h), plain,
+                         &st->targets, "keep device " + e.device_id))
+          st->revoking.clear();
       }
     }
   }

@@ -2,7 +2,9 @@
 // The Station screen, for day's end: import every bundle in a folder (with
 // progress), settle the conflicts of the open trial (keep one of the values,
 // enter a new one, or mark the cell missing), see every trial's
-// completeness, write this device's bundle, export clean data and the report.
+// completeness, write this device's bundle, export clean data and the report;
+// at a station, see the enrolled devices (who enrolled each, what it brought)
+// and revoke a lost one (two taps: Revoke, then the named confirmation).
 
 #include <optional>
 #include <string>
@@ -12,6 +14,7 @@
 #include "app/work/station.h"
 #include "app/work/theme.h"
 #include "app/work/trial_summary.h"
+#include "storage/enrolment.h"
 #include "storage/settle.h"
 
 namespace furrow {
@@ -26,6 +29,7 @@ struct StationView {
   const StoredTrial* trial = nullptr;        // the open trial, if any
   std::vector<ConflictCell> conflicts;       // of the open trial
   std::vector<TrialSummary> trials;          // in the data folder
+  std::vector<DeviceRecord> devices;         // the open trial's enrolled devices (a station's trial)
 };
 
 // A conflict's cell, by what it is (not by its place in a list that another
@@ -42,15 +46,16 @@ struct StationScreenState {
   std::string message;               // outcome of the last action
   bool message_is_problem = false;
   std::vector<TapTarget> targets;    // rebuilt every frame
+  std::string revoking;              // the device whose revocation asks "are you sure"
 };
 
 struct StationAction {
-  enum class Kind { import_bundles, write_bundle, export_data, export_report, keep, new_value, mark_missing } kind =
-      Kind::import_bundles;
+  enum class Kind { import_bundles, write_bundle, export_data, export_report, keep, new_value, mark_missing,
+                    revoke_device } kind = Kind::import_bundles;
   size_t conflict = 0, row = 0;      // keep: which conflict and which of its rows, as drawn
   ConflictId cell;                   // keep, new_value, mark_missing: the cell
   ObservationKey keep{};             // keep: the row whose value stands
-  std::string text{};                // new_value: the value; mark_missing: the reason
+  std::string text{};                // new_value: the value; mark_missing: the reason; revoke_device: the device id
 };
 
 std::optional<StationAction> draw_station_screen(const StationView& view, const Theme& theme, float scale,

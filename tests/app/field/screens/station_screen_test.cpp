@@ -109,3 +109,43 @@ TEST_CASE("a value being typed stays with its cell when another program changes 
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("a device is revoked in two taps: Revoke, then the named confirmation; Keep it takes the question back") {
+  Headless h(800, 1280);
+  DeviceRecord station, tablet;
+  station.enrolment.device_id = h.trial.device_id;
+  station.enrolment.role = "station";
+  station.enrolment.public_key = std::string(32, 's');
+  station.enrolment.label = "Station";
+  tablet.enrolment.device_id = "0123456789abcdef";
+  tablet.enrolment.public_key = std::string(32, 't');
+  tablet.enrolment.label = "Tablet 3";
+  tablet.enrolment.enrolled_by = "Mara Quill";
+  tablet.enrolment.enrolled_at = "2026-05-01T07:00:00.000Z";
+  tablet.rows_in_log = 412;
+  h.view.devices = {station, tablet};
+  h.ui.frame();
+  REQUIRE(test::find_target(h.state.targets, "revoke 0123456789abcdef") != nullptr);
+  CHECK(test::find_target(h.state.targets, "revoke " + h.trial.device_id) == nullptr);   // never the station itself
+  h.ui.tap(*test::find_target(h.state.targets, "revoke 0123456789abcdef"));
+  CHECK_FALSE(h.action.has_value());   // one tap only asks
+  REQUIRE(test::find_target(h.state.targets, "keep device 0123456789abcdef") != nullptr);
+  h.ui.tap(*test::find_target(h.state.targets, "keep device 0123456789abcdef"));
+  CHECK_FALSE(h.action.has_value());
+  CHECK(test::find_target(h.state.targets, "confirm revoke 0123456789abcdef") == nullptr);
+  h.ui.tap(*test::find_target(h.state.targets, "revoke 0123456789abcdef"));
+  h.ui.tap(*test::find_target(h.state.targets, "confirm revoke 0123456789abcdef"));
+  REQUIRE(h.action.has_value());
+  CHECK(h.action->kind == StationAction::Kind::revoke_device);
+  CHECK(h.action->text == "0123456789abcdef");
+  for (const TapTarget& t : h.state.targets) {
+    CAPTURE(t.label);
+    CHECK(t.y1 - t.y0 >= kTouchTargetPx - 0.5f);
+  }
+}
+
+}  // namespace
+}  // namespace furrow
