@@ -29,6 +29,7 @@ const char* fit_method_name(FitMethod method) {
     case FitMethod::automatic: return "automatic";
     case FitMethod::balanced: return "balanced";
     case FitMethod::absorbed: return "absorbed";
+    case FitMethod::cells: return "cells";
     case FitMethod::dense: return "dense";
   }
   return "?";
@@ -53,6 +54,16 @@ using Eigen::VectorXd;
 // residues near 1e-14 while the smallest genuine pivot in designs of up to
 // 10^5 plots stays far above 1e-9.
 constexpr double kRankTolerance = 1e-9;
+
+// Above this many indicator columns (all terms' cells and the intercept) the
+// dense method's n x p basis costs more than the cells method, which never
+// forms the largest term's columns (measured: 900 plots of a 6-site, 50-entry
+// trial need 367 columns and 0.2 s dense; ours at 300: the dense method
+// stays on the small designs the published checks cover).
+constexpr int kDenseColumnLimit = 300;
+// The cells method forms the other terms' columns: beyond this many it is
+// not used (no design Furrow offers comes near).
+constexpr int kCellsRestColumnLimit = 2000;
 
 // ---------------------------------------------------------------- [cells]
 
@@ -214,6 +225,24 @@ struct LinearModel::Impl {
   std::vector<MeansPlan> means;
   double residual_df = 0;
 
+  // Cells method: each model of the sequences, fitted by absorbing one term.
+  struct CellModel {
+    std::vector<int> terms;     // ascending term indices
+    int absorbed = -1;          // the absorbed term (-1: the intercept-only model)
+    std::vector<int> rest;      // terms not contained in the absorbed one
+    MatrixXd q;                 // n x k: the rest's columns within the absorbed cells, orthonormal
+    double rank = 1;            // cells of the absorbed term + k
+  };
+  std::vector<CellModel> cell_models;
+  struct CellStep { int lower = 0, upper = 0; };   // models before and after a term
+  std::vector<CellStep> cell_sequential, cell_partial;   // per term
+  int cell_full = -1;                                    // the full model (means, residuals)
+  // Means of the cells method: per means cell, the absorbed cells it averages and their weights.
+  std::vector<std::vector<std::vector<std::pair<int, double>>>> cell_weights;   // per means plan
+
+  int cell_model(std::vector<int> terms, int absorbed);
+  VectorXd cell_residual(const CellModel& cm, const VectorXd& yc) const;
+
   MatrixXd within_columns(const MatrixXd& x) const;
   Sequence make_sequence(const std::vector<int>& order) const;
   std::vector<double> increments(const Sequence& s, const VectorXd& yc, const VectorXd& yw,
@@ -228,6 +257,73 @@ MatrixXd LinearModel::Impl::within_columns(const MatrixXd& x) const {
   MatrixXd w = x;
   for (int i = 0; i < design.n; ++i) w.row(i) -= means.row(f.cell_of[i]);
   return w;
+}
+
+// Subtracts from each row the mean of its cell of `cells`.
+MatrixXd within_cells(const MatrixXd& x, const TermCells& f, int n) {
+  MatrixXd means = MatrixXd::Zero(static_cast<Eigen::Index>(f.count.size()), x.cols());
+  for (int i = 0; i < n; ++i) means.row(f.cell_of[i]) += x.row(i);
+  for (size_t c = 0; c < f.count.size(); ++c) means.row(c) /= f.count[c];
+  MatrixXd w = x;
+  for (int i = 0; i < n; ++i) w.row(i) -= means.row(f.cell_of[i]);
+  return w;
+}
+
+int LinearModel::Impl::cell_model(std::vector<int> terms, int absorbed) {
+  std::sort(terms.begin(), terms.end());
+  if (!terms.empty() && absorbed < 0) {
+    absorbed = terms.front();
+    for (int t : terms)
+      if (cells[t].levels.size() > cells[absorbed].levels.size()) absorbed = t;
+  }
+  for (size_t k = 0; k < cell_models.size(); ++k)
+    if (cell_models[k].terms == terms && cell_models[k].absorbed == absorbed) return static_cast<int>(k);
+  CellModel cm;
+  cm.terms = terms;
+  cm.absorbed = absorbed;
+  if (absorbed >= 0) {
+    const int n = design.n;
+    for (int t : terms)
+      if (!is_subset(design.terms[t], design.terms[absorbed])) cm.rest.push_back(t);
+    int width = 0;
+    for (int t : cm.rest) width += static_cast<int>(cells[t].levels.size());
+    cm.q = MatrixXd(n, 0);
+    if (width > 0) {
+      MatrixXd x(n, width);
+      int col = 0;
+      for (int t : cm.rest) {
+        x.middleCols(col, cells[t].levels.size()) = indicator_columns(cells[t], n);
+        col += static_cast<int>(cells[t].levels.size());
+      }
+      const double norm = max_column_norm(x);
+      Eigen::ColPivHouseholderQR<MatrixXd> qr(within_cells(x, cells[absorbed], n));
+      const MatrixXd& r = qr.matrixQR();
+      const double tol = kRankTolerance * std::max(1.0, norm);
+      int rank = 0;
+      for (Eigen::Index k = 0; k < std::min(r.rows(), r.cols()); ++k)
+        if (std::abs(r(k, k)) > tol) ++rank;
+      cm.q = qr.householderQ() * MatrixXd::Identity(n, rank);
+    }
+    cm.rank = static_cast<double>(cells[absorbed].levels.size()) + static_cast<double>(cm.q.cols());
+  }
+  cell_models.push_back(std::move(cm));
+  return static_cast<int>(cell_models.size()) - 1;
+}
+
+// y (centred) less its projection on the model: y less its absorbed-cell
+// means, less the projection of that on the other terms' columns within the cells.
+VectorXd LinearModel::Impl::cell_residual(const CellModel& cm, const VectorXd& yc) const {
+  if (cm.absorbed < 0) return yc;
+  const TermCells& f = cells[cm.absorbed];
+  std::vector<CompensatedSum> sums(f.count.size());
+  const int n = design.n;
+  for (int i = 0; i < n; ++i) sums[f.cell_of[i]].add(yc(i));
+  std::vector<double> mean(f.count.size());
+  for (size_t c = 0; c < f.count.size(); ++c) mean[c] = sums[c].value() / f.count[c];
+  VectorXd r(n);
+  for (int i = 0; i < n; ++i) r(i) = yc(i) - mean[f.cell_of[i]];
+  if (cm.q.cols() > 0) r.noalias() -= cm.q * (cm.q.transpose() * r);
+  return r;
 }
 
 LinearModel::Impl::Sequence LinearModel::Impl::make_sequence(const std::vector<int>& order) const {
@@ -376,6 +472,37 @@ std::vector<std::vector<std::vector<int>>> observed_group_combos(const CodedDesi
   return out;
 }
 
+// Calls `visit` with the factor assignment of every point of the reference
+// grid that agrees with the target levels. False when a group has no
+// observed combination agreeing with the target, or `visit` says stop.
+template <class Visit>
+bool for_each_grid_point(const CodedDesign& d, const std::vector<std::vector<std::vector<int>>>& group_combos,
+                         const std::vector<int>& target_factors, const std::vector<int>& target_levels, Visit visit) {
+  std::vector<int> assignment(d.factors.size(), -1);
+  for (size_t k = 0; k < target_factors.size(); ++k) assignment[target_factors[k]] = target_levels[k];
+  std::vector<std::vector<const std::vector<int>*>> choices(d.grid_groups.size());
+  for (size_t g = 0; g < d.grid_groups.size(); ++g) {
+    for (const auto& combo : group_combos[g]) {
+      bool ok = true;
+      for (size_t k = 0; k < d.grid_groups[g].size(); ++k) {
+        const int f = d.grid_groups[g][k];
+        if (assignment[f] >= 0 && assignment[f] != combo[k]) { ok = false; break; }
+      }
+      if (ok) choices[g].push_back(&combo);
+    }
+    if (choices[g].empty()) return false;
+  }
+  std::vector<size_t> pick(d.grid_groups.size(), 0);
+  while (true) {
+    for (size_t g = 0; g < d.grid_groups.size(); ++g)
+      for (size_t k = 0; k < d.grid_groups[g].size(); ++k) assignment[d.grid_groups[g][k]] = (*choices[g][pick[g]])[k];
+    if (!visit(assignment)) return false;
+    size_t g = 0;
+    while (g < pick.size() && ++pick[g] == choices[g].size()) { pick[g] = 0; ++g; }
+    if (g == pick.size()) return true;
+  }
+}
+
 // a_i = T^-1 U' L_i where R' = U T (thin QR): then L_i' beta = a_i' (Q' y) and
 // Var(L_i' beta) = sigma^2 |a_i|^2 for the model whose orthonormal basis is Q
 // and whose columns satisfy X = Q R.
@@ -425,9 +552,30 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
     if (contained || !means_ok) continue;
     if (absorbable < 0 || impl->cells[t].levels.size() > impl->cells[absorbable].levels.size()) absorbable = t;
   }
+  // The cells method absorbs, for the means, the largest term that contains
+  // every means term.
+  int cells_absorbed = -1;
+  for (int t = 0; t < nt; ++t) {
+    bool contains_all = true;
+    for (int m : d.means_terms) contains_all = contains_all && is_subset(d.terms[m], d.terms[t]);
+    if (contains_all && (cells_absorbed < 0 || impl->cells[t].levels.size() > impl->cells[cells_absorbed].levels.size()))
+      cells_absorbed = t;
+  }
+  int dense_columns = 1, rest_columns = 0;
+  for (int t = 0; t < nt; ++t) {
+    dense_columns += static_cast<int>(impl->cells[t].levels.size());
+    if (cells_absorbed >= 0 && !is_subset(d.terms[t], d.terms[cells_absorbed]))
+      rest_columns += static_cast<int>(impl->cells[t].levels.size());
+  }
+  const bool cells_apply = cells_absorbed >= 0 && rest_columns <= kCellsRestColumnLimit;
   FitMethod method = forced;
   if (method == FitMethod::automatic)
-    method = is_orthogonal(d) ? FitMethod::balanced : absorbable >= 0 ? FitMethod::absorbed : FitMethod::dense;
+    method = is_orthogonal(d)                                       ? FitMethod::balanced
+             : absorbable >= 0                                      ? FitMethod::absorbed
+             : cells_apply && dense_columns > kDenseColumnLimit     ? FitMethod::cells
+                                                                    : FitMethod::dense;
+  if (method == FitMethod::cells && !cells_apply)
+    return make_problem("the cells method needs a term that contains every treatment term");
   if (method == FitMethod::balanced && !is_orthogonal(d))
     return make_problem("the balanced method needs equally replicated, orthogonal terms");
   if (method == FitMethod::absorbed && absorbable < 0)
@@ -446,6 +594,26 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
       model_df += df;
     }
     impl->residual_df = d.n - model_df;
+  } else if (method == FitMethod::cells) {
+    std::vector<int> all(nt);
+    std::iota(all.begin(), all.end(), 0);
+    impl->cell_full = impl->cell_model(all, cells_absorbed);
+    const auto model_of = [&](const std::vector<int>& terms) {
+      std::vector<int> sorted = terms;
+      std::sort(sorted.begin(), sorted.end());
+      return sorted == all ? impl->cell_full : impl->cell_model(sorted, -1);
+    };
+    for (int t = 0; t < nt; ++t) {
+      const std::vector<int> before(all.begin(), all.begin() + t), upto(all.begin(), all.begin() + t + 1);
+      impl->cell_sequential.push_back({model_of(before), model_of(upto)});
+      std::vector<int> order;
+      for (int u = 0; u < nt; ++u)
+        if (u != t && !is_subset(d.terms[t], d.terms[u])) order.push_back(u);
+      const int lower = model_of(order);
+      order.push_back(t);
+      impl->cell_partial.push_back({lower, model_of(order)});
+    }
+    impl->residual_df = d.n - impl->cell_models[impl->cell_full].rank;
   } else {
     if (method == FitMethod::absorbed) {
       impl->absorbed_term = absorbable;
@@ -490,6 +658,74 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
     if (method == FitMethod::balanced) {
       for (int c = 0; c < ncell; ++c) plan.v[c] = 1.0 / tc.count[c];
       plan.a = MatrixXd(ncell, 0);
+    } else if (method == FitMethod::cells) {
+      // mean_i = sum_c w_ic ybar_c + d_i' beta, beta the other terms'
+      // coefficients within the absorbed cells and d_i their grid average
+      // less the w-weighted average over the plots of those cells. The cells
+      // of two means differ, so Var(mean_i - mean_j) = v_i + v_j + |a_i - a_j|^2.
+      const Impl::CellModel& full = impl->cell_models[impl->cell_full];
+      const TermCells& ac = impl->cells[full.absorbed];
+      const Layout layout = make_layout(full.rest, impl->cells, 0);
+      const Layout a_layout = make_layout({full.absorbed}, impl->cells, 0);
+      const ColumnIndex column_of = make_column_index(d, impl->cells, layout);
+      const ColumnIndex a_cell_of = make_column_index(d, impl->cells, a_layout);
+      const int k = static_cast<int>(full.q.cols());
+      plan.a = MatrixXd::Zero(ncell, k);
+      std::vector<std::vector<std::pair<int, double>>> weights(ncell);
+      MatrixXd cell_means_of_rest;   // per absorbed cell, the average of its plots' rest columns
+      CoefficientMap map;
+      if (layout.width > 0) {
+        MatrixXd x(d.n, layout.width);
+        for (size_t j = 0; j < full.rest.size(); ++j)
+          x.middleCols(layout.offset[j], impl->cells[full.rest[j]].levels.size()) =
+              indicator_columns(impl->cells[full.rest[j]], d.n);
+        cell_means_of_rest = MatrixXd::Zero(static_cast<Eigen::Index>(ac.count.size()), layout.width);
+        for (int i = 0; i < d.n; ++i) cell_means_of_rest.row(ac.cell_of[i]) += x.row(i);
+        for (size_t c = 0; c < ac.count.size(); ++c) cell_means_of_rest.row(c) /= ac.count[c];
+        if (k > 0) map = coefficient_map(full.q.transpose() * within_cells(x, ac, d.n));
+      }
+      for (int c = 0; c < ncell; ++c) {
+        std::unordered_map<int, double> w;
+        VectorXd g = VectorXd::Zero(layout.width);
+        long long points = 0;
+        const bool seen = for_each_grid_point(d, combos, d.terms[m], tc.levels[c], [&](const std::vector<int>& at) {
+          long long key = 0;
+          for (int f : d.terms[full.absorbed]) key = key * (d.factors[f].levels + 1) + at[f];
+          const auto cell = a_cell_of[0].find(key);
+          if (cell == a_cell_of[0].end()) return false;   // a cell no plot was measured in
+          w[cell->second] += 1.0;
+          for (size_t j = 0; j < layout.terms.size(); ++j) {
+            long long rk = 0;
+            for (int f : d.terms[layout.terms[j]]) rk = rk * (d.factors[f].levels + 1) + at[f];
+            const auto col = column_of[j].find(rk);
+            if (col == column_of[j].end()) return false;
+            g(col->second) += 1.0;
+          }
+          ++points;
+          return true;
+        });
+        if (!seen || points == 0) { plan.estimable[c] = 0; continue; }
+        g /= static_cast<double>(points);
+        VectorXd dvec = g;
+        double v = 0;
+        for (auto& [cell, weight] : w) {
+          weight /= static_cast<double>(points);
+          v += weight * weight / ac.count[cell];
+          if (layout.width > 0) dvec -= weight * cell_means_of_rest.row(cell).transpose();
+          weights[c].push_back({cell, weight});
+        }
+        std::sort(weights[c].begin(), weights[c].end());
+        plan.v[c] = v;
+        if (k > 0) {
+          VectorXd a;
+          if (!apply_map(map, dvec, &a)) { plan.estimable[c] = 0; continue; }
+          plan.a.row(c) = a.transpose();
+        } else if (layout.width > 0 && dvec.norm() > 1e-8 * std::max(1.0, g.norm())) {
+          plan.estimable[c] = 0;   // the other terms' columns add nothing within the cells, yet the grid needs them
+          continue;
+        }
+      }
+      impl->cell_weights.push_back(std::move(weights));
     } else if (method == FitMethod::dense) {
       std::vector<int> all(nt);
       std::iota(all.begin(), all.end(), 0);
@@ -586,6 +822,40 @@ ResponseFit LinearModel::fit(const std::vector<double>& y_in) const {
       out.terms[t] = {m.sequential.df[t], ss.value(), m.sequential.df[t], ss.value()};
     }
     out.leverages.assign(n, (n - m.residual_df) / n);
+  } else if (m.method == FitMethod::cells) {
+    std::vector<VectorXd> residual(m.cell_models.size());
+    std::vector<char> have(m.cell_models.size(), 0);
+    const auto residual_of = [&](int id) -> const VectorXd& {
+      if (!have[id]) {
+        residual[id] = m.cell_residual(m.cell_models[id], yc);
+        have[id] = 1;
+      }
+      return residual[id];
+    };
+    // A step's sum of squares: |P_upper y - P_lower y|^2, the squared norm
+    // of y's projection on what the term adds (the difference of residuals).
+    const auto step = [&](const Impl::CellStep& st) {
+      return std::pair{m.cell_models[st.upper].rank - m.cell_models[st.lower].rank,
+                       (residual_of(st.lower) - residual_of(st.upper)).squaredNorm()};
+    };
+    for (int t = 0; t < nt; ++t) {
+      const auto [df_s, ss_s] = step(m.cell_sequential[t]);
+      const auto [df_p, ss_p] = step(m.cell_partial[t]);
+      out.terms[t] = {df_s, ss_s, df_p, ss_p};
+    }
+    e = residual_of(m.cell_full);
+    const Impl::CellModel& full = m.cell_models[m.cell_full];
+    const TermCells& ac = m.cells[full.absorbed];
+    out.leverages.assign(n, 0.0);
+    for (int i = 0; i < n; ++i)
+      out.leverages[i] = 1.0 / ac.count[ac.cell_of[i]] + (full.q.cols() ? full.q.row(i).squaredNorm() : 0.0);
+    if (full.q.cols() > 0) {
+      std::vector<CompensatedSum> sums(ac.count.size());
+      for (int i = 0; i < n; ++i) sums[ac.cell_of[i]].add(yc(i));
+      VectorXd yw(n);
+      for (int i = 0; i < n; ++i) yw(i) = yc(i) - sums[ac.cell_of[i]].value() / ac.count[ac.cell_of[i]];
+      within_projection = full.q.transpose() * yw;
+    }
   } else {
     VectorXd yw;
     double between = 0;
@@ -642,7 +912,16 @@ ResponseFit LinearModel::fit(const std::vector<double>& y_in) const {
     VectorXd y = Eigen::Map<const VectorXd>(y_in.data(), n);
     full_projection = m.sequential.raw.stacked(d.n).transpose() * y;
   }
-  for (const Impl::MeansPlan& plan : m.means) {
+  std::vector<double> absorbed_mean;   // cells method: each absorbed cell's plain mean
+  if (m.method == FitMethod::cells) {
+    const TermCells& ac = m.cells[m.cell_models[m.cell_full].absorbed];
+    std::vector<CompensatedSum> sums(ac.count.size());
+    for (int i = 0; i < n; ++i) sums[ac.cell_of[i]].add(y_in[i]);
+    absorbed_mean.resize(ac.count.size());
+    for (size_t c = 0; c < ac.count.size(); ++c) absorbed_mean[c] = sums[c].value() / ac.count[c];
+  }
+  for (size_t p = 0; p < m.means.size(); ++p) {
+    const Impl::MeansPlan& plan = m.means[p];
     const TermCells& tc = m.cells[plan.term];
     const int ncell = static_cast<int>(tc.levels.size());
     CellMeans cm;
@@ -666,6 +945,12 @@ ResponseFit LinearModel::fit(const std::vector<double>& y_in) const {
       if (!plan.estimable[c]) { cm.mean[c] = 0; continue; }
       if (m.method == FitMethod::balanced) cm.mean[c] = cm.raw_mean[c];
       else if (m.method == FitMethod::dense) cm.mean[c] = plan.a.row(c).dot(full_projection);
+      else if (m.method == FitMethod::cells) {
+        CompensatedSum mean;
+        for (const auto& [cell, weight] : m.cell_weights[p][c]) mean.add(weight * absorbed_mean[cell]);
+        if (cm.a_width) mean.add(plan.a.row(c).dot(within_projection));
+        cm.mean[c] = mean.value();
+      }
       else cm.mean[c] = cm.raw_mean[c] + (cm.a_width ? plan.a.row(c).dot(within_projection) : 0.0);
     }
     out.means.push_back(std::move(cm));

@@ -14,6 +14,16 @@
 //   absorbed  - one main-effect factor that no other term contains (entries
 //               of an RCBD, CRD or Latin square) is absorbed: the other terms
 //               are fitted within its levels, O(n * p_rest^2).
+//   cells     - designs whose dense system would be large (many-level
+//               crossed or nested terms: site x entry, rate x variety): each
+//               model of a sum-of-squares sequence is fitted by absorbing
+//               its largest term (cell means, never its indicator columns)
+//               and an orthonormal basis of the few other columns within
+//               those cells; a step's sum of squares is the squared norm of
+//               the difference of the two models' projections of y.
+//               O(n * (models) * p_rest^2), p_rest the columns of the small
+//               terms (blocks); the least-squares means use the cells of the
+//               largest term that contains every means term.
 //   dense     - everything else: pivoted QR of the indicator columns.
 // The header carries no Eigen types: only linear_model.cpp includes Eigen.
 
@@ -46,7 +56,7 @@ struct CodedDesign {
   std::vector<std::vector<int>> grid_groups;
 };
 
-enum class FitMethod { automatic, balanced, absorbed, dense };
+enum class FitMethod { automatic, balanced, absorbed, cells, dense };
 const char* fit_method_name(FitMethod method);
 
 struct TermSums {

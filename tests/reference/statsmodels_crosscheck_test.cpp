@@ -77,6 +77,12 @@ TEST_SUITE("statsmodels") {
       check_case(std::string(c) + "_unbalanced", FitMethod::dense);
     }
   }
+  TEST_CASE("the cells method (programme-scale designs) matches statsmodels on every case") {
+    for (const char* c : kCases) {
+      check_case(std::string(c) + "_balanced", FitMethod::cells);
+      check_case(std::string(c) + "_unbalanced", FitMethod::cells);
+    }
+  }
   TEST_CASE("the absorbed method matches statsmodels where it applies") {
     for (const char* c : {"crd", "rcbd", "latin"}) {
       check_case(std::string(c) + "_balanced", FitMethod::absorbed);
