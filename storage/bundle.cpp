@@ -490,8 +490,6 @@ namespace {
 
 const std::string kGapWords = "(its sequences have a gap: merge its earlier bundle first)";
 
-// Lengths a row's free text may have (ours; far above what a crew types).
-constexpr size_t kMaxNoteBytes = 2000, kMaxNameBytes = 200, kMaxReasonBytes = 200;
 
 // What the station says when two files share a device id.
 std::string clone_words(const std::string& device_id, const std::string& label) {
@@ -515,7 +513,10 @@ bool is_utc_time(const std::string& s) {
     return false;
   for (size_t i : {0, 1, 2, 3, 5, 6, 8, 9, 11, 12, 14, 15, 17, 18, 20, 21, 22})
     if (s[i] < '0' || s[i] > '9') return false;
-  return true;
+  const auto two = [&](size_t at) { return (s[at] - '0') * 10 + (s[at + 1] - '0'); };
+  const int year = two(0) * 100 + two(2);
+  return year >= 2000 && year <= 2200 && two(5) >= 1 && two(5) <= 12 && two(8) >= 1 && two(8) <= 31 && two(11) <= 23 &&
+         two(14) <= 59 && two(17) <= 60;
 }
 
 // Every row of a bundle is checked as an entry is, and against who may
@@ -577,6 +578,12 @@ Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, 
     if (!is_utc_time(r.recorded_at)) return make_problem(where + ": the time '" + r.recorded_at + "' is not a UTC time");
     if (r.confirmed_checks.size() > kMaxNameBytes) return make_problem(where + ": its confirmed checks are too long");
   }
+  auto held_cell = db.prepare("SELECT p.label, t.code, o.occasion FROM observation o JOIN plot p ON p.id = o.plot_id "
+                              "JOIN trait t ON t.id = o.trait_id WHERE o.device_id = ? AND o.sequence = ?");
+  if (!held_cell) return held_cell.problem();
+  auto held_link = db.prepare("SELECT 1 FROM replacement WHERE device_id = ? AND sequence = ? AND replaced_device_id = ? "
+                              "AND replaced_sequence = ?");
+  if (!held_link) return held_link.problem();
   // Authority: a device's rows replace only that device's rows (and a
   // renewed device's, its old id's rows the station held when it was
   // renewed); only the station's rows (settlements) replace another
@@ -591,6 +598,38 @@ Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, 
                           " of another device; only the station settles between devices");
     if (l.device_id == l.replaced_device_id && l.replaced_sequence >= l.sequence)
       return make_problem(where + " replaces a later row of its own device");
+    // A row replaces rows of its own cell only, and a row this file holds
+    // keeps the links it came with.
+    const Row& from = *by_key.at({l.device_id, l.sequence});
+    std::string plot, trait;
+    std::int64_t occasion = 0;
+    if (const auto in_bundle = by_key.find({l.replaced_device_id, l.replaced_sequence}); in_bundle != by_key.end()) {
+      plot = in_bundle->second->plot_label;
+      trait = in_bundle->second->trait_code;
+      occasion = in_bundle->second->occasion;
+    } else {
+      held_cell->reset();
+      held_cell->bind(1, l.replaced_device_id).bind(2, l.replaced_sequence);
+      if (!held_cell->step())
+        return make_problem(where + " replaces row " + l.replaced_device_id + "/" + std::to_string(l.replaced_sequence) +
+                            ", which neither the bundle nor this file holds");
+      plot = held_cell->text(0);
+      trait = held_cell->text(1);
+      occasion = held_cell->integer(2);
+    }
+    if (plot != from.plot_label || trait != from.trait_code || occasion != from.occasion)
+      return make_problem(where + " (plot " + from.plot_label + ", " + from.trait_code + ") replaces row " +
+                          l.replaced_device_id + "/" + std::to_string(l.replaced_sequence) + " of another cell (plot " +
+                          plot + ", " + trait + "); a row replaces rows of its own cell only");
+    held_cell->reset();
+    held_cell->bind(1, l.device_id).bind(2, l.sequence);
+    if (held_cell->step()) {
+      held_link->reset();
+      held_link->bind(1, l.device_id).bind(2, l.sequence).bind(3, l.replaced_device_id).bind(4, l.replaced_sequence);
+      if (!held_link->step())
+        return make_problem(where + " is held here already without a link to row " + l.replaced_device_id + "/" +
+                            std::to_string(l.replaced_sequence) + "; a row's links cannot change after it is saved");
+    }
   }
   // Sequences: the maker's rows follow on from what this database holds of
   // it, with no gap.
@@ -913,6 +952,7 @@ Status enrol_existing_device(const std::string& station_path, const std::string&
 Result<RenewOutcome> renew_device_identity(const std::string& station_path, const std::string& device_path,
                                            const DeviceEnrolment& who) {
   FURROW_TRY(check_enrolment_request(who));
+  DeviceEnrolment renamed = who;
   auto station = open_trial_database(station_path);
   if (!station) return station.problem();
   RenewOutcome out;
@@ -924,9 +964,21 @@ Result<RenewOutcome> renew_device_identity(const std::string& station_path, cons
     if (!device) return device.problem();
     if (device->trial.role != "device") return make_problem(device_path + " is a station's trial, not a device's copy");
     if (device->trial.uid != station->trial.uid)
-      return make_problem(device_path + " is a copy of '" + device->trial.plan.name + "', not of this station's trial '" +
-                          station->trial.plan.name + "'");
+      return make_problem(device_path + " is a copy of the trial '" + device->trial.plan.name + "' (" +
+                          device->trial.uid + "), not of this station's trial '" + station->trial.plan.name + "' (" +
+                          station->trial.uid + ")");
+    if (plan_hash(device->trial) != plan_hash(station->trial))
+      return make_problem(device_path + " holds a different plan of '" + station->trial.plan.name +
+                          "' (the file was altered); it cannot be given a new identity");
     out.old_device_id = device->trial.device_id;
+    auto old = enrolment_of(station->db, out.old_device_id);
+    if (!old) return old.problem();
+    if (*old && (*old)->revoked())
+      return make_problem("device " + out.old_device_id + " (" + (*old)->label + ") was revoked on " +
+                          *(*old)->revoked_at + " by " + (*old)->revoked_by.value_or("?") +
+                          "; a new identity would take its rows in again. If the tablet is back in safe hands, make a "
+                          "new copy for it with furrow trial copy");
+    if (who.label.empty() && *old) renamed.label = (*old)->label + " (new identity)";
     auto rows = device->db.prepare(std::string("SELECT ") + kRowColumns +
                                    " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
                                    "WHERE o.device_id = ? ORDER BY o.sequence");
@@ -959,7 +1011,7 @@ Result<RenewOutcome> renew_device_identity(const std::string& station_path, cons
   const std::int64_t k = out.kept_under_old_id;
   const std::string temp = device_path + ".renewing";
   remove_trial_file(temp);
-  auto made = make_device_copy(*station, station_path, temp, who, out.old_device_id, k);
+  auto made = make_device_copy(*station, station_path, temp, renamed, out.old_device_id, k);
   if (!made) return made.problem();
   out.new_device_id = *made;
   Status moved = [&]() -> Status {
@@ -977,9 +1029,14 @@ Result<RenewOutcome> renew_device_identity(const std::string& station_path, cons
       if (!insert) return insert.problem();
       for (const Row& r : own) {
         if (r.sequence <= k) continue;
+        const auto p = plot_id.find(r.plot_label);
+        const auto t = trait_id.find(r.trait_code);
+        if (p == plot_id.end() || t == trait_id.end())
+          return make_problem("row " + r.device_id + "/" + std::to_string(r.sequence) + " names plot '" + r.plot_label +
+                              "' and trait '" + r.trait_code + "', not both in the plan");
         insert->reset();
-        insert->bind(1, out.new_device_id).bind(2, r.sequence - k).bind(3, plot_id.at(r.plot_label))
-            .bind(4, trait_id.at(r.trait_code)).bind(5, r.occasion).bind(6, r.value).bind(7, r.number)
+        insert->bind(1, out.new_device_id).bind(2, r.sequence - k).bind(3, p->second)
+            .bind(4, t->second).bind(5, r.occasion).bind(6, r.value).bind(7, r.number)
             .bind(8, r.missing_reason).bind(9, r.note).bind(10, r.observer).bind(11, r.recorded_at)
             .bind(12, r.confirmed_checks);
         FURROW_TRY(insert->run());

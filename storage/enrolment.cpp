@@ -102,7 +102,7 @@ Status revoke_device(Database& db, const std::string& device_id, const std::stri
   if (by.empty()) return make_problem("say who revokes the device");
   auto e = enrolment_of(db, device_id);
   if (!e) return e.problem();
-  if (!*e) return make_problem("no device " + device_id + " is enrolled in this trial (see furrow devices)");
+  if (!*e) return make_problem("no device " + device_id + " is enrolled in this trial (see furrow device list)");
   if ((*e)->role == "station") return make_problem("the station's own key cannot be revoked");
   if ((*e)->revoked())
     return make_problem("device " + device_id + " was revoked already, on " + *(*e)->revoked_at + " by " +

@@ -2,12 +2,14 @@
 
 #include "storage/trial_store.h"
 
+#include <charconv>
 #include <chrono>
 #include <cstdio>
 #include <ctime>
 #include <filesystem>
 #include <fstream>
 #include <random>
+#include <tuple>
 #include <unordered_map>
 
 #include "storage/enrolment.h"
@@ -370,6 +372,24 @@ Status migrate(Database& db) {
   });
 }
 
+namespace {
+
+// The views and triggers of a new trial file of this schema.
+const std::vector<std::tuple<std::string, std::string, std::string>>& own_views_and_triggers() {
+  static const auto own = [] {
+    std::vector<std::tuple<std::string, std::string, std::string>> out;
+    auto db = Database::create_in_memory();
+    if (!db || !migrate(*db)) return out;
+    auto s = db->prepare("SELECT type, name, sql FROM sqlite_master WHERE type IN ('view', 'trigger') ORDER BY name");
+    if (!s) return out;
+    while (s->step()) out.emplace_back(s->text(0), s->text(1), s->text(2));
+    return out;
+  }();
+  return own;
+}
+
+}  // namespace
+
 Status create_trial_database(const std::string& path, const TrialPlan& plan, const Layout& layout,
                              const TrialIdentity& identity) {
   if (std::filesystem::exists(path)) return make_problem(path + " already exists; choose a new file name");
@@ -441,6 +461,19 @@ Result<OpenTrial> open_trial_database(const std::string& path, Access access) {
   OpenTrial out{std::move(db).value(), {}};
   Database& d = out.db;
   if (auto s = migrate(d); !s) return make_problem(path + ": " + s.problem().message);
+  {
+    // A trial file may come from another tablet: its views and triggers must
+    // be Furrow's own, word for word (an edited view could hide rows or run
+    // without end), before any query uses them. (A file of this schema is
+    // not written before this point.)
+    auto objects = d.prepare("SELECT type, name, sql FROM sqlite_master WHERE type IN ('view', 'trigger') ORDER BY name");
+    if (!objects) return make_problem(path + ": " + objects.problem().message);
+    std::vector<std::tuple<std::string, std::string, std::string>> found;
+    while (objects->step()) found.emplace_back(objects->text(0), objects->text(1), objects->text(2));
+    if (objects->failed()) return make_problem(path + ": " + objects->error());
+    if (found != own_views_and_triggers())
+      return make_problem(path + ": its views or triggers are not Furrow's (the file was altered); nothing was read");
+  }
   StoredTrial& t = out.trial;
   TrialPlan& p = t.plan;
   {
@@ -463,7 +496,12 @@ Result<OpenTrial> open_trial_database(const std::string& path, Access access) {
     p.block_rows = static_cast<int>(s->integer(11));
     p.block_columns = static_cast<int>(s->integer(12));
     p.walk = s->text(13) == "serpentine-columns" ? WalkOrder::serpentine_columns : WalkOrder::serpentine_rows;
-    p.seed = std::stoull(s->text(14));
+    {
+      const std::string seed = s->text(14);
+      const auto [end, ec] = std::from_chars(seed.data(), seed.data() + seed.size(), p.seed);
+      if (ec != std::errc() || end != seed.data() + seed.size() || seed.empty())
+        return make_problem(path + ": the trial's seed '" + seed + "' is not a whole number (the file was altered or damaged)");
+    }
     t.status = s->text(15);
     t.created_at = s->text(16);
     p.sites = split_categories(s->text(17));
@@ -565,6 +603,18 @@ Result<ObservationKey> ObservationWriter::append(const std::string& device_id, c
     slot.emplace(std::move(st).value());
     return ok_status();
   };
+  // The limits a bundle is checked against (bundle.h, R6): a row saved here
+  // must merge at the station.
+  if (o.observer.empty() || o.observer.size() > kMaxNameBytes)
+    return make_problem("the observer's name must be 1 to " + std::to_string(kMaxNameBytes) + " bytes long (it is " +
+                        std::to_string(o.observer.size()) + "); nothing was saved");
+  if (o.note.size() > kMaxNoteBytes)
+    return make_problem("the note is longer than " + std::to_string(kMaxNoteBytes) + " bytes (" +
+                        std::to_string(o.note.size()) + "); shorten it; nothing was saved");
+  if (o.missing_reason && (o.missing_reason->empty() || o.missing_reason->size() > kMaxReasonBytes))
+    return make_problem("the reason for no value must be 1 to " + std::to_string(kMaxReasonBytes) + " bytes long (it is " +
+                        std::to_string(o.missing_reason->size()) + "); nothing was saved");
+  if (o.confirmed_checks.size() > kMaxNameBytes) return make_problem("too many confirmed checks; nothing was saved");
   ObservationKey key{device_id, 0};
   auto status = in_transaction(db_, [&]() -> Status {
     FURROW_TRY(prepare(next_sequence_, "SELECT coalesce(max(sequence), 0) + 1 FROM observation WHERE device_id = ?"));

@@ -74,6 +74,11 @@ struct ObservationKey {
   std::int64_t sequence = 0;
 };
 
+// Lengths a row's free text may have (ours; far above what a crew types).
+// Entry, settlement and merge apply the same limits, so that no row a device
+// saves is one its station refuses.
+inline constexpr size_t kMaxNoteBytes = 2000, kMaxNameBytes = 200, kMaxReasonBytes = 200;
+
 struct NewObservation {
   std::int64_t plot_id = 0, trait_id = 0;
   int occasion = 1;

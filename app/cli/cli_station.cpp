@@ -3,6 +3,7 @@
 #include "app/work/glossary.h"
 
 #include <iostream>
+#include <map>
 #include <nlohmann/json.hpp>
 
 #include "core/entry_checks.h"
@@ -22,10 +23,19 @@ int fail(const std::string& message) {
   return kExitBadInput;
 }
 
-std::string row_text(const LiveObservation& r) {
+// `labels`: each enrolled device's name for people.
+std::string row_text(const LiveObservation& r, const std::map<std::string, std::string>& labels) {
+  const auto label = labels.find(r.key.device_id);
   return r.key.device_id + "/" + std::to_string(r.key.sequence) + "  " +
          (r.value ? *r.value : "missing: " + r.missing_reason.value_or("")) + "  by " + r.observer + " at " +
-         r.recorded_at;
+         r.recorded_at + (label != labels.end() ? " on " + label->second : "");
+}
+
+std::map<std::string, std::string> device_labels(Database& db) {
+  std::map<std::string, std::string> out;
+  if (auto list = list_enrolments(db))
+    for (const Enrolment& e : *list) out[e.device_id] = e.label;
+  return out;
 }
 
 }  // namespace
@@ -87,10 +97,11 @@ int run_conflicts(const std::string& db_path, bool json) {
     return 0;
   }
   std::cout << count_of(static_cast<long>(conflicts->size()), term::kConflict) << "\n";
+  const auto labels = device_labels(open->db);
   for (const ConflictCell& c : *conflicts) {
     std::cout << "plot " << terminal_safe(t.layout.plots[c.plot_index].label) << ", "
               << terminal_safe(t.plan.traits[c.trait_index].code) << ", occasion " << c.occasion << ":\n";
-    for (const auto& r : c.rows) std::cout << "  " << terminal_safe(row_text(r)) << "\n";
+    for (const auto& r : c.rows) std::cout << "  " << terminal_safe(row_text(r, labels)) << "\n";
   }
   return 0;
 }
@@ -159,7 +170,17 @@ int run_settle(const SettleRequest& r) {
   }
   auto key = settle_conflict(open->db, t, *cell, s);
   if (!key) return fail(r.db + ": " + key.problem().message);
-  std::cout << "settled plot " << r.plot << ", " << r.trait << " as " << key->device_id << "/" << key->sequence
+  const std::string kept = s.kind == Settlement::Kind::keep
+                               ? [&] {
+                                   for (const auto& row : cell->rows)
+                                     if (row.key.device_id == s.keep.device_id && row.key.sequence == s.keep.sequence)
+                                       return row.value ? *row.value : "missing (" + row.missing_reason.value_or("") + ")";
+                                   return std::string("?");
+                                 }()
+                           : s.kind == Settlement::Kind::new_value ? s.value
+                                                                   : "missing (" + s.missing_reason + ")";
+  std::cout << "settled plot " << r.plot << ", " << r.trait << ": " << terminal_safe(kept) << ", saved as row "
+            << key->device_id << "/" << key->sequence
             << " by " << r.by << "\n";
   return 0;
 }
@@ -233,11 +254,21 @@ int run_device_list(const std::string& db_path, bool json) {
   return 0;
 }
 
-int run_device_revoke(const std::string& db_path, const std::string& device, const std::string& by,
+int run_device_revoke(const std::string& db_path, const std::string& named, const std::string& by,
                       const std::string& reason) {
   auto open = open_trial_database(db_path);
   if (!open) return fail(db_path + ": " + open.problem().message);
   if (open->trial.role != "station") return fail(db_path + ": only the station's trial revokes devices");
+  // A device by its id or by its label ("Tablet 3"), when one device has it.
+  std::string device = named;
+  if (auto list = list_enrolments(open->db)) {
+    std::vector<std::string> ids;
+    for (const Enrolment& e : *list)
+      if (e.label == named && e.device_id != named) ids.push_back(e.device_id);
+    if (ids.size() > 1) return fail(db_path + ": " + std::to_string(ids.size()) + " devices are labelled '" + named +
+                                    "'; name one by its id (furrow device list)");
+    if (ids.size() == 1) device = ids.front();
+  }
   if (auto s = revoke_device(open->db, device, by, reason); !s) return fail(db_path + ": " + s.problem().message);
   std::cout << "revoked device " << device << " by " << by
             << ": its later bundles are refused; the rows merged before stay, marked device_revoked in exports\n";
@@ -254,8 +285,8 @@ int run_device_renew(const std::string& station_path, const std::string& device_
   auto out = renew_device_identity(station_path, device_path, who);
   if (!out) return fail(out.problem().message);
   std::cout << device_path << " has a new identity: device " << out->new_device_id << " (was " << out->old_device_id
-            << ")\n  " << count_of(out->kept_under_old_id, "row") << " the station holds stay under the old id; "
-            << count_of(out->rows_moved, "row") << " now belong to the new id, nothing lost\n  the old file is kept as "
+            << ")\n  rows the station already holds, kept under the old id: " << out->kept_under_old_id
+            << "\n  rows moved to the new id: " << out->rows_moved << " (nothing lost)\n  the old file is kept as "
             << out->kept_file << "\n  next: write this copy's bundle (furrow bundle) and merge it at the station\n";
   return 0;
 }

@@ -8,6 +8,8 @@
 #include <map>
 #include <set>
 
+#include <unistd.h>
+
 #include "app/cli/analysis_output.h"
 #include "app/work/record_session.h"
 #include "app/work/trial_analysis.h"
@@ -151,7 +153,16 @@ int run_export(const std::string& db_path, const std::string& kind, const std::s
     text = kind == "long" ? long_data_csv(open->trial, *live, revoked) : wide_data_csv(open->trial, *live);
   }
   if (out.empty()) {
-    std::cout << text;
+    if (!::isatty(STDOUT_FILENO)) {
+      std::cout << text;
+      return 0;
+    }
+    // On a terminal, no control character from a note or a name reaches it.
+    for (size_t at = 0; at < text.size();) {
+      const size_t end = std::min(text.find('\n', at), text.size());
+      std::cout << terminal_safe(text.substr(at, end - at)) << "\n";
+      at = end + 1;
+    }
     return 0;
   }
   // Written beside it and renamed: a full disk never leaves half a file in

@@ -71,7 +71,7 @@ int main(int argc, char** argv) {
   device_list->add_flag("--json", device_json, "JSON instead of text");
   auto* device_revoke = device->add_subcommand("revoke", "Refuse a device's later bundles (a lost or stolen tablet)");
   device_revoke->add_option("--db", device_db, "the station's trial database")->required();
-  device_revoke->add_option("--device", device_id, "the device id, as furrow device list shows it")->required();
+  device_revoke->add_option("--device", device_id, "the device's id or label, as furrow device list shows them")->required();
   device_revoke->add_option("--by", enrol_who.by, "who revokes it")->required();
   device_revoke->add_option("--reason", revoke_reason, "why");
   auto* device_enrol = device->add_subcommand("enrol", "Enrol a device copy made before keys (both files at hand)");

@@ -257,5 +257,131 @@ TEST_CASE("a renewed device may undo its old id's rows the station held, and no 
   CHECK(refused.problem().message.find("only the station settles") != std::string::npos);
 }
 
+TEST_CASE("a row held at the station keeps its links: a later bundle cannot add one") {
+  const Station s = make_station("identity_links");
+  {
+    // Two rows of one cell with no link between them (as two entries on
+    // different days, say), merged at the station.
+    auto a = open_trial_database(s.a);
+    REQUIRE(a.ok());
+    for (const char* v : {"95", "96"}) {
+      NewObservation o;
+      o.plot_id = a->trial.plot_ids[0];
+      o.trait_id = a->trial.trait_ids[1];
+      o.value = v;
+      o.number = std::stod(v);
+      o.observer = "Ana";
+      REQUIRE(append_observation(a->db, a->trial.device_id, o, utc_now()).ok());
+    }
+  }
+  const std::string first = bundle_of(s.a, s.a + ".1.bundle");
+  REQUIRE(merge(s.station, first).ok());
+  const std::string image = (s.dir / "links.sqlite").string(), forged = (s.dir / "links.bundle").string();
+  REQUIRE(unpack_bundle(first, image).ok());
+  {
+    auto db = Database::create_standalone(image);
+    REQUIRE(db.ok());
+    const std::string a_id = device_id_of(s.a);
+    REQUIRE(db->exec("INSERT INTO replacement VALUES ('" + a_id + "', 2, '" + a_id + "', 1); "
+                     "UPDATE manifest SET value = '1' WHERE key = 'replacements'").ok());
+  }
+  REQUIRE(seal_bundle(image, s.a, forged).ok());
+  const std::string before = test::bytes_of(s.station);
+  auto out = merge(s.station, forged);
+  REQUIRE_FALSE(out.ok());
+  CHECK(out.problem().message.find("a row's links cannot change after it is saved") != std::string::npos);
+  CHECK(test::bytes_of(s.station) == before);
+}
+
+TEST_CASE("no text is saved that the station would refuse: the same limits at entry, settlement and merge") {
+  const Station s = make_station("identity_limits");
+  auto a = open_trial_database(s.a);
+  REQUIRE(a.ok());
+  NewObservation o;
+  o.plot_id = a->trial.plot_ids[0];
+  o.trait_id = a->trial.trait_ids[1];
+  o.value = "95";
+  o.number = 95;
+  o.observer = "Ana";
+  o.note = std::string(kMaxNoteBytes + 1, 'x');
+  auto saved = append_observation(a->db, a->trial.device_id, o, utc_now());
+  REQUIRE_FALSE(saved.ok());
+  CHECK(saved.problem().message == "the note is longer than 2000 bytes (2001); shorten it; nothing was saved");
+  o.note = "";
+  o.observer = std::string(kMaxNameBytes + 1, 'B');
+  CHECK_FALSE(append_observation(a->db, a->trial.device_id, o, utc_now()).ok());
+  o.observer = "";
+  CHECK_FALSE(append_observation(a->db, a->trial.device_id, o, utc_now()).ok());
+  o.observer = "Ana";
+  o.value.reset();
+  o.number.reset();
+  o.missing_reason = std::string(kMaxReasonBytes + 1, 'r');
+  CHECK_FALSE(append_observation(a->db, a->trial.device_id, o, utc_now()).ok());
+  auto all = all_observations(a->db);
+  REQUIRE(all.ok());
+  CHECK(all->empty());
+  // At the longest allowed, it saves and the station merges it.
+  o.missing_reason = std::string(kMaxReasonBytes, 'r');
+  o.note = std::string(kMaxNoteBytes, 'n');
+  o.observer = std::string(kMaxNameBytes, 'B');
+  REQUIRE(append_observation(a->db, a->trial.device_id, o, utc_now()).ok());
+  CHECK(merge(s.station, bundle_of(s.a, s.a + ".bundle")).ok());
+}
+
+TEST_CASE("a new identity is refused for a revoked device and for a copy whose plan was altered") {
+  const Station s = make_station("identity_renew_refused");
+  enter(s.a, "101", "95");
+  REQUIRE(merge(s.station, bundle_of(s.a, s.a + ".1.bundle")).ok());
+  const std::string altered = (s.dir / "altered.furrow").string();
+  fs::copy_file(s.b, altered);
+  {
+    auto db = Database::open(altered, false);
+    REQUIRE(db.ok());
+    REQUIRE(db->exec("UPDATE plot SET label = '999' WHERE label = '101'").ok());
+  }
+  auto renewed = renew_device_identity(s.station, altered, DeviceEnrolment{"", "Mara Quill"});
+  REQUIRE_FALSE(renewed.ok());
+  CHECK(renewed.problem().message.find("holds a different plan") != std::string::npos);
+  {
+    auto st = open_trial_database(s.station);
+    REQUIRE(st.ok());
+    REQUIRE(revoke_device(st->db, device_id_of(s.a), "Mara Quill", "lost").ok());
+  }
+  const std::string enrolled_before = test::bytes_of(s.station);
+  renewed = renew_device_identity(s.station, s.a, DeviceEnrolment{"", "Mara Quill"});
+  REQUIRE_FALSE(renewed.ok());
+  CHECK(renewed.problem().message.find("was revoked on") != std::string::npos);
+  CHECK(test::bytes_of(s.station) == enrolled_before);
+  CHECK_FALSE(fs::exists(s.a + ".renewing"));
+}
+
+TEST_CASE("a trial file whose views were edited, or whose seed is not a number, is refused in words") {
+  const Station s = make_station("identity_altered_file");
+  const std::string looping = (s.dir / "looping.furrow").string(), seeded = (s.dir / "seeded.furrow").string();
+  fs::copy_file(s.a, looping);
+  fs::copy_file(s.a, seeded);
+  {
+    auto db = Database::open(looping, false);
+    REQUIRE(db.ok());
+    REQUIRE(db->exec("DROP VIEW current_value; DROP VIEW conflict; DROP VIEW live_observation; "
+                     "CREATE VIEW live_observation AS WITH RECURSIVE r(n) AS (SELECT 1 UNION ALL SELECT n + 1 FROM r) "
+                     "SELECT * FROM observation, r")
+                .ok());
+  }
+  {
+    auto db = Database::open(seeded, false);
+    REQUIRE(db.ok());
+    REQUIRE(db->exec("UPDATE trial SET seed = 'x'").ok());
+  }
+  for (Access access : {Access::write, Access::read_only}) {
+    auto open = open_trial_database(looping, access);
+    REQUIRE_FALSE(open.ok());
+    CHECK(open.problem().message == looping + ": its views or triggers are not Furrow's (the file was altered); nothing was read");
+    open = open_trial_database(seeded, access);
+    REQUIRE_FALSE(open.ok());
+    CHECK(open.problem().message.find("seed 'x' is not a whole number") != std::string::npos);
+  }
+}
+
 }  // namespace
 }  // namespace furrow
