@@ -207,8 +207,10 @@ struct SignedFile {
 Result<SignedFile> read_signed_file(const std::string& path) {
   const auto fail = [&](const std::string& why) { return make_problem(path + ": " + why); };
   std::error_code ec;
+  if (!std::filesystem::exists(path, ec)) return fail("cannot be read: no such file");
+  if (!std::filesystem::is_regular_file(path, ec)) return fail("not a Furrow bundle (not a plain file)");
   const auto size = std::filesystem::file_size(path, ec);
-  if (ec) return fail("cannot be read (no such file?)");
+  if (ec) return fail("cannot be read (" + ec.message() + ")");
   if (size > kMaxBundleBytes)
     return fail("refused: " + std::to_string(size >> 20) + " MB is more than a bundle may hold (" +
                 std::to_string(kMaxBundleBytes >> 20) + " MB)");

@@ -408,6 +408,7 @@ Status create_trial_database(const std::string& path, const TrialPlan& plan, con
 
 Result<OpenTrial> open_trial_database(const std::string& path, Access access) {
   if (!std::filesystem::exists(path)) return make_problem(path + " does not exist");
+  if (std::filesystem::is_directory(path)) return make_problem(path + " is a folder, not a trial file");
   {
     // Looked at first without writing a byte: a file that is not a Furrow
     // trial (another program's database, a bundle) is refused untouched.

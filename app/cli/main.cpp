@@ -7,6 +7,7 @@
 
 #include "app/cli/cli_analyze.h"
 #include "app/cli/cli_station.h"
+#include "app/cli/output_safety.h"
 #include "app/cli/cli_trial.h"
 #include "app/field/field_app.h"
 #include "app/work/report.h"
@@ -208,7 +209,7 @@ int main(int argc, char** argv) {
   if (settle->parsed()) return furrow::run_settle(settle_req);
   if (report->parsed()) {
     if (auto s = furrow::write_report(report_db, report_out, report_options); !s) {
-      std::cerr << s.problem().message << "\n";
+      std::cerr << furrow::terminal_safe(furrow::named_once(s.problem().message)) << "\n";
       return 2;
     }
     std::cout << "report written to " << report_out << "\n";
