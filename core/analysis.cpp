@@ -86,6 +86,10 @@ struct Group {
   std::optional<LinearModel> model;
   std::optional<Problem> problem;
   std::vector<MissingCell> missing_cells;   // same for every response of the group
+  // Cells of treatment interactions and stratum errors with no plot at all:
+  // per term index, each empty cell's level codes.
+  std::vector<std::pair<int, std::vector<std::vector<int>>>> empty_cells;
+  std::vector<std::string> notes;           // said with every response of the group
 };
 
 std::string cell_label(const DesignModel& m, const std::vector<int>& factors,
@@ -129,29 +133,36 @@ void prepare_group(const PlotTable& table, const DesignModel& m, const AnalysisO
     if (m.terms[t].role == TermRole::treatment) g->coded.means_terms.push_back(t);
   }
   g->coded.grid_groups = m.grid_groups;
-  // Treatment combinations without any plot make interactions inestimable.
-  for (const ModelTerm& term : m.terms) {
-    if (term.role != TermRole::treatment || term.factors.size() < 2) continue;
+  // Treatment combinations (and main plots) without any plot: the model is
+  // fitted all the same; what they leave inestimable is said with the means.
+  for (int t = 0; t < static_cast<int>(m.terms.size()); ++t) {
+    const ModelTerm& term = m.terms[t];
+    if (term.role == TermRole::blocking || term.factors.size() < 2) continue;
     const TermCells cells = term_cells(g->coded, term.factors);
     std::set<std::vector<int>> seen(cells.levels.begin(), cells.levels.end());
-    std::vector<std::string> empty;
+    std::vector<std::vector<int>> empty;
     std::vector<int> levels(term.factors.size(), 0);
     while (true) {
-      if (!seen.count(levels)) empty.push_back(cell_label(m, term.factors, g->level_names, levels));
+      if (!seen.count(levels)) empty.push_back(levels);
       size_t k = 0;
       while (k < levels.size() && ++levels[k] == g->coded.factors[term.factors[k]].levels) { levels[k] = 0; ++k; }
       if (k == levels.size()) break;
     }
-    if (!empty.empty()) {
-      const size_t shown = std::min<size_t>(empty.size(), 8);
-      std::vector<std::string> list(empty.begin(), empty.begin() + static_cast<long>(shown));
-      std::string msg = "no plot has a value in " + std::to_string(empty.size()) + " treatment cell(s) of '" +
-                        term.label + "': " + join(list, "; ");
-      if (shown < empty.size()) msg += "; ...";
-      msg += ". Measure those plots or analyse without the interaction";
-      g->problem = make_problem(msg, m.factor_columns[term.factors.front()]);
-      return;
-    }
+    if (empty.empty()) continue;
+    const size_t shown = std::min<size_t>(empty.size(), 6);
+    std::vector<std::string> list;
+    for (size_t k = 0; k < shown; ++k) list.push_back(cell_label(m, term.factors, g->level_names, empty[k]));
+    g->notes.push_back("no plot has a value in " + std::to_string(empty.size()) +
+                       (empty.size() == 1 ? " cell" : " cells") + " of '" + term.label + "': " + join(list, "; ") +
+                       (shown < empty.size() ? "; ..." : "") +
+                       (term.role == TermRole::treatment
+                            ? ". The model is fitted with what was measured; the means that need those cells are not "
+                              "estimable (each is listed with its reason)" +
+                                  std::string(m.kind == DesignKind::split_plot ? ""
+                                                                                : "; analysing without the interaction "
+                                                                                  "estimates them from the main effects")
+                            : ". The means that need those plots are not estimable"));
+    g->empty_cells.push_back({t, std::move(empty)});
   }
   auto model = LinearModel::build(g->coded, options.method);
   if (!model) { g->problem = model.problem(); return; }
@@ -289,6 +300,42 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
     }
     tm.levels.push_back(std::move(row));
   }
+  if (usable.size() < static_cast<size_t>(k)) {
+    // Why each mean is missing: the empty cells it would average over.
+    std::vector<std::string> why;
+    for (int c = 0; c < k && why.size() < 6; ++c) {
+      if (cm.estimable[c]) continue;
+      std::string reason;
+      for (const auto& [t, empty] : g.empty_cells) {
+        const std::vector<int>& tf = m.terms[t].factors;
+        if (!std::includes(tf.begin(), tf.end(), term.factors.begin(), term.factors.end())) continue;
+        for (const std::vector<int>& cell : empty) {
+          bool agrees = true;
+          for (size_t j = 0; j < term.factors.size(); ++j) {
+            const size_t at = static_cast<size_t>(std::find(tf.begin(), tf.end(), term.factors[j]) - tf.begin());
+            agrees = agrees && cell[at] == cm.cell_levels[c][j];
+          }
+          if (agrees) {
+            reason = "no plot in " + cell_label(m, tf, g.level_names, cell);
+            break;
+          }
+        }
+        if (!reason.empty()) break;
+      }
+      if (reason.empty() && !g.empty_cells.empty()) {
+        // Averaged over a stratum with a hole (a whole main plot missing, say).
+        const auto& [t, empty] = g.empty_cells.front();
+        reason = "it averages over " + cell_label(m, m.terms[t].factors, g.level_names, empty.front()) +
+                 ", where no plot has a value";
+      }
+      why.push_back(tm.levels[c].label + " (" + (reason.empty() ? "its plots are missing" : reason) + ")");
+    }
+    const size_t missing = static_cast<size_t>(k) - usable.size();
+    std::string list = join(why, "; ");
+    if (missing > why.size()) list += "; ...";
+    tm.note += std::string(tm.note.empty() ? "" : "; ") + std::to_string(missing) + " of " + std::to_string(k) +
+               " means not estimable: " + list;
+  }
   if (usable.size() < 2 || tm.error_df <= 0 || tm.error_ms <= 0) return tm;
   // Mean variance of a difference over all pairs, in O(k).
   const double ku = static_cast<double>(usable.size());
@@ -314,7 +361,7 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
   tm.hsd = tm.q_critical / std::sqrt(2.0) * tm.sed;
   const int limit = term.factors.size() > 1 ? kMaxCellsForInteractionPairs : kMaxLevelsForPairs;
   if (static_cast<int>(usable.size()) > limit) {
-    tm.note = std::string("pairwise comparisons and letters are listed for up to ") + std::to_string(limit) +
+    tm.note += std::string(tm.note.empty() ? "" : "; ") + "pairwise comparisons and letters are listed for up to " + std::to_string(limit) +
               (term.factors.size() > 1 ? " cells of an interaction" : " levels") +
               "; the LSD and HSD shown are for an average pair";
     return tm;
@@ -580,7 +627,9 @@ void find_missing_cells(const PlotTable& table, const DesignModel& m, const std:
 std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRoles& roles,
                                           const std::vector<std::string>& responses, const AnalysisOptions& options) {
   std::vector<Result<Analysis>> out;
-  auto model = build_design_model(roles);
+  DesignRoles asked = roles;
+  asked.without_interaction = roles.without_interaction || options.without_interaction;
+  auto model = build_design_model(asked);
   auto fail_all = [&](const Problem& p) {
     out.clear();
     for (size_t i = 0; i < responses.size(); ++i) out.emplace_back(p);
@@ -660,6 +709,12 @@ std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRo
     fill_components(m, g, &a);
     find_outliers(g, fit, y, offset, options, &a);
     a.missing_cells = g.missing_cells;
+    for (const std::string& note : g.notes) a.notes.push_back(note);
+    if (m.without_interaction)
+      a.notes.push_back(std::string("analysed without the treatment interaction, as asked: main effects only; ") +
+                        (m.kind == DesignKind::multi_site
+                             ? "the residual holds the site x entry variation, and entries are tested against it"
+                             : "the residual holds the interaction, if there is one"));
     a.notes.push_back(std::string("sums of squares: ") +
                       (options.sums == SumsKind::partial
                            ? "partial (each term adjusted for every other term that does not contain it)"

@@ -45,6 +45,7 @@ struct AnalysisOptions {
   double outlier_threshold = kOutlierStudentizedThreshold;
   FitMethod method = FitMethod::automatic;
   bool comparisons = true;   // pairwise comparisons, HSD and letters
+  bool without_interaction = false;   // as DesignRoles::without_interaction (for callers that build no roles)
 };
 
 // Text cells by column; every column has the same number of records.

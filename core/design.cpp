@@ -63,6 +63,10 @@ Result<DesignModel> build_design_model(const DesignRoles& r) {
   b.model.kind = r.kind;
   b.model.sites_random = r.sites_random;
   b.model.treatments_random = r.treatments_random;
+  b.model.without_interaction = r.without_interaction;
+  if (r.without_interaction && r.kind != DesignKind::factorial && r.kind != DesignKind::split_plot &&
+      r.kind != DesignKind::multi_site)
+    return make_problem(std::string("a ") + design_kind_title(r.kind) + " design has no treatment interaction to leave out");
   const size_t nt = r.treatments.size();
   switch (r.kind) {
     case DesignKind::completely_randomised: {
@@ -101,6 +105,7 @@ Result<DesignModel> build_design_model(const DesignRoles& r) {
       std::vector<int> f;
       for (const std::string& c : r.treatments) f.push_back(b.factor(c));
       for (size_t i = 0; i < nt; ++i) b.term(r.treatments[i], {f[i]}, TermRole::treatment);
+      if (r.without_interaction) break;
       for (size_t i = 0; i < nt; ++i)
         for (size_t j = i + 1; j < nt; ++j)
           b.term(r.treatments[i] + " x " + r.treatments[j], {f[i], f[j]}, TermRole::treatment);
@@ -123,7 +128,7 @@ Result<DesignModel> build_design_model(const DesignRoles& r) {
       const int main_term = b.term(main, {a}, TermRole::treatment);
       const int main_error = b.term(r.block + " x " + main, {bl, a}, TermRole::error);
       b.term(sub, {s}, TermRole::treatment);
-      b.term(main + " x " + sub, {a, s}, TermRole::treatment);
+      if (!r.without_interaction) b.term(main + " x " + sub, {a, s}, TermRole::treatment);
       // Main-plot effects (and blocks, which sit in the same stratum) are
       // tested against the main-plot error block x main plot.
       b.model.terms[block_term].error_term = main_error;
@@ -142,12 +147,15 @@ Result<DesignModel> build_design_model(const DesignRoles& r) {
       const int site_term = b.term(r.site, {si}, TermRole::blocking);
       const int blocks_term = b.term(r.block + " within " + r.site, {si, bl}, TermRole::blocking);
       const int treat_term = b.term(r.treatments[0], {t}, TermRole::treatment);
-      const int inter_term = b.term(r.site + " x " + r.treatments[0], {si, t}, TermRole::treatment);
       // Sites are tested against blocks within sites (common practice in
       // combined analyses); with random sites the treatment is tested against
-      // the site x treatment interaction (ARCHITECTURE.md, STATISTICS.md).
+      // the site x treatment interaction (ARCHITECTURE.md, STATISTICS.md) -
+      // without it in the model, against the residual, which then holds it.
       b.model.terms[site_term].error_term = blocks_term;
-      if (r.sites_random) b.model.terms[treat_term].error_term = inter_term;
+      if (!r.without_interaction) {
+        const int inter_term = b.term(r.site + " x " + r.treatments[0], {si, t}, TermRole::treatment);
+        if (r.sites_random) b.model.terms[treat_term].error_term = inter_term;
+      }
       b.model.grid_groups.push_back({si, bl});
       b.model.grid_groups.push_back({t});
       b.model.treatment_factors = {t};

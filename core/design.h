@@ -37,6 +37,9 @@ struct DesignRoles {
   std::string site;                     // multi-site
   bool sites_random = false;
   bool treatments_random = false;       // genotypes drawn from a population: variance components
+  // Factorial, split-plot, several sites: leave the treatment interactions
+  // out of the model (main effects only), as asked when cells are missing.
+  bool without_interaction = false;
 };
 
 // How a term is tested.
@@ -63,6 +66,7 @@ struct DesignModel {
   std::vector<int> treatment_factors;        // in the order given
   bool sites_random = false;
   bool treatments_random = false;
+  bool without_interaction = false;
 };
 
 // Checks that the roles fit the kind (the right columns named, no column in

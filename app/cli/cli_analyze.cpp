@@ -37,6 +37,7 @@ int run_analyze(const AnalyzeRequest& q) {
   roles.site = q.site;
   roles.sites_random = q.sites_random;
   roles.treatments_random = q.treatments_random;
+  roles.without_interaction = q.without_interaction;
   if (*kind == DesignKind::split_plot && roles.treatments.empty() == false &&
       (roles.main_plot.empty() || roles.sub_plot.empty()) && roles.treatments.size() != 2)
     return report(q.csv_path, 0, {}, "split-plot needs --main-plot and --sub-plot (or two --treatment columns)");

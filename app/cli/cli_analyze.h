@@ -16,6 +16,7 @@ struct AnalyzeRequest {
   std::string block, row, column, main_plot, sub_plot, site;
   bool sites_random = false;
   bool treatments_random = false;
+  bool without_interaction = false;
   double alpha = 0.05;
   std::string sums = "partial";
   std::string outliers = "threshold";

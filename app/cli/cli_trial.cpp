@@ -172,7 +172,7 @@ int run_export(const std::string& db_path, const std::string& kind, const std::s
 }
 
 int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json, double alpha,
-                   const std::string& sums) {
+                   const std::string& sums, bool without_interaction) {
   auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return fail(db_path, open.problem().message);
   const StoredTrial& t = open->trial;
@@ -184,6 +184,7 @@ int run_analyze_db(const std::string& db_path, const std::string& trait_code, in
   AnalysisOptions options;
   options.alpha = alpha;
   options.sums = sums == "sequential" ? SumsKind::sequential : SumsKind::partial;
+  options.without_interaction = without_interaction;
   auto a = analyse_trial_trait(t, *live, trait_index, occasion, options);
   if (!a) {
     std::string where = db_path;

@@ -37,6 +37,6 @@ int run_walk(const WalkRequest& r);
 int run_export(const std::string& db_path, const std::string& kind, const std::string& out);
 
 int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json,
-                   double alpha, const std::string& sums);
+                   double alpha, const std::string& sums, bool without_interaction = false);
 
 }  // namespace furrow

@@ -38,6 +38,8 @@ int main(int argc, char** argv) {
   analyze->add_option("--site", q.site, "site column (several sites)");
   analyze->add_flag("--sites-random", q.sites_random, "sites are a random sample: test treatments against site x treatment");
   analyze->add_flag("--treatments-random", q.treatments_random, "treatments (e.g. genotypes) are random: variance components and heritability");
+  analyze->add_flag("--without-interaction", q.without_interaction,
+                    "leave the treatment interaction out (main effects only), e.g. when an entry is missing at a site");
   analyze->add_option("--alpha", q.alpha, "significance level for LSD, HSD and letters (default 0.05)");
   analyze->add_option("--sums", q.sums, "sequential | partial (default partial)");
   analyze->add_option("--outliers", q.outliers, "threshold | holm (default threshold: |studentized residual| > 3)");
@@ -230,7 +232,7 @@ int main(int argc, char** argv) {
         std::cerr << "analyze: --db needs --trait CODE\n";
         return 2;
       }
-      return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums);
+      return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums, q.without_interaction);
     }
     if (q.csv_path.empty() || q.design.empty() || response_list.empty()) {
       std::cerr << "analyze: give --db FILE --trait CODE, or --csv FILE --design KIND --response COL\n";

@@ -180,5 +180,69 @@ TEST_CASE("cells and dense agree to 1e-9: split-plot, 4 blocks x 5 main plots x 
   compare(split_plot(4, 5, 50, 3, 13), SumsKind::partial);
 }
 
+// Every plot of the given levels removed (an entry not grown at a site, a
+// main plot lost).
+Generated without(Generated g, const std::string& column_a, const std::string& a, const std::string& column_b,
+                  const std::string& b) {
+  const DataColumn* ca = g.table.find(column_a);
+  const DataColumn* cb = g.table.find(column_b);
+  PlotTable kept = make_table({g.table.columns[0].name, g.table.columns[1].name, g.table.columns[2].name, "y"});
+  for (int r = 0; r < g.table.records(); ++r)
+    if (!(ca->cells[r] == a && cb->cells[r] == b))
+      add(kept, {g.table.columns[0].cells[r], g.table.columns[1].cells[r], g.table.columns[2].cells[r],
+                 g.table.columns[3].cells[r]});
+  g.table = kept;
+  return g;
+}
+
+const MeanRow& level(const TermMeans& tm, const std::string& label) {
+  for (const MeanRow& r : tm.levels)
+    if (r.label == label) return r;
+  FAIL("no level " << label);
+  return tm.levels.front();
+}
+
+TEST_CASE("an entry not grown at one site: analysed; its mean is not estimable with the interaction, and says why") {
+  const Generated g = without(several_sites(4, 8, 0, 21), "site", "S1", "entry", "E3");
+  const auto a = analyse(g.table, g.roles, "y");
+  REQUIRE_MESSAGE(a.ok(), (a ? "" : a.problem().message));
+  const TermMeans& entry = a->means[0];
+  CHECK_FALSE(level(entry, "E3").estimable);
+  CHECK(level(entry, "E2").estimable);
+  CHECK(entry.note.find("1 of 8 means not estimable: E3 (no plot in site S1 x entry E3)") != std::string::npos);
+  const TermMeans& cells = a->means[1];
+  CHECK(cells.levels.size() == 4 * 8 - 1);   // the cell no plot is in is not listed; the note names it
+  bool said = false;
+  for (const std::string& n : a->notes) said = said || n.find("no plot has a value in 1 cell of 'site x entry'") == 0;
+  CHECK(said);
+  CHECK(test::row(*a, "site x entry").df == 3 * 7 - 1);   // (4 x 8 - 1 empty) cells less sites and entries
+  compare(g, SumsKind::partial);
+  // Without the interaction every entry's mean is estimated from the main effects.
+  Generated main_effects = g;
+  main_effects.roles.without_interaction = true;
+  const auto b = analyse(main_effects.table, main_effects.roles, "y");
+  REQUIRE(b.ok());
+  REQUIRE(b->means.size() == 1);
+  for (const MeanRow& r : b->means[0].levels) CHECK(r.estimable);
+  CHECK(test::row(*b, "entry").error_term == "residual");
+  bool noted = false;
+  for (const std::string& n : b->notes) noted = noted || n.find("analysed without the treatment interaction") == 0;
+  CHECK(noted);
+  compare(main_effects, SumsKind::partial);
+}
+
+TEST_CASE("a split-plot with a whole main plot missing: analysed, and the means it leaves out say why") {
+  const Generated g = without(split_plot(4, 3, 30, 0, 22), "block", "K1", "tillage", "T2");
+  const auto a = analyse(g.table, g.roles, "y");
+  REQUIRE_MESSAGE(a.ok(), (a ? "" : a.problem().message));
+  const TermMeans& tillage = a->means[0];
+  CHECK_FALSE(level(tillage, "T2").estimable);
+  CHECK(tillage.note.find("T2 (no plot in block K1 x tillage T2)") != std::string::npos);
+  const TermMeans& entry = a->means[1];
+  CHECK_FALSE(entry.levels.front().estimable);
+  CHECK(entry.note.find("it averages over block K1 x tillage T2, where no plot has a value") != std::string::npos);
+  compare(g, SumsKind::partial);
+}
+
 }  // namespace
 }  // namespace furrow

@@ -59,8 +59,16 @@ def drop_rows(rng, df, count, keep_cells):
     return df.reset_index(drop=True)
 
 
-def case(name, df, roles, terms, out_dir):
-    """terms: list of (our label, statsmodels row name, error label or None)."""
+def contains(big, small):
+    """Whether statsmodels term `big` (C(a):C(b)) contains every factor of `small`."""
+    return set(small.split(":")) <= set(big.split(":"))
+
+
+def case(name, df, roles, terms, out_dir, partial_by_fits=False):
+    """terms: list of (our label, statsmodels row name, error label or None).
+    partial_by_fits: partial sums from OLS fits of the two nested models (each
+    term after every term not containing it) rather than anova_lm typ=2, for
+    designs with empty cells, whose indicator columns are rank deficient."""
     # The model sees exactly the values written to the file.
     text = [f"{v:.6f}" for v in df["y"]]
     df = df.assign(y=[float(t) for t in text])
@@ -76,8 +84,16 @@ def case(name, df, roles, terms, out_dir):
     sequential = {label: (float(nested[k].df_resid - nested[k + 1].df_resid), float(nested[k].ssr - nested[k + 1].ssr))
                   for k, (label, _, _) in enumerate(terms)}
     # Partial sums: anova_lm typ=2 (each term adjusted for the terms not containing it).
-    table2 = anova_lm(model, typ=2)
-    partial = {label: (float(table2.loc[sm, "df"]), float(table2.loc[sm, "sum_sq"])) for label, sm, _ in terms}
+    if partial_by_fits:
+        partial = {}
+        for label, sm, _ in terms:
+            others = [o for _, o, _ in terms if o != sm and not contains(o, sm)]
+            lower = ols("y ~ " + (" + ".join(others) if others else "1"), data=df).fit()
+            upper = ols("y ~ " + " + ".join(others + [sm]), data=df).fit()
+            partial[label] = (float(lower.df_resid - upper.df_resid), float(lower.ssr - upper.ssr))
+    else:
+        table2 = anova_lm(model, typ=2)
+        partial = {label: (float(table2.loc[sm, "df"]), float(table2.loc[sm, "sum_sq"])) for label, sm, _ in terms}
     for key, sums in (("sequential", sequential), ("partial", partial)):
         rows = {}
         for label, _, _ in terms:
@@ -169,6 +185,22 @@ def main(out_dir):
                   "sites_random": random_sites},
                  [("site", "C(site)", "block within site"), ("block within site", "C(site):C(block)", R),
                   ("entry", "C(entry)", entry_error), ("site x entry", "C(site):C(entry)", R)], out_dir)
+
+    # Incomplete cells: one entry grown at every site but one (all its plots
+    # there missing), with the interaction and without it.
+    d = crossed(rng, [("site", 4), ("block", 3), ("entry", 6)])
+    d["y"] = response(rng, d)
+    d = d[~((d["site"] == "S2") & (d["entry"] == "E4"))].reset_index(drop=True)
+    d = drop_rows(rng, d, 3, [["site", "block"]])
+    site_terms = [("site", "C(site)", "block within site"), ("block within site", "C(site):C(block)", R)]
+    case("multisite_incomplete", d,
+         {"kind": "multi-site", "site": "site", "block": "block", "treatments": ["entry"], "sites_random": True},
+         site_terms + [("entry", "C(entry)", "site x entry"), ("site x entry", "C(site):C(entry)", R)], out_dir,
+         partial_by_fits=True)
+    case("multisite_incomplete_main_effects", d,
+         {"kind": "multi-site", "site": "site", "block": "block", "treatments": ["entry"], "sites_random": True,
+          "without_interaction": True},
+         site_terms + [("entry", "C(entry)", R)], out_dir, partial_by_fits=True)
 
 
 if __name__ == "__main__":

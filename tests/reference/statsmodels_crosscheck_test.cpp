@@ -28,6 +28,7 @@ DesignRoles roles_from(const nlohmann::json& j) {
   r.sub_plot = j.value("sub_plot", "");
   r.site = j.value("site", "");
   r.sites_random = j.value("sites_random", false);
+  r.without_interaction = j.value("without_interaction", false);
   return r;
 }
 
@@ -75,6 +76,12 @@ TEST_SUITE("statsmodels") {
     for (const char* c : kCases) {
       check_case(std::string(c) + "_balanced", FitMethod::dense);
       check_case(std::string(c) + "_unbalanced", FitMethod::dense);
+    }
+  }
+  TEST_CASE("an entry absent at one site: analysed (statsmodels OLS fits), with the interaction and without it") {
+    for (FitMethod method : {FitMethod::automatic, FitMethod::dense, FitMethod::cells}) {
+      check_case("multisite_incomplete", method);
+      check_case("multisite_incomplete_main_effects", method);
     }
   }
   TEST_CASE("the cells method (programme-scale designs) matches statsmodels on every case") {
