@@ -624,6 +624,12 @@ void find_missing_cells(const PlotTable& table, const DesignModel& m, const std:
 
 // ----------------------------------------------------------------- [driver]
 
+namespace {
+Result<Analysis> analyse_response(const PlotTable& table, const DesignModel& m, const Group& g,
+                                  const ParsedResponse& parsed, const std::string& response,
+                                  const AnalysisOptions& options, QuantileCache* cache);
+}  // namespace
+
 std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRoles& roles,
                                           const std::vector<std::string>& responses, const AnalysisOptions& options) {
   std::vector<Result<Analysis>> out;
@@ -658,30 +664,47 @@ std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRo
     if (g.records.empty())
       for (int r = 0; r < table.records(); ++r) if (parsed[k]->present[r]) g.records.push_back(r);
   }
+  // One pattern of missing plots at a time: its model is built, used for
+  // every response with that pattern, and released before the next (the
+  // models of a large trial are tens of MB each).
+  QuantileCache cache;
+  std::vector<std::optional<Result<Analysis>>> done(responses.size());
+  for (size_t k = 0; k < responses.size(); ++k)
+    if (problems[k]) done[k].emplace(*problems[k]);
   for (auto& [mask, g] : groups) {
     prepare_group(table, m, options, &g);
     if (!g.problem) find_missing_cells(table, m, mask, &g.missing_cells);
+    for (size_t k = 0; k < responses.size(); ++k) {
+      if (problems[k] || parsed[k]->present != mask) continue;
+      done[k].emplace(analyse_response(table, m, g, *parsed[k], responses[k], options, &cache));
+    }
+    g.model.reset();
   }
+  for (auto& d : done) out.push_back(std::move(*d));
+  return out;
+}
 
-  QuantileCache cache;
-  for (size_t k = 0; k < responses.size(); ++k) {
-    if (problems[k]) { out.emplace_back(*problems[k]); continue; }
-    const Group& g = groups.at(parsed[k]->present);
-    if (g.problem) { out.emplace_back(*g.problem); continue; }
-    auto centred = centre_decimals(parsed[k]->values);
+namespace {
+
+Result<Analysis> analyse_response(const PlotTable& table, const DesignModel& m, const Group& g,
+                                  const ParsedResponse& parsed, const std::string& response,
+                                  const AnalysisOptions& options, QuantileCache* cache_ptr) {
+  QuantileCache& cache = *cache_ptr;
+  {
+    if (g.problem) return *g.problem;
+    auto centred = centre_decimals(parsed.values);
     if (!centred) {
       Problem p = centred.problem();
-      p.column = responses[k];
+      p.column = response;
       if (p.record >= 0) p.record = g.records[p.record];
-      out.emplace_back(p);
-      continue;
+      return p;
     }
     const std::vector<double>& y = centred->centred;
     const double offset = centred->offset;
     const ResponseFit fit = g.model->fit(y);
     Analysis a;
     a.design = m.kind;
-    a.response = responses[k];
+    a.response = response;
     a.n = g.coded.n;
     a.n_missing = table.records() - a.n;
     a.sums = options.sums;
@@ -721,10 +744,11 @@ std::vector<Result<Analysis>> analyse_all(const PlotTable& table, const DesignRo
                            : "sequential (each term adjusted for the terms above it)"));
     if (a.method != FitMethod::balanced && (m.kind == DesignKind::split_plot || (m.kind == DesignKind::multi_site && m.sites_random)))
       a.notes.push_back("unbalanced data: F tests against a stratum mean square are approximate");
-    out.emplace_back(std::move(a));
+    return a;
   }
-  return out;
 }
+
+}  // namespace
 
 Result<Analysis> analyse(const PlotTable& table, const DesignRoles& roles, const std::string& response,
                          const AnalysisOptions& options) {

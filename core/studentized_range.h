@@ -19,7 +19,12 @@ namespace furrow {
 double studentized_range_cdf(double q, int k, double df);
 
 // The q with P(Q <= q) = p, 0 < p < 1, found by a bracketing root-finder
-// (TOMS 748) on the cdf, started from the df = infinity quantile.
+// (TOMS 748) on the cdf, started from the df = infinity quantile. From 30
+// error DF on, the inner integral P_inf(w; k) is computed on panels of w and
+// interpolated (Chebyshev points, barycentric formula): 3-10 times faster
+// than the direct form; tests hold the two to 1e-9 relative.
 double studentized_range_quantile(double p, int k, double df);
+// The same by the direct double integral at every step (the reference).
+double studentized_range_quantile_direct(double p, int k, double df);
 
 }  // namespace furrow
