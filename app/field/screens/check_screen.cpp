@@ -104,6 +104,18 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
     if (solid_button(label, ImVec2(button_width(label, scale), h), look, &st->targets, "every trait"))
       st->every_trait_outliers = !st->every_trait_outliers;
   }
+  const DesignKind design = trial.plan.design;
+  if (!st->every_trait_outliers && (design == DesignKind::factorial || design == DesignKind::split_plot ||
+                                    design == DesignKind::multi_site)) {
+    // Cells with no plot leave some means out; main effects alone estimate them.
+    const char* label = st->without_interaction ? "Include the interaction" : "Leave out the interaction";
+    flow_next(button_width(label, scale));
+    ButtonLook look{st->without_interaction ? t.accent : t.background, st->without_interaction ? t.accent_text : t.text};
+    look.border_px = 2.0f * scale;
+    look.border = t.text;
+    if (solid_button(label, ImVec2(button_width(label, scale), h), look, &st->targets, "interaction"))
+      st->without_interaction = !st->without_interaction;
+  }
 
   // The whole screen scrolls by dragging (the header too: at large text it
   // would leave no room otherwise).

@@ -22,6 +22,7 @@ namespace furrow {
 struct CheckScreenState {
   bool means_in_plan_order = false;    // else highest mean first
   bool every_trait_outliers = false;   // the supervisor's list instead of one trait's analysis
+  bool without_interaction = false;    // main effects only (factorial, split-plot, several sites)
   std::vector<TapTarget> targets;      // rebuilt every frame
 };
 

@@ -111,3 +111,32 @@ TEST_CASE("means are sorted by value by default, in the plan's order on request;
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("a factorial trial offers to leave out the interaction; an RCBD does not") {
+  const std::string path = test::demo_day_trial("check_interaction_test.furrow");
+  auto s = RecordSession::open(path, "Mara");
+  REQUIRE(s.ok());
+  const auto a = analyse_trial_trait(s->trial(), s->live(), 1, 1, AnalysisOptions{});
+  REQUIRE(a.ok());
+  {
+    Headless rcbd(1280, 800, s->trial(), &*a, "");
+    CHECK(test::find_target(rcbd.state.targets, "interaction") == nullptr);
+  }
+  StoredTrial factorial = s->trial();
+  factorial.plan.design = DesignKind::factorial;
+  Headless h(1280, 800, factorial, &*a, "");
+  const TapTarget* toggle = test::find_target(h.state.targets, "interaction");
+  REQUIRE(toggle != nullptr);
+  CHECK(toggle->y1 - toggle->y0 >= kTouchTargetPx);
+  CHECK_FALSE(h.state.without_interaction);
+  h.ui.tap(*toggle);
+  CHECK(h.state.without_interaction);
+  h.ui.tap(*test::find_target(h.state.targets, "interaction"));
+  CHECK_FALSE(h.state.without_interaction);
+}
+
+}  // namespace
+}  // namespace furrow
