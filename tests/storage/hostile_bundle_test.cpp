@@ -267,6 +267,7 @@ TEST_CASE("a catalogue of hostile bundles: each refused by name and reason, the 
     cases.push_back({"an unsigned SQLite bundle", plain, "not a signed Furrow bundle"});
   }
   CHECK(cases.size() >= 25);
+  MESSAGE(cases.size() << " hostile bundles");
   const std::string before = test::bytes_of(sc.station);
   for (const Case& c : cases) {
     CAPTURE(c.name);
