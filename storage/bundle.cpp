@@ -26,7 +26,8 @@ constexpr const char* kVersion = "3";   // 2: rows carry `confirmed_checks`; 3: 
 // The signed file (see bundle.h): magic, signer's key, signature, image length, image.
 constexpr char kMagic[17] = "FURROW BUNDLE 3\n";
 constexpr size_t kKeyAt = 16, kSignatureAt = 48, kLengthAt = 112, kImageAt = 120;
-constexpr std::uintmax_t kMaxBundleBytes = std::uintmax_t{512} << 20;
+// A whole season of a large programme (10^6 rows) is about 100 MB.
+constexpr std::uintmax_t kMaxBundleBytes = std::uintmax_t{256} << 20;
 
 // BLAKE2b over length-prefixed fields, so that no two different sequences of
 // fields give the same stream.
