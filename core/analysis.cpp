@@ -128,6 +128,22 @@ void prepare_group(const PlotTable& table, const DesignModel& m, const AnalysisO
     }
     g->coded.factors.push_back(std::move(cf));
   }
+  // A treatment level none of whose plots has a value drops out of the
+  // analysis: say so (its plots are listed as missing cells).
+  for (int f : m.treatment_factors) {
+    const DataColumn* col = table.find(m.factor_columns[f]);
+    std::set<std::string> coded(g->level_names[f].begin(), g->level_names[f].end()), absent;
+    for (const std::string& cell : col->cells) {
+      const std::string v = trimmed(cell);
+      if (!v.empty() && !coded.count(v)) absent.insert(v);
+    }
+    if (!absent.empty()) {
+      std::vector<std::string> names(absent.begin(), absent.end());
+      if (names.size() > 6) names.resize(6), names.push_back("...");
+      g->notes.push_back(std::to_string(absent.size()) + " level" + (absent.size() == 1 ? "" : "s") + " of '" +
+                         col->name + "' with no plot that has a value, left out of the analysis: " + join(names, ", "));
+    }
+  }
   for (int t = 0; t < static_cast<int>(m.terms.size()); ++t) {
     g->coded.terms.push_back(m.terms[t].factors);
     if (m.terms[t].role == TermRole::treatment) g->coded.means_terms.push_back(t);
@@ -161,7 +177,8 @@ void prepare_group(const PlotTable& table, const DesignModel& m, const AnalysisO
                                   std::string(m.kind == DesignKind::split_plot ? ""
                                                                                 : "; analysing without the interaction "
                                                                                   "estimates them from the main effects")
-                            : ". The means that need those plots are not estimable"));
+                            : ". Means average over the " + m.terms[t].label +
+                                  " cells that were measured (each main plot of the same weight)"));
     g->empty_cells.push_back({t, std::move(empty)});
   }
   auto model = LinearModel::build(g->coded, options.method);
@@ -323,10 +340,12 @@ TermMeans term_means(const DesignModel& m, const Group& g, const CellMeans& cm, 
         if (!reason.empty()) break;
       }
       if (reason.empty() && !g.empty_cells.empty()) {
-        // Averaged over a stratum with a hole (a whole main plot missing, say).
-        const auto& [t, empty] = g.empty_cells.front();
-        reason = "it averages over " + cell_label(m, m.terms[t].factors, g.level_names, empty.front()) +
-                 ", where no plot has a value";
+        // Averaged over a stratum with holes: name them (the first three).
+        std::vector<std::string> holes;
+        for (const auto& [t, empty] : g.empty_cells)
+          for (const std::vector<int>& cell : empty)
+            if (holes.size() < 3) holes.push_back(cell_label(m, m.terms[t].factors, g.level_names, cell));
+        reason = "it averages over cells with no plot: " + join(holes, ", ");
       }
       why.push_back(tm.levels[c].label + " (" + (reason.empty() ? "its plots are missing" : reason) + ")");
     }

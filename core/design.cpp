@@ -134,6 +134,9 @@ Result<DesignModel> build_design_model(const DesignRoles& r) {
       b.model.terms[block_term].error_term = main_error;
       b.model.terms[main_term].error_term = main_error;
       b.model.treatment_factors = {a, s};
+      // Means average over the main plots measured: a lost main plot (every
+      // sub-plot of one block x main-plot cell) leaves the others to estimate them.
+      b.model.grid_groups = {{bl, a}, {s}};
       break;
     }
     case DesignKind::multi_site: {

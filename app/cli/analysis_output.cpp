@@ -27,6 +27,7 @@ nlohmann::json opt(const std::optional<double>& v) { return v ? nlohmann::json(*
 
 std::string analysis_text(const Analysis& a, const RecordNames& records) {
   std::ostringstream o;
+  const int md = digits_for(a.grand_mean, a.residual_sd, 6);   // means to a tenth of the plot-to-plot SD
   o << "== " << a.response << "  |  " << design_kind_title(a.design) << "  |  " << a.n << " plots analysed";
   if (a.n_missing) o << ", " << a.n_missing << " without a value";
   o << "\n" << kInterimCaution << "\n\n";
@@ -40,7 +41,7 @@ std::string analysis_text(const Analysis& a, const RecordNames& records) {
       << pad(r.ms ? num(*r.ms, 10) : "", 16) << pad(r.f ? num(*r.f, 5) : "", 11) << pad(r.p ? p_text(*r.p) : "", 9)
       << "   " << r.error_term << "\n";
   }
-  o << "\nGrand mean " << num(a.grand_mean) << "   CV " << num(a.cv_percent, 3) << " %   R squared "
+  o << "\nGrand mean " << num(a.grand_mean, md) << "   CV " << num(a.cv_percent, 3) << " %   R squared "
     << num(a.r_squared, 4) << "   residual SD " << num(a.residual_sd) << " on " << df_text(a.residual_df) << " DF\n";
   for (const TermMeans& m : a.means) {
     o << "\nMeans of " << m.term << (m.adjusted ? " (adjusted for the other terms)" : "") << ", SE from '"
@@ -54,8 +55,8 @@ std::string analysis_text(const Analysis& a, const RecordNames& records) {
     o << "\n";
     for (const MeanRow& r : m.levels) {
       o << pad(r.label, lw, false) << pad(std::to_string(r.n), 7)
-        << pad(r.estimable ? num(r.mean) : term::kNotEstimable, 14) << pad(r.estimable ? num(r.se, 4) : "", 12);
-      if (m.adjusted) o << pad(num(r.raw_mean), 14);
+        << pad(r.estimable ? num(r.mean, md) : term::kNotEstimable, std::max<size_t>(14, md + 3)) << pad(r.estimable ? num(r.se, 4) : "", 12);
+      if (m.adjusted) o << pad(num(r.raw_mean, md), std::max<size_t>(14, md + 3));
       if (letters) o << "   " << pad(r.group_lsd, 9, false) << "  " << r.group_hsd;
       o << "\n";
     }

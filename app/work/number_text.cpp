@@ -18,6 +18,14 @@ std::string table_number(double v, int digits) {
   return buf;
 }
 
+int digits_for(double value, double spread, int at_least) {
+  if (!(spread > 0) || !std::isfinite(value) || value == 0) return at_least;
+  const double ratio = std::abs(value) / spread;
+  if (!std::isfinite(ratio) || ratio > 1e15) return std::max(at_least, 15);
+  const int needed = static_cast<int>(std::ceil(std::log10(ratio))) + 2;
+  return std::clamp(needed, at_least, 15);
+}
+
 std::string value_text(double v) {
   char buf[32];
   std::snprintf(buf, sizeof buf, "%.6g", v);

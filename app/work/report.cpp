@@ -237,7 +237,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
       }
       h << "<p>" << a->n << " plots analysed" << (a->n_missing ? ", " + std::to_string(a->n_missing) + " without a value" : "")
         << ". Grand mean <span data-name=grand_mean data-value=\"" << exact(a->grand_mean) << "\">"
-        << esc(table_number(a->grand_mean, 5)) << "</span>, CV <span data-name=cv_percent data-value=\""
+        << esc(table_number(a->grand_mean, digits_for(a->grand_mean, a->residual_sd, 5))) << "</span>, CV <span data-name=cv_percent data-value=\""
         << exact(a->cv_percent) << "\">" << esc(table_number(a->cv_percent, 3)) << "</span> %";
       if (a->lsd)
         h << ", " << term::lsd_title(ao.alpha) << " <span data-name=lsd data-value=\"" << exact(*a->lsd) << "\">"
@@ -262,7 +262,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
           << term::kLsdGroup << "</th><th>" << term::kHsdGroup << "</th></tr></thead><tbody>";
         for (const MeanRow& r : m.levels)
           h << "<tr>" << cell(r.label) << cell(std::to_string(r.n))
-            << (r.estimable ? num_cell(r.mean, table_number(r.mean, 5)) : cell("-"))
+            << (r.estimable ? num_cell(r.mean, table_number(r.mean, digits_for(a->grand_mean, a->residual_sd, 5))) : cell("-"))
             << (r.estimable ? num_cell(r.se, table_number(r.se, 3)) : cell("-")) << cell(r.group_lsd)
             << cell(r.group_hsd) << "</tr>";
         h << "</tbody></table>\n<p class=muted>" << (m.adjusted ? "Adjusted (least-squares) means. " : "")

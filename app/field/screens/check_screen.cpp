@@ -177,7 +177,7 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   ImGui::TextWrapped("%s, %d plots analysed%s. Grand mean %s%s, CV %s %%, R squared %s, residual SD %s%s.",
                      design_kind_title(a->design), a->n,
                      a->n_missing ? (", " + std::to_string(a->n_missing) + " without a value").c_str() : "",
-                     table_number(a->grand_mean, 5).c_str(), unit_suffix.c_str(), table_number(a->cv_percent, 3).c_str(),
+                     table_number(a->grand_mean, digits_for(a->grand_mean, a->residual_sd, 5)).c_str(), unit_suffix.c_str(), table_number(a->cv_percent, 3).c_str(),
                      table_number(a->r_squared, 3).c_str(), table_number(a->residual_sd, 4).c_str(), unit_suffix.c_str());
   if (a->lsd || a->hsd || a->mdd_percent) {
     std::string line;
@@ -238,7 +238,7 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
       for (const MeanRow* r : rows) {
         ImGui::TableNextRow();
         const std::string cells[6] = {r->label, std::to_string(r->n),
-                                      r->estimable ? table_number(r->mean, 4) : term::kNotEstimable,
+                                      r->estimable ? table_number(r->mean, digits_for(a->grand_mean, a->residual_sd, 4)) : term::kNotEstimable,
                                       r->estimable ? table_number(r->se, 3) : "-", r->group_lsd, r->group_hsd};
         for (int k = 0; k < cols; ++k) {
           ImGui::TableSetColumnIndex(k);
