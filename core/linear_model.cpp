@@ -231,6 +231,7 @@ struct LinearModel::Impl {
     int absorbed = -1;          // the absorbed term (-1: the intercept-only model)
     std::vector<int> rest;      // terms not contained in the absorbed one
     MatrixXd q;                 // n x k: the rest's columns within the absorbed cells, orthonormal
+    MatrixXd qtx;               // k x (rest columns): Q' times those columns (R of the QR, unpermuted)
     double rank = 1;            // cells of the absorbed term + k
   };
   std::vector<CellModel> cell_models;
@@ -269,6 +270,73 @@ MatrixXd within_cells(const MatrixXd& x, const TermCells& f, int n) {
   return w;
 }
 
+namespace {
+
+// An orthonormal basis Q of the columns of x (n x p, p small), and Q' x, by
+// Cholesky QR applied twice ("CholeskyQR2": Fukaya, Nakatsukasa, Yanagisawa
+// & Yamamoto 2014, ScalA'14 31-38; Yamamoto et al. 2015, ETNA 44, 306-326):
+// as orthogonal as Householder QR for condition numbers below about 1e8, in
+// matrix-matrix products. Dependent columns (these are indicator columns
+// within cells, where whole groups sum to zero) are found first by a
+// diagonally pivoted LDL' of x'x and left out. False (the caller then uses
+// pivoted Householder QR) when x is too ill-conditioned for this.
+bool cholesky_qr2(const MatrixXd& x, MatrixXd* q, MatrixXd* qtx) {
+  const Eigen::Index n = x.rows(), p = x.cols();
+  MatrixXd g(p, p);
+  g.setZero();
+  g.selfadjointView<Eigen::Lower>().rankUpdate(x.transpose());
+  g.triangularView<Eigen::StrictlyUpper>() = g.transpose();
+  const Eigen::LDLT<MatrixXd> ldlt(g);
+  if (ldlt.info() != Eigen::Success) return false;
+  const Eigen::VectorXd d = ldlt.vectorD();
+  const double top = d.size() ? d.maxCoeff() : 0.0;
+  if (!(top > 0)) {
+    *q = MatrixXd(n, 0);
+    *qtx = MatrixXd(0, p);
+    return true;
+  }
+  // Pivots in order; D falls off a cliff at the rank: dependent directions
+  // leave rounding (about 1e-14 of the largest for 10^4 plots), independent
+  // ones of indicator columns far more than 1e-8. Anything between: fall back.
+  Eigen::PermutationMatrix<Eigen::Dynamic> perm(p);
+  perm = ldlt.transpositionsP();
+  const Eigen::PermutationMatrix<Eigen::Dynamic> inverse = perm.inverse();
+  std::vector<int> chosen;
+  for (Eigen::Index k = 0; k < p; ++k) {
+    if (d(k) > 1e-8 * top) chosen.push_back(inverse.indices()(k));
+    else if (d(k) > 1e-11 * top) return false;
+  }
+  std::sort(chosen.begin(), chosen.end());
+  const Eigen::Index r = static_cast<Eigen::Index>(chosen.size());
+  MatrixXd xs(n, r), gs(r, r);
+  for (Eigen::Index j = 0; j < r; ++j) {
+    xs.col(j) = x.col(chosen[j]);
+    for (Eigen::Index i = 0; i < r; ++i) gs(i, j) = g(chosen[i], chosen[j]);
+  }
+  MatrixXd basis = xs;
+  for (int pass = 0; pass < 2; ++pass) {
+    if (pass == 1) {
+      gs.setZero();
+      gs.selfadjointView<Eigen::Lower>().rankUpdate(basis.transpose());
+      gs.triangularView<Eigen::StrictlyUpper>() = gs.transpose();
+    }
+    const Eigen::LLT<MatrixXd> llt(gs);
+    if (llt.info() != Eigen::Success) return false;
+    llt.matrixU().solveInPlace<Eigen::OnTheRight>(basis);   // basis <- basis U^-1
+  }
+  // The second pass must leave an orthonormal basis; else fall back.
+  MatrixXd check(r, r);
+  check.setZero();
+  check.selfadjointView<Eigen::Lower>().rankUpdate(basis.transpose());
+  check.triangularView<Eigen::StrictlyUpper>() = check.transpose();
+  if ((check - MatrixXd::Identity(r, r)).cwiseAbs().maxCoeff() > 1e-12) return false;
+  *qtx = basis.transpose() * x;
+  *q = std::move(basis);
+  return true;
+}
+
+}  // namespace
+
 int LinearModel::Impl::cell_model(std::vector<int> terms, int absorbed) {
   std::sort(terms.begin(), terms.end());
   if (!terms.empty() && absorbed < 0) {
@@ -296,13 +364,19 @@ int LinearModel::Impl::cell_model(std::vector<int> terms, int absorbed) {
         col += static_cast<int>(cells[t].levels.size());
       }
       const double norm = max_column_norm(x);
-      Eigen::ColPivHouseholderQR<MatrixXd> qr(within_cells(x, cells[absorbed], n));
-      const MatrixXd& r = qr.matrixQR();
-      const double tol = kRankTolerance * std::max(1.0, norm);
-      int rank = 0;
-      for (Eigen::Index k = 0; k < std::min(r.rows(), r.cols()); ++k)
-        if (std::abs(r(k, k)) > tol) ++rank;
-      cm.q = qr.householderQ() * MatrixXd::Identity(n, rank);
+      const MatrixXd xw = within_cells(x, cells[absorbed], n);
+      if (!cholesky_qr2(xw, &cm.q, &cm.qtx)) {
+        Eigen::ColPivHouseholderQR<MatrixXd> qr(xw);
+        const MatrixXd& r = qr.matrixQR();
+        const double tol = kRankTolerance * std::max(1.0, norm);
+        int rank = 0;
+        for (Eigen::Index k = 0; k < std::min(r.rows(), r.cols()); ++k)
+          if (std::abs(r(k, k)) > tol) ++rank;
+        cm.q = qr.householderQ() * MatrixXd::Identity(n, rank);
+        // Q' X_w = R P': what the means need, without forming X again.
+        const MatrixXd r_top = qr.matrixR().topRows(rank).triangularView<Eigen::Upper>();
+        cm.qtx = r_top * qr.colsPermutation().transpose();
+      }
     }
     cm.rank = static_cast<double>(cells[absorbed].levels.size()) + static_cast<double>(cm.q.cols());
   }
@@ -675,14 +749,13 @@ Result<LinearModel> LinearModel::build(const CodedDesign& design, FitMethod forc
       MatrixXd cell_means_of_rest;   // per absorbed cell, the average of its plots' rest columns
       CoefficientMap map;
       if (layout.width > 0) {
-        MatrixXd x(d.n, layout.width);
-        for (size_t j = 0; j < full.rest.size(); ++j)
-          x.middleCols(layout.offset[j], impl->cells[full.rest[j]].levels.size()) =
-              indicator_columns(impl->cells[full.rest[j]], d.n);
         cell_means_of_rest = MatrixXd::Zero(static_cast<Eigen::Index>(ac.count.size()), layout.width);
-        for (int i = 0; i < d.n; ++i) cell_means_of_rest.row(ac.cell_of[i]) += x.row(i);
+        for (size_t j = 0; j < full.rest.size(); ++j) {
+          const TermCells& rc = impl->cells[full.rest[j]];
+          for (int i = 0; i < d.n; ++i) cell_means_of_rest(ac.cell_of[i], layout.offset[j] + rc.cell_of[i]) += 1.0;
+        }
         for (size_t c = 0; c < ac.count.size(); ++c) cell_means_of_rest.row(c) /= ac.count[c];
-        if (k > 0) map = coefficient_map(full.q.transpose() * within_cells(x, ac, d.n));
+        if (k > 0) map = coefficient_map(full.qtx);
       }
       for (int c = 0; c < ncell; ++c) {
         std::unordered_map<int, double> w;
