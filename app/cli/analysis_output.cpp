@@ -145,6 +145,7 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNam
                               {"level", r.label},
                               {"levels", r.levels},
                               {"n", r.n},
+                              {"estimable", r.estimable},
                               {"mean", r.estimable ? nlohmann::json(r.mean) : nlohmann::json(nullptr)},
                               {"se", r.estimable ? nlohmann::json(r.se) : nlohmann::json(nullptr)},
                               {"plain_mean", r.raw_mean},
@@ -161,7 +162,8 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNam
                           {"lsd_max", m.lsd_max},
                           {"t_critical", m.t_critical},
                           {"hsd", m.q_critical > 0 ? nlohmann::json(m.hsd) : nlohmann::json(nullptr)},
-                          {"q_critical", m.q_critical > 0 ? nlohmann::json(m.q_critical) : nlohmann::json(nullptr)}};
+                          {"q_critical", m.q_critical > 0 ? nlohmann::json(m.q_critical) : nlohmann::json(nullptr)},
+                          {"note", m.note}};
       c["pairs"] = nlohmann::json::array();
       for (const PairComparison& p : m.pairs)
         c["pairs"].push_back({{"first", m.levels[p.first].label},
