@@ -16,6 +16,7 @@
 #include <map>
 #include <numeric>
 #include <set>
+#include <string_view>
 #include <unordered_map>
 #include <unordered_set>
 
@@ -131,11 +132,15 @@ void prepare_group(const PlotTable& table, const DesignModel& m, const AnalysisO
   // A treatment level none of whose plots has a value drops out of the
   // analysis: say so (its plots are listed as missing cells).
   for (int f : m.treatment_factors) {
+    if (static_cast<int>(g->records.size()) == table.records()) break;   // every plot has a value
     const DataColumn* col = table.find(m.factor_columns[f]);
-    std::set<std::string> coded(g->level_names[f].begin(), g->level_names[f].end()), absent;
+    std::unordered_set<std::string_view> coded(g->level_names[f].begin(), g->level_names[f].end());
+    std::set<std::string> absent;
     for (const std::string& cell : col->cells) {
-      const std::string v = trimmed(cell);
-      if (!v.empty() && !coded.count(v)) absent.insert(v);
+      std::string_view v = cell;
+      while (!v.empty() && std::isspace(static_cast<unsigned char>(v.front()))) v.remove_prefix(1);
+      while (!v.empty() && std::isspace(static_cast<unsigned char>(v.back()))) v.remove_suffix(1);
+      if (!v.empty() && !coded.count(v)) absent.insert(std::string(v));
     }
     if (!absent.empty()) {
       std::vector<std::string> names(absent.begin(), absent.end());
