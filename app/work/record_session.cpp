@@ -1,5 +1,7 @@
 #include "app/work/record_session.h"
 
+#include "core/stake_code.h"
+
 #include <algorithm>
 #include <cassert>
 #include <map>
@@ -507,6 +509,13 @@ void RecordSession::previous() {
 
 Status RecordSession::jump_to(const std::string& label) {
   std::string l = label;
+  // A stake's code (scanned): this trial's opens its plot; another's is refused by name.
+  if (const auto code = read_stake_code(label)) {
+    if (code->trial_uid != open_.trial.uid)
+      return make_problem("this stake belongs to the trial '" + code->trial_name + "' (plot " + code->plot_label +
+                          "), not to '" + open_.trial.plan.name + "'");
+    l = code->plot_label;
+  }
   while (!l.empty() && std::isspace(static_cast<unsigned char>(l.back()))) l.pop_back();
   while (!l.empty() && std::isspace(static_cast<unsigned char>(l.front()))) l.erase(0, 1);
   const auto& plots = open_.trial.layout.plots;

@@ -4,6 +4,7 @@
 
 #include <doctest/doctest.h>
 
+#include "core/stake_code.h"
 #include "tests/test_support.h"
 
 #include <filesystem>
@@ -144,6 +145,30 @@ TEST_CASE("blind scoring hides the treatment; walking all traits per plot") {
   CHECK(s->view().plot_label == "102");
   CHECK(s->view().trait_code == "stand_count");
   CHECK_FALSE(RecordSession::open(db, "").ok());
+}
+
+}  // namespace
+}  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("a scanned stake code of this trial opens its plot; one of another trial is refused by name") {
+  const std::string db = test::fresh_demo_trial("stake_scan.furrow");
+  auto s = RecordSession::open(db, "Ana");
+  REQUIRE(s.ok());
+  const StoredTrial& t = s->trial();
+  REQUIRE(s->jump_to(stake_code_text({t.uid, t.plan.name, "307"}) + "\n").ok());
+  CHECK(s->view().plot_label == "307");
+  const auto other = s->jump_to(stake_code_text({"0123456789abcdef0123456789abcdef", "Wetland sedge restoration", "101"}));
+  REQUIRE_FALSE(other.ok());
+  CHECK(other.problem().message ==
+        "this stake belongs to the trial 'Wetland sedge restoration' (plot 101), not to '" + t.plan.name + "'");
+  CHECK(s->view().plot_label == "307");   // refused: nothing moved
+  REQUIRE(s->jump_to("212").ok());        // a typed label keeps working
+  CHECK(s->view().plot_label == "212");
+  // A code of this trial naming a plot it does not have is refused like a typed one.
+  CHECK_FALSE(s->jump_to(stake_code_text({t.uid, t.plan.name, "999"})).ok());
 }
 
 }  // namespace
