@@ -59,7 +59,7 @@ struct RecordScreenState {
   bool choosing_skip_reason = false;
   bool writing_note = false, note_for_skip = false;
   bool choosing_walk = false;
-  char jump_label[64] = {};
+  char jump_label[512] = {};   // a typed label or a scanned stake code (core/stake_code.h)
   char note_text[256] = {};
   // Keys from a keyboard or scanner, held until they are known to be typing
   // (a pause) or a scanned label (Enter after a burst).

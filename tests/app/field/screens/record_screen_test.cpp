@@ -6,6 +6,7 @@
 
 #include <doctest/doctest.h>
 
+#include "core/stake_code.h"
 #include "tests/test_support.h"
 #include <imgui.h>
 
@@ -180,6 +181,20 @@ TEST_CASE("skip with a reason, jump by a typed label with Enter, undo") {
   CHECK(stored(db, "305", 0) == "240");
   screen.tap("Undo last entry");
   CHECK(stored(db, "305", 0) == "missing: withdrawn");
+}
+
+TEST_CASE("a stake's code typed by a scanner into the label field (then Enter) opens its plot") {
+  const std::string db = test::fresh_demo_trial("scan_jump.furrow");
+  auto session = RecordSession::open(db, "Ana");
+  REQUIRE(session.ok());
+  HeadlessScreen screen(&*session, 1280, 800);
+  const StoredTrial& t = session->trial();
+  const std::string code = stake_code_text({t.uid, t.plan.name, "309"});
+  REQUIRE(code.size() > 64);   // longer than a typed label
+  screen.tap("plot label");
+  screen.type(code);
+  screen.press_enter();
+  CHECK(session->view().plot_label == "309");
 }
 
 TEST_CASE("Confirm saves the text on screen: 9.1 asked about, Del x3, 91 typed, Confirm is gone and Save stores 91") {
