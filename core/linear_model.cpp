@@ -497,55 +497,6 @@ ColumnIndex make_column_index(const CodedDesign& d, const std::vector<TermCells>
   return column_of;
 }
 
-bool grid_average_row(const CodedDesign& d, const ColumnIndex& column_of,
-                      const std::vector<std::vector<std::vector<int>>>& group_combos,
-                      const std::vector<int>& target_factors, const std::vector<int>& target_levels,
-                      const Layout& layout, bool with_intercept, VectorXd* row) {
-  const int nf = static_cast<int>(d.factors.size());
-  std::vector<int> assignment(nf, -1);
-  for (size_t k = 0; k < target_factors.size(); ++k) assignment[target_factors[k]] = target_levels[k];
-  // Per group, the combos consistent with the target.
-  std::vector<std::vector<const std::vector<int>*>> choices(d.grid_groups.size());
-  for (size_t g = 0; g < d.grid_groups.size(); ++g) {
-    for (const auto& combo : group_combos[g]) {
-      bool ok = true;
-      for (size_t k = 0; k < d.grid_groups[g].size(); ++k) {
-        const int f = d.grid_groups[g][k];
-        if (assignment[f] >= 0 && assignment[f] != combo[k]) { ok = false; break; }
-      }
-      if (ok) choices[g].push_back(&combo);
-    }
-    if (choices[g].empty()) return false;
-  }
-  *row = VectorXd::Zero(layout.width);
-  long long combos = 0;
-  std::vector<size_t> pick(d.grid_groups.size(), 0);
-  while (true) {
-    for (size_t g = 0; g < d.grid_groups.size(); ++g)
-      for (size_t k = 0; k < d.grid_groups[g].size(); ++k) assignment[d.grid_groups[g][k]] = (*choices[g][pick[g]])[k];
-    if (with_intercept) (*row)(0) += 1.0;
-    for (size_t k = 0; k < layout.terms.size(); ++k) {
-      long long key = 0;
-      for (int f : d.terms[layout.terms[k]]) key = key * (d.factors[f].levels + 1) + assignment[f];
-      const auto it = column_of[k].find(key);
-      if (it == column_of[k].end()) return false;
-      (*row)(it->second) += 1.0;
-    }
-    ++combos;
-    size_t g = 0;
-    while (g < pick.size() && ++pick[g] == choices[g].size()) { pick[g] = 0; ++g; }
-    if (g == pick.size()) break;
-  }
-  *row /= static_cast<double>(combos);
-  return true;
-}
-
-std::vector<std::vector<std::vector<int>>> observed_group_combos(const CodedDesign& d) {
-  std::vector<std::vector<std::vector<int>>> out;
-  for (const auto& group : d.grid_groups) out.push_back(term_cells(d, group).levels);
-  return out;
-}
-
 // Calls `visit` with the factor assignment of every point of the reference
 // grid that agrees with the target levels. False when a group has no
 // observed combination agreeing with the target, or `visit` says stop.
@@ -575,6 +526,35 @@ bool for_each_grid_point(const CodedDesign& d, const std::vector<std::vector<std
     while (g < pick.size() && ++pick[g] == choices[g].size()) { pick[g] = 0; ++g; }
     if (g == pick.size()) return true;
   }
+}
+
+bool grid_average_row(const CodedDesign& d, const ColumnIndex& column_of,
+                      const std::vector<std::vector<std::vector<int>>>& group_combos,
+                      const std::vector<int>& target_factors, const std::vector<int>& target_levels,
+                      const Layout& layout, bool with_intercept, VectorXd* row) {
+  *row = VectorXd::Zero(layout.width);
+  long long combos = 0;
+  const bool seen = for_each_grid_point(d, group_combos, target_factors, target_levels, [&](const std::vector<int>& at) {
+    if (with_intercept) (*row)(0) += 1.0;
+    for (size_t k = 0; k < layout.terms.size(); ++k) {
+      long long key = 0;
+      for (int f : d.terms[layout.terms[k]]) key = key * (d.factors[f].levels + 1) + at[f];
+      const auto it = column_of[k].find(key);
+      if (it == column_of[k].end()) return false;
+      (*row)(it->second) += 1.0;
+    }
+    ++combos;
+    return true;
+  });
+  if (!seen || combos == 0) return false;
+  *row /= static_cast<double>(combos);
+  return true;
+}
+
+std::vector<std::vector<std::vector<int>>> observed_group_combos(const CodedDesign& d) {
+  std::vector<std::vector<std::vector<int>>> out;
+  for (const auto& group : d.grid_groups) out.push_back(term_cells(d, group).levels);
+  return out;
 }
 
 // a_i = T^-1 U' L_i where R' = U T (thin QR): then L_i' beta = a_i' (Q' y) and

@@ -172,44 +172,17 @@ double cdf_from_panels(double q, int k, double df, RangeCdfPanels& panels) {
 
 }  // namespace
 
-double studentized_range_quantile(double p, int k, double df) {
-  assert(p > 0 && p < 1 && k >= 2 && df > 0);
-  // With few error DF the search spans a wide range of w, where panels cost
-  // more than they save; with none (df infinite) one integral per step is cheap.
-  if (std::isinf(df) || df < kPanelsFromDf) return studentized_range_quantile_direct(p, k, df);
-  RangeCdfPanels panels(k);
-  auto cdf_inf = [&](double q) { return panels(q); };
-  double lo = 0.0, f_lo = -p, hi = 4.0, f_hi = cdf_inf(hi) - p;
-  while (f_hi < 0) { lo = hi; f_lo = f_hi; hi *= 2; f_hi = cdf_inf(hi) - p; }
-  const double q_inf = solve(cdf_inf, p, lo, f_lo, hi, f_hi);
-  if (std::isinf(df)) return q_inf;
-  auto cdf = [&](double q) { return cdf_from_panels(q, k, df, panels); };
-  lo = q_inf;
-  f_lo = cdf(lo) - p;
-  if (f_lo >= 0) return q_inf;
-  double step = std::max(1e-3, 3.0 / df);
-  hi = q_inf * (1 + step);
-  f_hi = cdf(hi) - p;
-  while (f_hi < 0) {
-    lo = hi;
-    f_lo = f_hi;
-    step *= 2;
-    hi = q_inf * (1 + step);
-    f_hi = cdf(hi) - p;
-  }
-  return solve(cdf, p, lo, f_lo, hi, f_hi);
-}
+namespace {
 
-double studentized_range_quantile_direct(double p, int k, double df) {
-  assert(p > 0 && p < 1 && k >= 2 && df > 0);
-  // The df = infinity quantile costs little (one integral per evaluation)
-  // and bounds the finite-df one from below: start the search there.
-  auto cdf_inf = [k](double q) { return range_cdf(q, k); };
+// The quantile search shared by both forms: the df = infinity quantile (one
+// integral per step, and a lower bound of the finite-df one) first, then a
+// bracket widened from it until the root is inside.
+template <class CdfInf, class Cdf>
+double quantile_search(double p, double df, CdfInf cdf_inf, Cdf cdf) {
   double lo = 0.0, f_lo = -p, hi = 4.0, f_hi = cdf_inf(hi) - p;
   while (f_hi < 0) { lo = hi; f_lo = f_hi; hi *= 2; f_hi = cdf_inf(hi) - p; }
   const double q_inf = solve(cdf_inf, p, lo, f_lo, hi, f_hi);
   if (std::isinf(df)) return q_inf;
-  auto cdf = [k, df](double q) { return studentized_range_cdf(q, k, df); };
   lo = q_inf;
   f_lo = cdf(lo) - p;
   if (f_lo >= 0) return q_inf;   // df so large that the difference is below resolution
@@ -225,6 +198,24 @@ double studentized_range_quantile_direct(double p, int k, double df) {
     f_hi = cdf(hi) - p;
   }
   return solve(cdf, p, lo, f_lo, hi, f_hi);
+}
+
+}  // namespace
+
+double studentized_range_quantile(double p, int k, double df) {
+  assert(p > 0 && p < 1 && k >= 2 && df > 0);
+  // With few error DF the search spans a wide range of w, where panels cost
+  // more than they save; with none (df infinite) one integral per step is cheap.
+  if (std::isinf(df) || df < kPanelsFromDf) return studentized_range_quantile_direct(p, k, df);
+  RangeCdfPanels panels(k);
+  return quantile_search(p, df, [&](double q) { return panels(q); },
+                         [&](double q) { return cdf_from_panels(q, k, df, panels); });
+}
+
+double studentized_range_quantile_direct(double p, int k, double df) {
+  assert(p > 0 && p < 1 && k >= 2 && df > 0);
+  return quantile_search(p, df, [k](double q) { return range_cdf(q, k); },
+                         [k, df](double q) { return studentized_range_cdf(q, k, df); });
 }
 
 }  // namespace furrow
