@@ -6,12 +6,12 @@ set -euo pipefail
 PACKAGES=(
   cmake g++ make pkg-config
   libeigen3-dev libboost-math-dev
-  libsqlite3-dev libsodium-dev
+  libsqlite3-dev libsodium-dev libcairo2-dev libqrencode-dev
   libimgui-dev libglfw3-dev libgl-dev libstb-dev fonts-dejavu-core
   nlohmann-json3-dev libcli11-dev doctest-dev
   python3 python3-scipy python3-statsmodels python3-pandas python3-numpy
   xvfb xauth x11-xserver-utils libgl1-mesa-dri
-  chromium xdotool
+  chromium xdotool poppler-utils zbar-tools
 )
 
 missing=()

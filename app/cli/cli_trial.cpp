@@ -11,6 +11,8 @@
 #include <unistd.h>
 
 #include "app/cli/analysis_output.h"
+#include "app/print/stake_labels.h"
+#include "core/stake_code.h"
 #include "app/work/record_session.h"
 #include "app/work/trial_analysis.h"
 #include "app/work/trial_summary.h"
@@ -133,6 +135,23 @@ int run_walk(const WalkRequest& r) {
   std::cout << "today's walk: " << v.walk_summary << "\n";
   std::cout << "done " << v.walk_done << " of " << v.walk_total << " values"
             << (v.walk_complete ? "" : "; next: plot " + v.plot_label + ", " + v.trait_name) << "\n";
+  return 0;
+}
+
+int run_labels(const std::string& db_path, const std::string& out, const std::string& sheet_key, bool blind) {
+  auto open = open_trial_database(db_path, Access::read_only);
+  if (!open) return fail(db_path, open.problem().message);
+  auto sheet = label_sheet(sheet_key);
+  if (!sheet) return fail(db_path, sheet.problem().message);
+  if (auto w = write_stake_labels(open->trial, *sheet, blind, out); !w) return fail(out, w.problem().message);
+  const size_t n = open->trial.layout.plots.size();
+  const size_t per_page = static_cast<size_t>(sheet->columns * sheet->rows);
+  const std::string sample = stake_code_text({open->trial.uid, open->trial.plan.name, open->trial.layout.plots[0].label});
+  char module[32];
+  std::snprintf(module, sizeof module, "%.2f", qr_module_mm(*sheet, sample));
+  std::cout << "labels " << out << ": " << n << " plots in walk order on " << (n + per_page - 1) / per_page
+            << " page(s), " << sheet->title << "; QR modules " << module
+            << " mm (error correction M); print at 100 % (no fit to page)\n";
   return 0;
 }
 

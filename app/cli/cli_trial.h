@@ -36,6 +36,9 @@ int run_walk(const WalkRequest& r);
 // kind: "long", "wide" or "layout"; out empty: stdout.
 int run_export(const std::string& db_path, const std::string& kind, const std::string& out);
 
+// `labels`: the trial's stake labels as a PDF (app/print/stake_labels.h).
+int run_labels(const std::string& db_path, const std::string& out, const std::string& sheet, bool blind);
+
 int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json,
                    double alpha, const std::string& sums, bool without_interaction = false);
 

@@ -64,6 +64,15 @@ int main(int argc, char** argv) {
   trial_copy->add_option("--by", enrol_who.by, "who enrols the device (kept at the station with its key)")->required();
   trial_copy->add_option("--label", enrol_who.label, "the device's name for people, e.g. \"Tablet 3\" (default: the file's name)");
 
+  // labels
+  std::string labels_db, labels_out, labels_sheet = "a4-3x8";
+  bool labels_blind = false;
+  auto* labels = app.add_subcommand("labels", "Write the stake labels (plot label, place, entry, QR code) as a PDF");
+  labels->add_option("--db", labels_db, "trial database")->required();
+  labels->add_option("--out", labels_out, "PDF file to write")->required();
+  labels->add_option("--sheet", labels_sheet, "a4-3x8 (default), letter-3x10, or roll-WxH in millimetres");
+  labels->add_flag("--blind", labels_blind, "leave the entry off (a trial scored blind)");
+
   // device list / revoke / enrol / renew
   auto* device = app.add_subcommand("device", "The devices a station's trial takes bundles from (keys, enrolment)");
   device->require_subcommand(1);
@@ -200,6 +209,7 @@ int main(int argc, char** argv) {
   if (trial_new->parsed()) return furrow::run_trial_new(plan_path, trial_db);
   if (trial_show->parsed()) return furrow::run_trial_show(trial_db);
   if (trial_copy->parsed()) return furrow::run_trial_copy(copy_from, trial_db, enrol_who);
+  if (labels->parsed()) return furrow::run_labels(labels_db, labels_out, labels_sheet, labels_blind);
   if (device_list->parsed()) return furrow::run_device_list(device_db, device_json);
   if (device_revoke->parsed()) return furrow::run_device_revoke(device_db, device_id, enrol_who.by, revoke_reason);
   if (device_enrol->parsed()) return furrow::run_device_enrol(device_station, device_db, enrol_who);
