@@ -22,6 +22,7 @@
 #include "app/field/screens/trials_screen.h"
 #include "app/field/screens/widgets.h"
 #include "app/field/settings.h"
+#include "app/print/stake_labels.h"
 #include "app/work/station.h"
 #include "app/work/trial_analysis.h"
 #include "core/entry_checks.h"
@@ -361,6 +362,19 @@ class FieldApp final : public FieldAppState {
                                  " marked in it: settle and export again)";
         break;
       case StationAction::Kind::export_report: report(export_report(trial_path_, export_folder()), "Report written:"); break;
+      case StationAction::Kind::write_labels: {
+        // A4, 3 x 8 labels, walk order; the entry left off when this device scores blind.
+        const std::string out =
+            (std::filesystem::path(export_folder()) / (std::filesystem::path(trial_path_).stem().string() + "-labels.pdf"))
+                .string();
+        std::error_code ec;
+        std::filesystem::create_directories(export_folder(), ec);
+        const Status w = write_stake_labels(session_->trial(), *label_sheet("a4-3x8"), settings_.blind_scoring, out);
+        station_ui_.message = w ? "Stake labels written: " + out + " (A4, 3 x 8 labels of 70 x 37 mm; print at 100 %)"
+                                : w.problem().message;
+        station_ui_.message_is_problem = !w;
+        break;
+      }
       case StationAction::Kind::keep:
       case StationAction::Kind::new_value:
       case StationAction::Kind::mark_missing: settle(*action); break;

@@ -149,3 +149,19 @@ TEST_CASE("a device is revoked in two taps: Revoke, then the named confirmation;
 
 }  // namespace
 }  // namespace furrow
+
+namespace furrow {
+namespace {
+
+TEST_CASE("stake labels are one tap away on the Station screen when a trial is open") {
+  Headless h(1280, 800);
+  const TapTarget* labels = test::find_target(h.state.targets, "Stake labels (PDF)");
+  REQUIRE(labels != nullptr);
+  CHECK(labels->y1 - labels->y0 >= kTouchTargetPx - 0.5f);
+  h.ui.tap(*labels);
+  REQUIRE(h.action.has_value());
+  CHECK(h.action->kind == StationAction::Kind::write_labels);
+}
+
+}  // namespace
+}  // namespace furrow
