@@ -152,7 +152,7 @@ class RangeCdfPanels {
 };
 
 // P(Q <= q; k, df) as studentized_range_cdf, with P_inf read from `panels`.
-double cdf_from_panels(double q, int k, double df, RangeCdfPanels& panels) {
+double cdf_from_panels(double q, double df, RangeCdfPanels& panels) {
   if (!(q > 0)) return 0.0;
   if (std::isinf(df)) return panels(q);
   const double log_norm = 0.5 * df * std::log(df) - std::lgamma(0.5 * df) - (0.5 * df - 1) * std::log(2.0);
@@ -166,7 +166,6 @@ double cdf_from_panels(double q, int k, double df, RangeCdfPanels& panels) {
   const double s_hi = std::sqrt(boost::math::quantile(boost::math::complement(chi, kOuterTail)) / df);
   const double mode = df > 1 ? std::clamp(std::sqrt((df - 1) / df), s_lo, s_hi) : 0.5 * (s_lo + s_hi);
   const int outer = df < kFewDf ? kOuterPanelsFewDf : kOuterPanels;
-  (void)k;
   return std::min(1.0, composite(integrand, s_lo, mode, outer) + composite(integrand, mode, s_hi, outer));
 }
 
@@ -209,7 +208,7 @@ double studentized_range_quantile(double p, int k, double df) {
   if (std::isinf(df) || df < kPanelsFromDf) return studentized_range_quantile_direct(p, k, df);
   RangeCdfPanels panels(k);
   return quantile_search(p, df, [&](double q) { return panels(q); },
-                         [&](double q) { return cdf_from_panels(q, k, df, panels); });
+                         [&](double q) { return cdf_from_panels(q, df, panels); });
 }
 
 double studentized_range_quantile_direct(double p, int k, double df) {

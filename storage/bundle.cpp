@@ -847,6 +847,18 @@ Result<Enrolment> station_enrolment(OpenTrial& station, const DeviceEnrolment& w
   return e;
 }
 
+// A device's enrolment at its station: labelled as asked, else by its file's name.
+Enrolment device_enrolment(const std::string& device_id, const std::string& public_key, const DeviceEnrolment& who,
+                           const std::string& device_path) {
+  Enrolment e;
+  e.device_id = device_id;
+  e.public_key = public_key;
+  e.label = who.label.empty() ? std::filesystem::path(device_path).stem().string() : who.label;
+  e.enrolled_by = who.by;
+  e.enrolled_at = utc_now();
+  return e;
+}
+
 Status check_enrolment_request(const DeviceEnrolment& who) {
   if (who.by.empty() || who.by.size() > 200) return make_problem("say who enrols the device (a name of at most 200 bytes)");
   if (who.label.size() > 200) return make_problem("the device's label is longer than 200 bytes");
@@ -877,12 +889,7 @@ Result<std::string> make_device_copy(OpenTrial& station, const std::string& stat
     FURROW_TRY(add_enrolment(device->db, *station_entry));
     auto merged = merge_bundle(device->db, device->trial, temp);
     if (!merged) return merged.problem();
-    Enrolment e;
-    e.device_id = device_id;
-    e.public_key = key->public_key;
-    e.label = who.label.empty() ? std::filesystem::path(device_path).stem().string() : who.label;
-    e.enrolled_by = who.by;
-    e.enrolled_at = utc_now();
+    Enrolment e = device_enrolment(device_id, key->public_key, who, device_path);
     e.succeeds_device_id = succeeds;
     e.succeeds_up_to = up_to;
     if (auto s = add_enrolment(station.db, e); !s) return make_problem(station_path + ": " + s.problem().message);
@@ -941,12 +948,7 @@ Status enrol_existing_device(const std::string& station_path, const std::string&
   }
   if (!*known_station) FURROW_TRY(add_enrolment(device->db, *station_entry));
   if (!*known_device) {
-    Enrolment e;
-    e.device_id = device->trial.device_id;
-    e.public_key = key->public_key;
-    e.label = who.label.empty() ? std::filesystem::path(device_path).stem().string() : who.label;
-    e.enrolled_by = who.by;
-    e.enrolled_at = utc_now();
+    const Enrolment e = device_enrolment(device->trial.device_id, key->public_key, who, device_path);
     if (auto s = add_enrolment(station->db, e); !s) return make_problem(station_path + ": " + s.problem().message);
   }
   return ok_status();

@@ -615,8 +615,8 @@ class FieldApp final : public FieldAppState {
 
   // The analysis of the session's trait and occasion, kept until they or the log change.
   const Result<Analysis>& analysis() {
-    const Key key{session_->trait_index(), session_->occasion(), session_->revision(),
-                  check_ui_.without_interaction ? 1 : 0};
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0,
+                  check_ui_.without_interaction};
     if (!analysis_ || !(analysis_key_ == key)) {
       AnalysisOptions options;
       options.alpha = settings_.alpha;
@@ -718,7 +718,8 @@ class FieldApp final : public FieldAppState {
     size_t trait = 0;
     int occasion = 0;
     std::uint64_t revision = 0;
-    int colouring = 0;   // the map's colouring; for the analysis, 1 when the interaction is left out
+    int colouring = 0;                 // the map's colouring
+    bool without_interaction = false;  // the analysis: main effects only
     bool operator==(const Key&) const = default;
   };
 

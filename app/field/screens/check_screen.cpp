@@ -94,28 +94,22 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
   ImGui::SetCursorPosY(ImGui::GetCursorPosY() - (h - ImGui::GetTextLineHeight()) / 2);
   if (solid_button(">##trait", ImVec2(button_width(">", scale), h), plain, &st->targets, "next trait"))
     action = CheckAction{CheckAction::Kind::next_trait, 0};
-  {
-    // The supervisor's view: outlier plots of every trait.
-    const char* label = st->every_trait_outliers ? "Back to this trait's analysis" : "Outlier plots of every trait";
+  // A bordered button that turns a view on and off (accent when on).
+  const auto toggle = [&](bool* on, const char* when_on, const char* when_off, const char* target) {
+    const char* label = *on ? when_on : when_off;
     flow_next(button_width(label, scale));
-    ButtonLook look{st->every_trait_outliers ? t.accent : t.background, st->every_trait_outliers ? t.accent_text : t.text};
+    ButtonLook look{*on ? t.accent : t.background, *on ? t.accent_text : t.text};
     look.border_px = 2.0f * scale;
     look.border = t.text;
-    if (solid_button(label, ImVec2(button_width(label, scale), h), look, &st->targets, "every trait"))
-      st->every_trait_outliers = !st->every_trait_outliers;
-  }
+    if (solid_button(label, ImVec2(button_width(label, scale), h), look, &st->targets, target)) *on = !*on;
+  };
+  // The supervisor's view: outlier plots of every trait.
+  toggle(&st->every_trait_outliers, "Back to this trait's analysis", "Outlier plots of every trait", "every trait");
   const DesignKind design = trial.plan.design;
+  // Cells with no plot leave some means out; main effects alone estimate them.
   if (!st->every_trait_outliers && (design == DesignKind::factorial || design == DesignKind::split_plot ||
-                                    design == DesignKind::multi_site)) {
-    // Cells with no plot leave some means out; main effects alone estimate them.
-    const char* label = st->without_interaction ? "Include the interaction" : "Leave out the interaction";
-    flow_next(button_width(label, scale));
-    ButtonLook look{st->without_interaction ? t.accent : t.background, st->without_interaction ? t.accent_text : t.text};
-    look.border_px = 2.0f * scale;
-    look.border = t.text;
-    if (solid_button(label, ImVec2(button_width(label, scale), h), look, &st->targets, "interaction"))
-      st->without_interaction = !st->without_interaction;
-  }
+                                    design == DesignKind::multi_site))
+    toggle(&st->without_interaction, "Include the interaction", "Leave out the interaction", "interaction");
 
   // The whole screen scrolls by dragging (the header too: at large text it
   // would leave no room otherwise).
