@@ -11,7 +11,9 @@
 #include <unistd.h>
 
 #include "app/cli/analysis_output.h"
+#include "app/print/field_sheet.h"
 #include "app/print/stake_labels.h"
+#include "app/work/sheet_entry.h"
 #include "core/stake_code.h"
 #include "app/work/record_session.h"
 #include "app/work/trial_analysis.h"
@@ -79,8 +81,83 @@ int run_trial_show(const std::string& db_path) {
   return 0;
 }
 
+namespace {
+
+// A message of several lines (one per finding) on standard error, the later
+// lines indented.
+void print_lines(const std::string& message) {
+  for (size_t at = 0, k = 0; at < message.size(); ++k) {
+    const size_t end = std::min(message.find('\n', at), message.size());
+    std::cerr << (k ? "    " : "") << terminal_safe(message.substr(at, end - at)) << "\n";
+    at = end + 1;
+  }
+}
+
+// One question about a sheet's value, on the terminal.
+SheetAnswer ask_on_terminal(const SheetQuestion& q) {
+  print_lines(q.message);
+  std::string choices;
+  if (q.can_confirm) choices += "[c] save " + q.text + " as written   ";
+  if (!q.suggestion.empty()) choices += "[s] save " + q.suggestion + " instead   ";
+  choices += "[Enter] leave it unsaved: ";
+  std::cerr << terminal_safe("line " + std::to_string(q.line) + ", plot " + q.plot + ", " + q.column + " = " + q.text +
+                             ": " + choices)
+            << std::flush;
+  std::string answer;
+  const bool got = static_cast<bool>(std::getline(std::cin, answer));
+  if (!::isatty(STDIN_FILENO)) std::cerr << "\n";   // the answer was not echoed
+  if (!got) return SheetAnswer::leave;
+  while (!answer.empty() && std::isspace(static_cast<unsigned char>(answer.back()))) answer.pop_back();
+  if (q.can_confirm && (answer == "c" || answer == "C")) return SheetAnswer::save_as_written;
+  if (!q.suggestion.empty() && (answer == "s" || answer == "S")) return SheetAnswer::save_suggestion;
+  return SheetAnswer::leave;
+}
+
+int run_record_sheet(const RecordRequest& r) {
+  SheetOptions options;
+  options.occasion = r.occasion;
+  for (const std::string& c : r.confirm_cells) {
+    const size_t colon = c.find(':');
+    const std::string line = c.substr(0, colon);
+    if (line.empty() || line.find_first_not_of("0123456789") != std::string::npos || line.size() > 9)
+      return fail(r.from_sheet, "--confirm-line takes LINE or LINE:COLUMN (e.g. 21:height_cm), not '" + c + "'");
+    options.confirm.insert({std::stoi(line), colon == std::string::npos ? std::string("*") : c.substr(colon + 1)});
+  }
+  if (r.ask || ::isatty(STDIN_FILENO)) options.ask = ask_on_terminal;
+  auto session = RecordSession::open(r.db, r.observer);
+  if (!session) return fail(r.db, session.problem().message);
+  auto result = enter_sheet(*session, r.from_sheet, options);
+  if (!result) return fail(r.from_sheet, result.problem().message);
+  using K = SheetItem::Kind;
+  for (const SheetItem& i : result->items)
+    if (i.kind == K::refused || i.kind == K::waiting || i.kind == K::duplicate) print_lines(std::string(sheet_item_key(i.kind)) + ": " + i.message);
+  const int saved = result->count(K::saved) + result->count(K::confirmed) + result->count(K::suggestion);
+  std::cout << terminal_safe(r.from_sheet) << ": saved " << saved << " value(s)";
+  if (result->count(K::confirmed)) std::cout << " (" << result->count(K::confirmed) << " after confirmation)";
+  if (result->count(K::suggestion)) std::cout << " (" << result->count(K::suggestion) << " as suggested)";
+  std::cout << "; " << result->count(K::already_saved) << " already saved; " << result->count(K::waiting)
+            << " need confirmation; " << result->count(K::refused) << " refused; " << result->count(K::duplicate)
+            << " duplicate(s) saved nothing\n";
+  if (result->count(K::waiting))
+    std::cout << "values that need confirmation are not saved: correct them in the file, or save them as written with "
+                 "--confirm-line LINE:COLUMN (or answer at a terminal); entering the file again saves nothing twice\n";
+  if (result->count(K::refused)) return kExitBadInput;
+  if (result->count(K::waiting)) return kExitNeedsConfirmation;
+  return 0;
+}
+
+}  // namespace
+
 int run_record(const RecordRequest& r) {
   if (r.observer.empty()) return fail(r.db, "say who measured: --observer NAME");
+  if (!r.from_sheet.empty()) {
+    if (!r.plot.empty() || !r.trait.empty() || !r.value.empty() || !r.missing.empty() || r.confirm)
+      return fail(r.db, "--from-sheet takes its plots, traits and values from the file: leave out --plot, --trait, "
+                        "--value, --missing and --confirm");
+    return run_record_sheet(r);
+  }
+  if (!r.confirm_cells.empty()) return fail(r.db, "--confirm-line goes with --from-sheet (one value: --confirm)");
+  if (r.plot.empty() || r.trait.empty()) return fail(r.db, "say which plot and trait: --plot LABEL --trait CODE");
   if (r.value.empty() == r.missing.empty()) return fail(r.db, "give either --value or --missing REASON");
   auto session = RecordSession::open(r.db, r.observer);
   if (!session) return fail(r.db, session.problem().message);
@@ -152,6 +229,43 @@ int run_labels(const std::string& db_path, const std::string& out, const std::st
   std::cout << "labels " << out << ": " << n << " plots in walk order on " << (n + per_page - 1) / per_page
             << " page(s), " << sheet->title << "; QR modules " << module
             << " mm (error correction M); print at 100 % (no fit to page)\n";
+  return 0;
+}
+
+int run_sheets(const SheetsRequest& r) {
+  auto open = open_trial_database(r.db, Access::read_only);
+  if (!open) return fail(r.db, open.problem().message);
+  const StoredTrial& t = open->trial;
+  auto paper = sheet_paper(r.paper);
+  if (!paper) return fail(r.db, paper.problem().message);
+  FieldSheetRequest request;
+  request.occasion = r.occasion;
+  request.blind = r.blind;
+  request.printed_on = local_date_today();
+  if (r.traits.empty()) {
+    for (size_t k = 0; k < t.plan.traits.size(); ++k) request.traits.push_back(k);
+  } else {
+    for (const std::string& code : r.traits) {
+      size_t k = 0;
+      if (!find_trait(t, code, &k)) return fail(r.db, "trait '" + code + "' is not measured in this trial");
+      if (std::find(request.traits.begin(), request.traits.end(), k) != request.traits.end())
+        return fail(r.db, "trait '" + code + "' is named twice in --traits");
+      request.traits.push_back(k);
+    }
+  }
+  auto layout = write_field_sheet(t, *paper, request, r.out);
+  if (!layout) return fail(r.out, layout.problem().message);
+  std::vector<std::string> columns;
+  for (const auto& c : layout->columns)
+    if (c.holds == FieldSheetLayout::Column::Holds::value) columns.push_back(c.title);
+  if (!r.csv_out.empty())
+    if (auto w = write_text_file(r.csv_out, blank_sheet_csv(t, columns, r.blind)); !w)
+      return fail(r.csv_out, w.problem().message);
+  std::cout << "sheet " << terminal_safe(r.out) << ": " << t.layout.plots.size() << " plots in walk order on "
+            << layout->pages << " page(s), " << (r.paper == "a4" ? "A4" : "US Letter")
+            << (layout->landscape ? " landscape" : " portrait") << "; print at 100 %\n";
+  if (!r.csv_out.empty())
+    std::cout << "blank CSV " << terminal_safe(r.csv_out) << ": type the values in, then furrow record --from-sheet\n";
   return 0;
 }
 

@@ -133,14 +133,31 @@ int main(int argc, char** argv) {
   furrow::RecordRequest rec;
   auto* record = app.add_subcommand("record", "Check and save one value (exit 2 refused, 3 needs --confirm)");
   record->add_option("--db", rec.db, "trial database")->required();
-  record->add_option("--plot", rec.plot, "plot label as on the stake")->required();
-  record->add_option("--trait", rec.trait, "trait code")->required();
+  record->add_option("--plot", rec.plot, "plot label as on the stake");
+  record->add_option("--trait", rec.trait, "trait code");
   record->add_option("--occasion", rec.occasion, "occasion of a repeated trait (default 1)");
   record->add_option("--value", rec.value, "the value");
   record->add_option("--missing", rec.missing, "no value, with the reason (damaged, plants missing, flooded, ...)");
   record->add_option("--observer", rec.observer, "who measured")->required();
   record->add_option("--note", rec.note, "a note for this plot");
   record->add_flag("--confirm", rec.confirm, "save a value that needs confirmation");
+  record->add_option("--from-sheet", rec.from_sheet,
+                     "a typed-back field sheet (CSV: plot, trait columns as headed on the sheet, note): every value "
+                     "checked as on the Record screen; a value already saved is not saved again");
+  record->add_option("--confirm-line", rec.confirm_cells,
+                     "with --from-sheet: save as written the values of LINE (or LINE:COLUMN) that need confirmation");
+  record->add_flag("--ask", rec.ask, "with --from-sheet: ask about each value that needs confirmation on standard input");
+
+  furrow::SheetsRequest sheets_req;
+  auto* sheets = app.add_subcommand("sheets", "The walk as a printable field sheet (PDF), and the blank CSV to type it back");
+  sheets->add_option("--db", sheets_req.db, "trial database")->required();
+  sheets->add_option("--out", sheets_req.out, "PDF file to write")->required();
+  sheets->add_option("--traits", sheets_req.traits, "trait codes, comma-separated, in the order printed (default every trait)")
+      ->delimiter(',');
+  sheets->add_option("--occasion", sheets_req.occasion, "occasion of repeated traits (default 1)");
+  sheets->add_option("--paper", sheets_req.paper, "a4 (default) or letter");
+  sheets->add_flag("--blind", sheets_req.blind, "leave the treatments off (the crew scores blind)");
+  sheets->add_option("--csv", sheets_req.csv_out, "also write the blank CSV with the sheet's columns, in walk order");
 
   furrow::WalkRequest walk_req;
   auto* walk = app.add_subcommand("walk", "Show or choose today's walk on this device (traits, occasion, blocks)");
@@ -228,6 +245,7 @@ int main(int argc, char** argv) {
     return 0;
   }
   if (record->parsed()) return furrow::run_record(rec);
+  if (sheets->parsed()) return furrow::run_sheets(sheets_req);
   if (walk->parsed()) return furrow::run_walk(walk_req);
   if (exp->parsed()) {
     if (!long_table && !wide_table && !layout_table) {
