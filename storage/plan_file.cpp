@@ -314,14 +314,14 @@ std::string long_data_csv(const StoredTrial& t, const std::vector<LiveObservatio
   std::ostringstream o;
   o << "label,site,block,field_row,field_column";
   for (const auto& f : t.plan.factors) o << "," << csv_field(f.name);
-  o << ",trait,occasion,value,missing_reason,note,observer,recorded_at,device,sequence,device_revoked\n";
+  o << ",trait,occasion,value,missing_reason,note,confirmed_checks,observer,recorded_at,device,sequence,device_revoked\n";
   for (const LiveObservation& x : live) {
     const PlannedPlot& p = t.layout.plots[ix.plot.at(x.plot_id)];
     o << csv_field(p.label) << "," << csv_field(site_of(t, p)) << "," << p.block << "," << p.row << "," << p.column;
     for (size_t k = 0; k < p.levels.size(); ++k) o << "," << csv_field(t.plan.factors[k].levels[p.levels[k]]);
     o << "," << csv_field(t.plan.traits[ix.trait.at(x.trait_id)].code) << "," << x.occasion << ","
       << csv_field(x.value.value_or("")) << "," << csv_field(x.missing_reason.value_or("")) << "," << csv_field(x.note)
-      << "," << csv_field(x.observer) << "," << x.recorded_at << "," << x.key.device_id << "," << x.key.sequence << ","
+      << "," << csv_field(x.confirmed_checks) << "," << csv_field(x.observer) << "," << x.recorded_at << "," << x.key.device_id << "," << x.key.sequence << ","
       << (revoked_devices.count(x.key.device_id) ? "yes" : "") << "\n";
   }
   return o.str();

@@ -22,7 +22,10 @@
 #include "app/field/screens/trials_screen.h"
 #include "app/field/screens/widgets.h"
 #include "app/field/settings.h"
+#include "app/print/field_sheet.h"
 #include "app/print/stake_labels.h"
+#include "app/work/sheet_entry.h"
+#include "storage/text_file.h"
 #include "app/work/station.h"
 #include "app/work/trial_analysis.h"
 #include "core/entry_checks.h"
@@ -373,6 +376,36 @@ class FieldApp final : public FieldAppState {
         station_ui_.message = w ? "Stake labels written: " + out + " (A4, 3 x 8 labels of 70 x 37 mm; print at 100 %)"
                                 : w.problem().message;
         station_ui_.message_is_problem = !w;
+        break;
+      }
+      case StationAction::Kind::write_sheet: {
+        // Today's walk's traits and occasion on A4, every plot in walk order,
+        // with the blank CSV to type it back into beside it.
+        const StoredTrial& trial = session_->trial();
+        const std::string stem =
+            (std::filesystem::path(export_folder()) / (std::filesystem::path(trial_path_).stem().string() + "-sheet")).string();
+        const WalkChoice walk = session_->walk().choice(trial);
+        FieldSheetRequest request;
+        request.occasion = walk.occasion;
+        request.blind = settings_.blind_scoring;
+        request.printed_on = local_date_today();
+        std::vector<std::string> columns;
+        for (const std::string& code : walk.trait_codes)
+          for (size_t k = 0; k < trial.plan.traits.size(); ++k)
+            if (trial.plan.traits[k].code == code) {
+              request.traits.push_back(k);
+              columns.push_back(sheet_column(trial.plan.traits[k], walk.occasion));
+            }
+        std::error_code ec;
+        std::filesystem::create_directories(export_folder(), ec);
+        auto sheet = write_field_sheet(trial, *sheet_paper("a4"), request, stem + ".pdf");
+        Status csv = sheet ? write_text_file(stem + ".csv", blank_sheet_csv(trial, columns, request.blind))
+                           : Status(sheet.problem());
+        station_ui_.message = csv ? "Field sheet written: " + stem + ".pdf (" + std::to_string(sheet->pages) +
+                                        " A4 pages of today's walk; print at 100 %) and the blank " + stem +
+                                        ".csv to type it back"
+                                  : csv.problem().message;
+        station_ui_.message_is_problem = !csv;
         break;
       }
       case StationAction::Kind::keep:

@@ -13,9 +13,9 @@ namespace {
 
 constexpr double kMargin = 12.0;        // every edge: inside what common office printers can print
 constexpr double kRowHeight = 7.0;      // room for handwriting (as ruled paper), with a pencil on a clipboard
-constexpr double kHeadHeight = 18.0;    // the table head: code, name, unit and range, how written
-constexpr double kTopBlock = 20.0;      // trial, site and season, date and observer blanks
-constexpr double kFoot = 8.0;           // the field caution
+constexpr double kHeadHeight = 17.0;    // the table head: code, name, unit and range, how written
+constexpr double kTopBlock = 18.0;      // trial, site and season, date and observer blanks
+constexpr double kFoot = 10.5;          // how to write "no value", and the field cautions
 constexpr double kMinValueBox = 18.0;   // narrowest box for a handwritten value
 constexpr double kTextSize = 3.2;       // body text, mm (about 9 pt)
 
@@ -51,8 +51,7 @@ std::string trait_detail(const Trait& tr) {
 }
 
 std::string walk_words(const TrialPlan& plan) {
-  return plan.walk == WalkOrder::serpentine_rows ? "walk along field rows, turning at each end"
-                                                 : "walk along field columns, turning at each end";
+  return plan.walk == WalkOrder::serpentine_rows ? "walk along rows (serpentine)" : "walk along columns (serpentine)";
 }
 
 }  // namespace
@@ -74,13 +73,18 @@ Result<SheetPaper> sheet_paper(const std::string& key) {
 
 Result<FieldSheetLayout> field_sheet_layout(const StoredTrial& t, const SheetPaper& paper, const FieldSheetRequest& r) {
   if (r.traits.empty()) return make_problem("choose at least one trait for the sheet");
+  bool repeated = false;
   for (size_t k : r.traits) {
     if (k >= t.plan.traits.size()) return make_problem("no such trait on this trial");
     const Trait& tr = t.plan.traits[k];
     if (r.occasion < 1 || (tr.occasions > 1 && r.occasion > tr.occasions))
       return make_problem(tr.code + " has " + std::to_string(tr.occasions) + " occasions; " +
                           std::to_string(r.occasion) + " is not one of them");
+    repeated = repeated || tr.occasions > 1;
   }
+  if (r.occasion > 1 && !repeated)
+    return make_problem("none of the chosen traits is measured more than once: occasion " + std::to_string(r.occasion) +
+                        " is not one of theirs");
   // The fixed columns, then the value boxes and the note sharing what is left.
   using Holds = FieldSheetLayout::Column::Holds;
   std::vector<FieldSheetLayout::Column> fixed;
@@ -225,14 +229,14 @@ Result<FieldSheetLayout> write_field_sheet(const StoredTrial& t, const SheetPape
     pdf.line(left, top + L.head_height_mm, right, top + L.head_height_mm, 0.5);
     for (size_t k = 1; k < L.columns.size(); ++k)
       pdf.line(L.columns[k].x_mm, top, L.columns[k].x_mm, bottom, L.columns[k].value_box ? 0.35 : 0.15);
-    // Foot: how to type it back, and the field caution.
-    const double foot = L.page_height_mm - kMargin - 1.0;
+    // Foot: how to type it back, and the field cautions.
+    const double foot = L.page_height_mm - kMargin - 0.5;
     pdf.text("No value: write \"missing:\" and the reason in the box. Typed back: one CSV line per plot, columns as "
              "headed (furrow record --from-sheet).",
-             left, foot - 3.6, 2.6, width);
-    pdf.text("Treated plots: keep to the re-entry interval on the product label and your local rules. Heat, sun and "
-             "machinery: follow your station's safety practice.",
-             left, foot, 2.6, width);
+             left, foot - 7.0, 2.6, width);
+    pdf.text("Treated plots: keep to the re-entry interval on the product label and your local rules.", left, foot - 3.5,
+             2.6, width);
+    pdf.text("Heat, sun and machinery: follow your station's safety practice.", left, foot, 2.6, width);
   }
   if (auto st = pdf.finish(); !st) return st.problem();
   return layout;

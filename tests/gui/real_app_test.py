@@ -3,7 +3,8 @@
 (xdotool): a barcode scanner's label and Enter on the Record screen; and, as a
 station manager at day's end: open the Station screen on a trial with
 three conflicts, tap "Keep 96 (Ana)" on the first, tap "Import bundles" to
-merge a late device's bundle from the data folder, then check the trial
+merge a late device's bundle from the data folder, tap "Stake labels (PDF)"
+and "Field sheet (PDF)", then check the exports folder and the trial
 database through the command line: the first conflict settled by the
 observer, the late bundle's rows merged.
 
@@ -81,6 +82,10 @@ tap 'keep plot 101 0'
 sleep 1
 tap 'Import bundles'
 sleep 2
+tap 'Stake labels (PDF)'
+sleep 2
+tap 'Field sheet (PDF)'
+sleep 2
 kill $app
 wait $app
 """
@@ -97,6 +102,19 @@ check("120" in rows and "Cleo" in rows["120"], "the tap on Import bundles merged
 check(os.path.exists(os.path.join(data, "bundles", "done", "c.bundle"))
       and not os.path.exists(os.path.join(data, "bundles", "incoming", "c.bundle")),
       "the merged bundle moved from incoming to done")
+# The print buttons wrote the trial's labels and today's field sheet (with its blank CSV) to the exports folder.
+exports = os.path.join(data, "exports")
+labels_pdf, sheet_pdf = os.path.join(exports, "oats-labels.pdf"), os.path.join(exports, "oats-sheet.pdf")
+check(os.path.exists(labels_pdf) and "Pages:           4" in subprocess.run(["pdfinfo", labels_pdf], capture_output=True,
+                                                                              text=True).stdout,
+      "Stake labels (PDF): 80 labels on four A4 sheets of 24")
+sheet_text = subprocess.run(["pdftotext", "-layout", sheet_pdf, "-"], capture_output=True, text=True).stdout \
+    if os.path.exists(sheet_pdf) else ""
+check("page 1 of 3" in sheet_text and "stand_count" in sheet_text and "height_cm" not in sheet_text,
+      "Field sheet (PDF): today's walk (stand count), three portrait pages")
+blank = os.path.join(exports, "oats-sheet.csv")
+check(os.path.exists(blank) and open(blank, encoding="utf-8").readline().startswith("plot,block,field_row"),
+      "and the blank CSV to type it back")
 
 # Fresh views: the Station screen is open when a settlement arrives from the
 # command line (another program); the screen drops the settled conflict

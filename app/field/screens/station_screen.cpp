@@ -26,7 +26,8 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
       {"Write this device's bundle", StationAction::Kind::write_bundle, true},
       {"Export data (CSV)", StationAction::Kind::export_data, true},
       {"Write report (HTML)", StationAction::Kind::export_report, true},
-      {"Stake labels (PDF)", StationAction::Kind::write_labels, true}};
+      {"Stake labels (PDF)", StationAction::Kind::write_labels, true},
+      {"Field sheet (PDF)", StationAction::Kind::write_sheet, true}};
   bool first = true;
   for (const auto& b : buttons) {
     if (b.needs_trial && !v.trial) continue;

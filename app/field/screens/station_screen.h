@@ -51,7 +51,7 @@ struct StationScreenState {
 
 struct StationAction {
   enum class Kind { import_bundles, write_bundle, export_data, export_report, keep, new_value, mark_missing,
-                    revoke_device, write_labels } kind = Kind::import_bundles;
+                    revoke_device, write_labels, write_sheet } kind = Kind::import_bundles;
   size_t conflict = 0, row = 0;      // keep: which conflict and which of its rows, as drawn
   ConflictId cell;                   // keep, new_value, mark_missing: the cell
   ObservationKey keep{};             // keep: the row whose value stands

@@ -153,14 +153,18 @@ TEST_CASE("a device is revoked in two taps: Revoke, then the named confirmation;
 namespace furrow {
 namespace {
 
-TEST_CASE("stake labels are one tap away on the Station screen when a trial is open") {
-  Headless h(1280, 800);
-  const TapTarget* labels = test::find_target(h.state.targets, "Stake labels (PDF)");
-  REQUIRE(labels != nullptr);
-  CHECK(labels->y1 - labels->y0 >= kTouchTargetPx - 0.5f);
-  h.ui.tap(*labels);
-  REQUIRE(h.action.has_value());
-  CHECK(h.action->kind == StationAction::Kind::write_labels);
+TEST_CASE("stake labels and the field sheet are one tap away on the Station screen when a trial is open") {
+  for (const auto& [label, kind] : {std::pair{"Stake labels (PDF)", StationAction::Kind::write_labels},
+                                    std::pair{"Field sheet (PDF)", StationAction::Kind::write_sheet}}) {
+    CAPTURE(label);
+    Headless h(1280, 800);
+    const TapTarget* button = test::find_target(h.state.targets, label);
+    REQUIRE(button != nullptr);
+    CHECK(button->y1 - button->y0 >= kTouchTargetPx - 0.5f);
+    h.ui.tap(*button);
+    REQUIRE(h.action.has_value());
+    CHECK(h.action->kind == kind);
+  }
 }
 
 }  // namespace
