@@ -380,17 +380,19 @@ std::string plan_hash(const StoredTrial& t) {
   return d.hex();
 }
 
-Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, const std::string& out_path,
-                                    bool everything) {
-  everything = everything || trial.role == "station";
-  // Rows the station is not known to hold, and every row those replace (recursively).
-  const std::string selection =
-      std::string("WITH RECURSIVE sel(device_id, sequence) AS (SELECT o.device_id, o.sequence FROM observation o ") +
-      (everything ? "" :
-                  "WHERE NOT EXISTS (SELECT 1 FROM station_holding h WHERE h.device_id = o.device_id "
-                  "AND h.max_sequence >= o.sequence) ") +
-      "UNION SELECT r.replaced_device_id, r.replaced_sequence FROM replacement r "
-      "JOIN sel ON r.device_id = sel.device_id AND r.sequence = sel.sequence) ";
+namespace {
+
+bool is_device_id(const std::string& s);
+
+// The bundle's bytes: the rows `anchor` chooses (a query of (device_id,
+// sequence) pairs over `observation o`), every row those replace
+// (recursively), and their links, signed with the file's own key. `name`
+// names the bundle in messages.
+Result<std::pair<BundleManifest, std::string>> build_bundle(Database& db, const StoredTrial& trial,
+                                                            const std::string& anchor, const std::string& out_path) {
+  const std::string selection = "WITH RECURSIVE sel(device_id, sequence) AS (SELECT * FROM (" + anchor +
+                                ") UNION SELECT r.replaced_device_id, r.replaced_sequence FROM replacement r "
+                                "JOIN sel ON r.device_id = sel.device_id AND r.sequence = sel.sequence) ";
   std::vector<Row> rows;
   std::vector<Link> links;
   {
@@ -471,10 +473,64 @@ Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, cons
   if (!built) return make_problem(out_path + ": " + built.problem().message);
   auto image = b->image();
   if (!image) return make_problem(out_path + ": " + image.problem().message);
-  const std::string file = seal(*image, *key);
+  std::string file = seal(*image, *key);
   m.file_hash = hash_hex(file);
-  if (auto w = write_text_file(out_path, file); !w) return w.problem();
-  return m;
+  return std::pair{m, std::move(file)};
+}
+
+}  // namespace
+
+Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, const std::string& out_path,
+                                    bool everything) {
+  everything = everything || trial.role == "station";
+  // Rows the station is not known to hold (and, in build_bundle, every row those replace).
+  const std::string anchor = std::string("SELECT o.device_id, o.sequence FROM observation o ") +
+                             (everything ? "" :
+                                         "WHERE NOT EXISTS (SELECT 1 FROM station_holding h WHERE h.device_id = o.device_id "
+                                         "AND h.max_sequence >= o.sequence)");
+  auto built = build_bundle(db, trial, anchor, out_path);
+  if (!built) return built.problem();
+  if (auto w = write_text_file(out_path, built->second); !w) return w.problem();
+  return built->first;
+}
+
+Result<std::pair<BundleManifest, std::string>> bundle_for_sync(Database& db, const StoredTrial& trial,
+                                                               const BundleSelection& sel) {
+  FURROW_TRY(db.exec("CREATE TEMP TABLE IF NOT EXISTS sync_holds (device_id TEXT PRIMARY KEY, n INTEGER NOT NULL)"));
+  FURROW_TRY(db.exec("DELETE FROM temp.sync_holds"));
+  {
+    auto ins = db.prepare("INSERT INTO temp.sync_holds VALUES (?, ?)");
+    if (!ins) return ins.problem();
+    for (const auto& [dev, n] : sel.receiver_holds) {
+      ins->reset();
+      ins->bind(1, dev).bind(2, n);
+      FURROW_TRY(ins->run());
+    }
+  }
+  std::string anchor = "SELECT o.device_id, o.sequence FROM observation o WHERE NOT EXISTS (SELECT 1 FROM "
+                       "temp.sync_holds h WHERE h.device_id = o.device_id AND h.n >= o.sequence)";
+  // Device ids are checked hex (is_device_id) wherever they enter a file.
+  if (sel.makers_rows_only) anchor += " AND o.device_id = '" + trial.device_id + "'";
+  anchor += " ORDER BY o.device_id, o.sequence";
+  if (sel.max_rows > 0) anchor += " LIMIT " + std::to_string(sel.max_rows);
+  return build_bundle(db, trial, anchor, "the sync bundle");
+}
+
+Result<std::map<std::string, std::int64_t>> held_without_gap(Database& db) { return holdings(db); }
+
+Status learn_station_holdings(Database& db, const std::map<std::string, std::int64_t>& held) {
+  return in_transaction(db, [&]() -> Status {
+    auto h = db.prepare("INSERT INTO station_holding (device_id, max_sequence) VALUES (?, ?) "
+                        "ON CONFLICT (device_id) DO UPDATE SET max_sequence = max(max_sequence, excluded.max_sequence)");
+    if (!h) return h.problem();
+    for (const auto& [dev, n] : held) {
+      if (!is_device_id(dev) || n < 0) return make_problem("the station named a device id that is not one Furrow makes");
+      h->reset();
+      h->bind(1, dev).bind(2, n);
+      FURROW_TRY(h->run());
+    }
+    return ok_status();
+  });
 }
 
 Result<BundleManifest> read_bundle_manifest(const std::string& path) {

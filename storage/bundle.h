@@ -72,6 +72,8 @@
 // manager to judge.
 
 #include <cstdint>
+#include <map>
+#include <utility>
 #include <string>
 #include <vector>
 
@@ -99,6 +101,21 @@ std::string plan_hash(const StoredTrial& trial);
 // everything). Returns the manifest.
 Result<BundleManifest> write_bundle(Database& db, const StoredTrial& trial, const std::string& out_path,
                                     bool everything = false);
+
+// A bundle for a network sync (app/work/sync.h), as bytes: the rows the
+// receiver does not hold, a limited number at a time, so that a cut
+// connection resumes where it stopped.
+struct BundleSelection {
+  std::map<std::string, std::int64_t> receiver_holds;   // device id -> the receiver holds its rows 1..n
+  bool makers_rows_only = false;   // only this file's own rows (and the rows they replace)
+  std::int64_t max_rows = 0;       // at most this many rows chosen, in key order (then the rows they replace); 0: all
+};
+Result<std::pair<BundleManifest, std::string>> bundle_for_sync(Database& db, const StoredTrial& trial,
+                                                               const BundleSelection& selection);
+// What `db` holds of each device's log with no gap: device id -> n (rows 1..n).
+Result<std::map<std::string, std::int64_t>> held_without_gap(Database& db);
+// A device learns (from its station, in a sync) what the station holds.
+Status learn_station_holdings(Database& db, const std::map<std::string, std::int64_t>& held);
 
 // Reads and checks a bundle (its signature is the key's it names, format,
 // integrity, counts) without merging, and without asking whether its signer

@@ -93,3 +93,34 @@ std::string key_fingerprint(const std::string& public_key) {
 }
 
 }  // namespace furrow
+
+namespace furrow {
+
+std::string random_bytes(size_t n) {
+  ready();
+  std::string out(n, '\0');
+  randombytes_buf(out.data(), n);
+  return out;
+}
+
+std::uint32_t random_below(std::uint32_t upper) {
+  ready();
+  return randombytes_uniform(upper);
+}
+
+std::string to_hex(std::string_view bytes) {
+  return to_hex(reinterpret_cast<const unsigned char*>(bytes.data()), bytes.size());
+}
+
+std::optional<std::string> from_hex(std::string_view hex) {
+  if (hex.size() % 2 != 0) return std::nullopt;
+  std::string out(hex.size() / 2, '\0');
+  size_t len = 0;
+  if (sodium_hex2bin(reinterpret_cast<unsigned char*>(out.data()), out.size(), hex.data(), hex.size(), nullptr, &len,
+                     nullptr) != 0 ||
+      len != out.size())
+    return std::nullopt;
+  return out;
+}
+
+}  // namespace furrow

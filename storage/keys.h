@@ -3,6 +3,8 @@
 // own): Ed25519 signatures (crypto_sign_*), BLAKE2b hashes
 // (crypto_generichash). Keys travel as raw bytes in std::string.
 
+#include <cstdint>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -40,6 +42,14 @@ class Hasher {
  private:
   alignas(64) unsigned char state_[384];
 };
+
+// `n` bytes from the system's random source (randombytes_buf).
+std::string random_bytes(size_t n);
+// A uniformly random number below `upper` (randombytes_uniform).
+std::uint32_t random_below(std::uint32_t upper);
+// Lower-case hex of bytes, and back (nullopt when not hex).
+std::string to_hex(std::string_view bytes);
+std::optional<std::string> from_hex(std::string_view hex);
 
 // A short form of a public key for people to compare by eye: the first 8
 // bytes of its BLAKE2b hash as four groups of four hex digits.

@@ -7,6 +7,7 @@
 
 #include "app/cli/cli_analyze.h"
 #include "app/cli/cli_station.h"
+#include "app/cli/cli_sync.h"
 #include "app/cli/output_safety.h"
 #include "app/cli/cli_trial.h"
 #include "app/field/field_app.h"
@@ -95,6 +96,49 @@ int main(int argc, char** argv) {
     c->add_option("--by", enrol_who.by, "who does it (kept at the station)")->required();
     c->add_option("--label", enrol_who.label, "the device's name for people");
   }
+
+  auto* device_today = device->add_subcommand(
+      "today", "The day at the station: which devices synced today and when, which have not, what each brought");
+  std::string today_data, today_day;
+  bool today_json = false;
+  device_today->add_option("--data", today_data, "the station's data folder (default: this machine's)");
+  device_today->add_option("--day", today_day, "the day, YYYY-MM-DD in UTC (default today)");
+  device_today->add_flag("--json", today_json, "JSON instead of text");
+
+  // Sync over the local network, and backups.
+  furrow::ServeRequest serve_req;
+  auto* serve = app.add_subcommand("serve", "Serve this station's trials to its devices on the local network until stopped");
+  serve->add_option("--data", serve_req.data, "the data folder whose station trials are served (default: this machine's)");
+  serve->add_option("--listen", serve_req.listen, "the address to listen on (default 0.0.0.0: every network of this machine)");
+  serve->add_option("--port", serve_req.port, "the port (default 47110; 0: any free port)");
+  serve->add_option("--code", serve_req.code, "the pairing code (default: a new 6-digit code each start)");
+  serve->add_option("--backup-to", serve_req.backup_to, "keep verified backups of every trial here (a second disk, a USB drive)");
+  serve->add_option("--keep", serve_req.keep, "backups kept per trial (default 14)");
+  serve->add_option("--timeout", serve_req.timeout_s, "seconds a silent device is waited for (default 30)");
+  furrow::SyncCliRequest sync_req;
+  auto* pair = app.add_subcommand("pair", "Pair this device with a station (once; then furrow sync), and sync");
+  auto* sync = app.add_subcommand("sync", "Sync this device's trials with its station: send what it lacks, receive settlements");
+  for (auto* c : {pair, sync}) {
+    c->add_option("--data", sync_req.data, "this device's data folder (default: this machine's)");
+    c->add_option("--db", sync_req.dbs, "a trial file to sync (default: every device trial in the data folder)");
+    c->add_option("--station", sync_req.station, "the station's address, as it shows it (192.168.1.20 or 192.168.1.20:47110)");
+    c->add_flag("--others", sync_req.others, "also receive every other device's values");
+    c->add_option("--timeout", sync_req.timeout_s, "seconds a silent station is waited for (default 30)");
+  }
+  pair->add_option("--code", sync_req.code, "the pairing code the station shows")->required();
+  std::vector<std::string> backup_dbs;
+  std::string backup_data, backup_to, restore_from, restore_db;
+  int backup_keep = 14;
+  bool restore_replace = false;
+  auto* backup = app.add_subcommand("backup", "Take verified backups of trial files (the way to copy a trial that is in use)");
+  backup->add_option("--db", backup_dbs, "a trial file (default: every trial in the data folder)");
+  backup->add_option("--data", backup_data, "the data folder (default: this machine's)");
+  backup->add_option("--to", backup_to, "the backup folder")->required();
+  backup->add_option("--keep", backup_keep, "backups kept per trial (default 14; 0: all)");
+  auto* restore = app.add_subcommand("restore", "Restore a trial file from a checked backup");
+  restore->add_option("--from", restore_from, "the backup file")->required();
+  restore->add_option("--db", restore_db, "the trial file to restore")->required();
+  restore->add_flag("--replace", restore_replace, "replace an existing file (kept beside it first)");
 
   // Day's end: bundles, merging, conflicts.
   std::string station_db, bundle_out;
@@ -232,6 +276,12 @@ int main(int argc, char** argv) {
   if (device_enrol->parsed()) return furrow::run_device_enrol(device_station, device_db, enrol_who);
   if (device_renew->parsed()) return furrow::run_device_renew(device_station, device_db, enrol_who);
   if (trial_close->parsed()) return furrow::run_trial_close(trial_db);
+  if (device_today->parsed()) return furrow::run_device_today(today_data, today_day, today_json);
+  if (serve->parsed()) return furrow::run_serve(serve_req);
+  if (pair->parsed()) return furrow::run_pair(sync_req);
+  if (sync->parsed()) return furrow::run_sync(sync_req);
+  if (backup->parsed()) return furrow::run_backup(backup_dbs, backup_data, backup_to, backup_keep);
+  if (restore->parsed()) return furrow::run_restore(restore_from, restore_db, restore_replace);
   if (bundle->parsed()) return furrow::run_bundle(station_db, bundle_out, bundle_all);
   if (merge->parsed()) return furrow::run_merge(station_db, bundle_files);
   if (conflicts->parsed()) return furrow::run_conflicts(station_db, conflicts_json);

@@ -1,0 +1,239 @@
+#include "app/cli/cli_sync.h"
+
+#include <nlohmann/json.hpp>
+
+#include <csignal>
+#include <filesystem>
+#include <ctime>
+#include <iostream>
+#include <list>
+#include <memory>
+#include <thread>
+
+#include <unistd.h>
+
+#include "app/cli/output_safety.h"
+#include "app/work/sync.h"
+#include "platform/data_folder.h"
+#include "platform/net.h"
+#include "storage/backup.h"
+#include "storage/trial_store.h"
+
+namespace furrow {
+namespace {
+
+constexpr int kExitFailed = 2;
+
+int fail(const std::string& message) {
+  std::cerr << terminal_safe(message) << "\n";
+  return kExitFailed;
+}
+
+volatile std::sig_atomic_t g_stop = 0;
+void on_stop(int) { g_stop = 1; }
+
+Result<std::string> folder_or_default(const std::string& given) {
+  if (!given.empty()) return given;
+  return data_folder();
+}
+
+// A TCP stream as the channel's byte stream.
+class TcpBytes : public ByteStream {
+ public:
+  explicit TcpBytes(TcpStream s) : s_(std::move(s)) {}
+  Status write_all(std::string_view b) override { return s_.write_all(b); }
+  Result<std::string> read_exact(size_t n) override { return s_.read_exact(n); }
+  TcpStream& tcp() { return s_; }
+
+ private:
+  TcpStream s_;
+};
+
+std::string today_utc() {
+  const std::time_t now = std::time(nullptr);
+  std::tm utc{};
+  gmtime_r(&now, &utc);
+  char b[16];
+  std::strftime(b, sizeof b, "%Y-%m-%d", &utc);
+  return b;
+}
+
+int sync_with(const SyncCliRequest& r, bool pairing) {
+  auto folder = folder_or_default(r.data);
+  if (!folder) return fail(folder.problem().message);
+  auto saved = load_pairing(*folder);
+  if (!saved) return fail(saved.problem().message);
+  StationPairing where;
+  if (*saved) where = **saved;
+  if (!r.station.empty()) {
+    auto hp = parse_host_port(r.station, kDefaultSyncPort);
+    if (!hp) return fail(hp.problem().message);
+    where.host = hp->first;
+    where.port = hp->second;
+  }
+  if (where.host.empty())
+    return fail("this device has not paired with a station: furrow pair --station ADDRESS --code CODE (the station "
+                "shows both)");
+  if (pairing && r.code.empty()) return fail("give the pairing code the station shows: --code CODE");
+  SyncRequest request;
+  request.trial_paths = r.dbs.empty() ? device_trial_files(*folder) : r.dbs;
+  if (request.trial_paths.empty()) return fail(*folder + ": no device trial files to sync (furrow trial copy makes them)");
+  request.token = pairing ? std::string() : where.token;
+  request.code = r.code;
+  request.others = r.others;
+  auto tcp = TcpStream::connect(where.host, where.port, r.timeout_s * 1000);
+  if (!tcp) return fail(tcp.problem().message);
+  TcpBytes bytes(std::move(*tcp));
+  SyncProgress progress;
+  auto result = sync_as_device(bytes, request, &progress);
+  if (!result) {
+    const std::string& why = result.problem().message;
+    return fail("sync with " + where.host + ":" + std::to_string(where.port) + " stopped: " + why +
+                (why.find("refused") == std::string::npos ? "; what was merged before stays (sync again to go on)" : ""));
+  }
+  if (result->token != where.token || pairing) {
+    where.token = result->token;
+    where.paired_at = utc_now();
+    if (auto s = save_pairing(*folder, where); !s) return fail("cannot save the pairing: " + s.problem().message);
+    if (pairing) std::cout << "paired with the station at " << where.host << ":" << where.port << "\n";
+  }
+  int refused = 0;
+  for (const SyncTrialResult& t : result->trials) {
+    std::cout << terminal_safe(t.name) << ": ";
+    if (!t.accepted) {
+      ++refused;
+      std::cout << "refused: " << terminal_safe(t.refusal) << "\n";
+      continue;
+    }
+    std::cout << "sent " << t.sent << ", received " << t.received << " (" << t.settlements << " settlements)\n";
+  }
+  std::cout << "synced: " << result->summary() << "\n";
+  return refused ? kExitFailed : 0;
+}
+
+}  // namespace
+
+int run_serve(const ServeRequest& r) {
+  auto folder = folder_or_default(r.data);
+  if (!folder) return fail(folder.problem().message);
+  StationConfig config;
+  config.data_folder = *folder;
+  config.pairing_code = r.code;
+  config.backup_folder = r.backup_to;
+  config.keep_backups = r.keep;
+  if (!r.code.empty() && (r.code.size() < 6 || r.code.size() > 32))
+    return fail("a pairing code is 6 to 32 characters");
+  auto listener = TcpListener::listen(r.listen, r.port);
+  if (!listener) return fail(listener.problem().message);
+  SyncStation station(config);
+  struct sigaction sa {};
+  sa.sa_handler = on_stop;
+  sigaction(SIGINT, &sa, nullptr);
+  sigaction(SIGTERM, &sa, nullptr);
+  std::signal(SIGPIPE, SIG_IGN);
+  const std::string addresses = local_addresses();
+  std::cout << "Furrow station serving the trials in " << terminal_safe(*folder) << "\n"
+            << "  address: " << (r.listen == "0.0.0.0" ? (addresses.empty() ? std::string("this machine") : addresses) : r.listen)
+            << " port " << listener->port() << "\n"
+            << "  pairing code: " << station.pairing_code() << "\n"
+            << (r.backup_to.empty() ? "  no backups (give --backup-to FOLDER, e.g. a second disk)\n"
+                                    : "  backups to " + r.backup_to + " after each sync and daily\n")
+            << "  stop with Ctrl+C" << std::endl;
+  station.backups_due();
+  std::list<std::thread> workers;
+  std::time_t last_daily_check = std::time(nullptr);
+  while (!g_stop) {
+    auto conn = listener->accept(250);
+    if (!conn) {
+      std::cerr << terminal_safe(conn.problem().message) << "\n";
+      continue;
+    }
+    if (conn->is_open()) {
+      conn->set_timeout(r.timeout_s * 1000);
+      auto stream = std::make_shared<TcpBytes>(std::move(*conn));
+      workers.emplace_back([&station, stream]() { station.serve(*stream, stream->tcp().peer()); });
+    }
+    if (std::time(nullptr) - last_daily_check > 60) {
+      last_daily_check = std::time(nullptr);
+      station.backups_due();
+    }
+    // Finished sessions' threads are joined as they end (at most a few run at once).
+    if (workers.size() > 64) {
+      for (auto& w : workers) w.join();
+      workers.clear();
+    }
+  }
+  std::cout << "stopping: finishing " << station.active() << " session(s)" << std::endl;
+  for (auto& w : workers) w.join();
+  std::cout << "stopped" << std::endl;
+  return 0;
+}
+
+int run_pair(const SyncCliRequest& r) {
+  if (r.station.empty()) return fail("give the station's address: --station ADDRESS (the station shows it)");
+  return sync_with(r, true);
+}
+
+int run_sync(const SyncCliRequest& r) { return sync_with(r, false); }
+
+int run_device_today(const std::string& data, const std::string& day_given, bool json) {
+  auto folder = folder_or_default(data);
+  if (!folder) return fail(folder.problem().message);
+  const std::string day = day_given.empty() ? today_utc() : day_given;
+  auto days = station_day(*folder, day);
+  if (!days) return fail(days.problem().message);
+  if (json) {
+    nlohmann::json out = nlohmann::json::array();
+    for (const DeviceDay& d : *days)
+      out.push_back({{"trial", d.trial_name}, {"trial_uid", d.trial_uid}, {"device_id", d.device_id}, {"label", d.label},
+                     {"revoked", d.revoked}, {"last_sync", d.last_sync}, {"synced_today", d.synced_today},
+                     {"rows_today", d.rows_today}, {"rows_in_log", d.rows_in_log}});
+    std::cout << out.dump(2) << "\n";
+    return 0;
+  }
+  std::string trial;
+  for (const DeviceDay& d : *days) {
+    if (d.trial_name != trial) {
+      trial = d.trial_name;
+      std::cout << terminal_safe(trial) << " (" << day << ", UTC):\n";
+    }
+    std::cout << "  " << (d.synced_today ? "synced     " : "NOT SYNCED ") << terminal_safe(d.label) << " (" << d.device_id
+              << ")" << (d.revoked ? ", revoked" : "");
+    if (!d.last_sync.empty()) std::cout << ", last sync " << d.last_sync;
+    std::cout << ", brought " << d.rows_today << " values today, " << d.rows_in_log << " in the log\n";
+  }
+  if (days->empty()) std::cout << "no devices enrolled in the trials of " << terminal_safe(*folder) << "\n";
+  return 0;
+}
+
+int run_backup(const std::vector<std::string>& dbs, const std::string& data, const std::string& to, int keep) {
+  std::vector<std::string> paths = dbs;
+  if (paths.empty()) {
+    auto folder = folder_or_default(data);
+    if (!folder) return fail(folder.problem().message);
+    std::error_code ec;
+    for (const auto& e : std::filesystem::directory_iterator(*folder, ec))
+      if (e.path().extension() == ".furrow") paths.push_back(e.path().string());
+    if (paths.empty()) return fail(*folder + ": no trial files to back up");
+  }
+  int failed = 0;
+  for (const std::string& p : paths) {
+    auto b = backup_trial(p, to, keep);
+    if (!b) {
+      ++failed;
+      std::cerr << terminal_safe(b.problem().message) << "\n";
+      continue;
+    }
+    std::cout << "backed up " << terminal_safe(p) << " to " << terminal_safe(b->path) << ": " << b->log_rows
+              << " rows, integrity checked\n";
+  }
+  return failed ? kExitFailed : 0;
+}
+
+int run_restore(const std::string& from, const std::string& db, bool replace) {
+  if (auto s = restore_trial(from, db, replace); !s) return fail(s.problem().message);
+  std::cout << "restored " << terminal_safe(db) << " from " << terminal_safe(from) << " (integrity checked)\n";
+  return 0;
+}
+
+}  // namespace furrow
