@@ -109,24 +109,26 @@ std::map<std::string, std::string> manifest_fields(const BundleManifest& m) {
 
 // Every device's contiguous prefix of sequence numbers held in `db`.
 Result<std::map<std::string, std::int64_t>> holdings(Database& db) {
-  auto s = db.prepare("SELECT device_id, sequence FROM observation ORDER BY device_id, sequence");
+  // Per device: rows 1..n are all held when the largest sequence is the
+  // count (the usual case, read from the key's index); else the prefix is
+  // found by walking that device's sequences.
+  auto s = db.prepare("SELECT device_id, max(sequence), count(*) FROM observation GROUP BY device_id");
   if (!s) return s.problem();
   std::map<std::string, std::int64_t> out;
-  std::string device;
-  std::int64_t next = 1;
-  bool broken = false;
+  std::vector<std::string> gapped;
   while (s->step()) {
-    if (s->text(0) != device) {
-      device = s->text(0);
-      next = 1;
-      broken = false;
-    }
-    if (!broken && s->integer(1) == next) {
-      out[device] = next;
-      ++next;
-    } else {
-      broken = true;
-    }
+    if (s->integer(1) == s->integer(2)) out[s->text(0)] = s->integer(1);
+    else gapped.push_back(s->text(0));
+  }
+  if (s->failed()) return make_problem(s->error());
+  auto walk = db.prepare("SELECT sequence FROM observation WHERE device_id = ? ORDER BY sequence");
+  if (!walk) return walk.problem();
+  for (const std::string& device : gapped) {
+    walk->reset();
+    walk->bind(1, device);
+    std::int64_t next = 1;
+    while (walk->step() && walk->integer(0) == next) ++next;
+    if (next > 1) out[device] = next - 1;
   }
   return out;
 }
@@ -507,11 +509,18 @@ Result<std::pair<BundleManifest, std::string>> bundle_for_sync(Database& db, con
       FURROW_TRY(ins->run());
     }
   }
-  std::string anchor = "SELECT o.device_id, o.sequence FROM observation o WHERE NOT EXISTS (SELECT 1 FROM "
-                       "temp.sync_holds h WHERE h.device_id = o.device_id AND h.n >= o.sequence)";
   // Device ids are checked hex (is_device_id) wherever they enter a file.
-  if (sel.makers_rows_only) anchor += " AND o.device_id = '" + trial.device_id + "'";
-  anchor += " ORDER BY o.device_id, o.sequence";
+  std::string anchor;
+  if (sel.makers_rows_only) {
+    // The maker's own rows after those the receiver holds: a range of the key.
+    const auto held = sel.receiver_holds.find(trial.device_id);
+    anchor = "SELECT o.device_id, o.sequence FROM observation o WHERE o.device_id = '" + trial.device_id +
+             "' AND o.sequence > " + std::to_string(held == sel.receiver_holds.end() ? 0 : held->second) +
+             " ORDER BY o.sequence";
+  } else {
+    anchor = "SELECT o.device_id, o.sequence FROM observation o WHERE NOT EXISTS (SELECT 1 FROM "
+             "temp.sync_holds h WHERE h.device_id = o.device_id AND h.n >= o.sequence) ORDER BY o.device_id, o.sequence";
+  }
   if (sel.max_rows > 0) anchor += " LIMIT " + std::to_string(sel.max_rows);
   return build_bundle(db, trial, anchor, "the sync bundle");
 }

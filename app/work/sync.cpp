@@ -378,7 +378,20 @@ void SyncStation::serve(ByteStream& stream, const std::string& peer) {
         failure = bytes.problem().message;
         break;
       }
-      auto merged = merge_bytes(s.open.db, s.open.trial, *bytes, spool);
+      // One merge at a time per trial in this station: writers queue here
+      // instead of polling SQLite's lock.
+      std::mutex* trial_lock = nullptr;
+      {
+        std::lock_guard<std::mutex> lock(merge_locks_mutex_);
+        auto& slot = merge_locks_[it->first];
+        if (!slot) slot = std::make_unique<std::mutex>();
+        trial_lock = slot.get();
+      }
+      Result<MergeOutcome> merged = make_problem("not merged");
+      {
+        std::lock_guard<std::mutex> lock(*trial_lock);
+        merged = merge_bytes(s.open.db, s.open.trial, *bytes, spool);
+      }
       if (merged && merged->manifest.maker_device_id != s.device_id)
         merged = make_problem("a bundle made by another device than the one that proved itself");
       if (!merged) {
@@ -387,9 +400,13 @@ void SyncStation::serve(ByteStream& stream, const std::string& peer) {
         break;
       }
       s.received += merged->observations_added;
-      auto held = held_without_gap(s.open.db);
-      send_json(ch, {{"type", "merged"}, {"added", merged->observations_added},
-                     {"holds", held ? holds_json(*held) : json::object()}});
+      // What the station now holds of this device (its rows are kept with no gap, R5).
+      json holds = json::object();
+      if (auto q = s.open.db.prepare("SELECT max(sequence), count(*) FROM observation WHERE device_id = ?")) {
+        q->bind(1, s.device_id);
+        if (q->step() && q->integer(0) == q->integer(1)) holds[s.device_id] = q->integer(0);
+      }
+      send_json(ch, {{"type", "merged"}, {"added", merged->observations_added}, {"holds", holds}});
     } else if (type == "want") {
       BundleSelection sel;
       sel.receiver_holds = holds_of(j.value("holds", json::object()));
@@ -632,8 +649,8 @@ Result<SyncResult> sync_as_device(ByteStream& stream, const SyncRequest& request
         const auto after = now_holds.count(l.open.trial.device_id) ? now_holds[l.open.trial.device_id] : 0;
         r.sent += added;
         if (progress) progress->done += std::max<std::int64_t>(0, after - before);
-        holds = now_holds;
-        FURROW_TRY(learn_station_holdings(l.open.db, holds));
+        for (const auto& [dev, n] : now_holds) holds[dev] = std::max(holds[dev], n);
+        FURROW_TRY(learn_station_holdings(l.open.db, now_holds));
         if (after <= before) return make_problem("the station merged nothing of a bundle of '" + r.name + "'; stopped");
       }
       // Down: what the station has for this device.

@@ -37,6 +37,7 @@
 #include <atomic>
 #include <cstdint>
 #include <map>
+#include <memory>
 #include <mutex>
 #include <optional>
 #include <string>
@@ -89,7 +90,8 @@ class SyncStation {
   bool check_token(const std::string& token);
   std::string pair_new(const std::string& peer);
   StationConfig config_;
-  std::mutex log_mutex_, pairing_mutex_, backup_mutex_;
+  std::mutex log_mutex_, pairing_mutex_, backup_mutex_, merge_locks_mutex_;
+  std::map<std::string, std::unique_ptr<std::mutex>> merge_locks_;   // trial uid -> one merge at a time
   int wrong_codes_ = 0;
   std::atomic<int> active_{0};
   std::map<std::string, std::string> last_backup_day_;   // trial path -> YYYY-MM-DD
