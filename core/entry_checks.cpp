@@ -116,6 +116,17 @@ Result<ParsedValue> parse_trait_value(const Trait& trait, const std::string& raw
     out.text = number_text(v);
   } else {
     if (trait.kind == TraitKind::percent && (v < 0 || v > 100)) return make_problem("a percent lies between 0 and 100");
+    // One way to write a number: no exponent, no plus sign, a digit on each
+    // side of the point ("+96" is 96, ".5" is 0.5, "96." is 96).
+    if (text.find_first_of("eE") != std::string::npos)
+      return make_problem("'" + text + "': write the number without an exponent, as on the tape or scale");
+    std::string t = text;
+    if (t.front() == '+') t.erase(0, 1);
+    const bool negative = !t.empty() && t.front() == '-';
+    if (negative) t.erase(0, 1);
+    if (!t.empty() && t.front() == '.') t.insert(0, "0");
+    if (!t.empty() && t.back() == '.') t.pop_back();
+    out.text = (negative ? "-" : "") + t;
     if (decimals > trait.decimals)
       return make_problem(trait.name + " is recorded to " + std::to_string(trait.decimals) +
                           (trait.decimals == 1 ? " decimal" : " decimals") + "; '" + text + "' has " +

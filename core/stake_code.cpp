@@ -33,7 +33,15 @@ std::optional<std::string> unescaped(const std::string& s) {
 }  // namespace
 
 std::string stake_code_text(const StakeCode& code) {
-  return std::string(kTag) + "|" + code.trial_uid + "|" + escaped(code.trial_name) + "|" + escaped(code.plot_label);
+  // The name serves messages only (the uid identifies): its first
+  // kStakeNameBytes bytes, whole UTF-8 characters, keep the code small.
+  std::string name = code.trial_name;
+  if (name.size() > kStakeNameBytes) {
+    size_t cut = kStakeNameBytes;
+    while (cut > 0 && (static_cast<unsigned char>(name[cut]) & 0xC0) == 0x80) --cut;
+    name.resize(cut);
+  }
+  return std::string(kTag) + "|" + code.trial_uid + "|" + escaped(name) + "|" + escaped(code.plot_label);
 }
 
 std::optional<StakeCode> read_stake_code(const std::string& text) {
@@ -55,6 +63,15 @@ std::optional<StakeCode> read_stake_code(const std::string& text) {
   auto label = unescaped(fields[3]);
   if (!name || !label || label->empty()) return std::nullopt;
   return StakeCode{fields[1], *name, *label};
+}
+
+std::string stake_of_other_trial(const StakeCode& code, const std::string& this_trial_name) {
+  if (this_trial_name.compare(0, code.trial_name.size(), code.trial_name) == 0)
+    return "this stake belongs to another trial named '" + code.trial_name + "' (plot " + code.plot_label +
+           "; identity " + code.trial_uid.substr(0, 8) +
+           "...), not to this one: a trial made again from the same plan has new stakes";
+  return "this stake belongs to the trial '" + code.trial_name + "' (plot " + code.plot_label + "), not to '" +
+         this_trial_name + "'";
 }
 
 }  // namespace furrow

@@ -641,6 +641,9 @@ Status check_rows(const std::vector<Row>& rows, const std::vector<Link>& links, 
         return make_problem(where + ": the reason for no value is empty or too long");
     }
     if (r.note.size() > kMaxNoteBytes) return make_problem(where + ": the note is longer than 2,000 bytes");
+    if (has_control_character(r.note, true) || has_control_character(r.observer) ||
+        has_control_character(r.missing_reason.value_or("")) || has_control_character(r.value.value_or("")))
+      return make_problem(where + ": its text holds a control character");
     if (r.observer.empty() || r.observer.size() > kMaxNameBytes)
       return make_problem(where + ": the observer's name is empty or longer than 200 bytes");
     if (!is_utc_time(r.recorded_at)) return make_problem(where + ": the time '" + r.recorded_at + "' is not a UTC time");

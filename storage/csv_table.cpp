@@ -1,5 +1,6 @@
 #include "storage/csv_table.h"
 
+#include <filesystem>
 #include <fstream>
 #include <set>
 #include <sstream>
@@ -137,6 +138,8 @@ CsvRead parse_csv_text(const std::string& input) {
 
 namespace {
 Result<std::string> read_whole(const std::string& path) {
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec)) return make_problem("this is a folder, not a file");
   std::ifstream in(path, std::ios::binary);
   if (!in) return make_problem("cannot open the file");
   in.seekg(0, std::ios::end);
@@ -160,6 +163,8 @@ CsvRecords read_csv_records(const std::string& path) {
 }
 
 CsvRead read_csv_file(const std::string& path) {
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec)) return fail("this is a folder, not a file", 0);
   std::ifstream in(path, std::ios::binary);
   if (!in) return fail("cannot open the file", 0);
   in.seekg(0, std::ios::end);

@@ -75,6 +75,18 @@ std::string csv_field(const std::string& raw) {
   return q + "\"";
 }
 
+namespace {
+// The field sheet's own columns (app/work/sheet_entry.h), compared without case.
+constexpr const char* kSheetColumnWords = "plot, label, site, block, field_row, field_column, row, col, column, note";
+bool is_sheet_column_name(const std::string& name) {
+  std::string l;
+  for (char c : name) l += static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  for (const char* w : {"plot", "label", "site", "block", "field_row", "field_column", "row", "col", "column", "note"})
+    if (l == w) return true;
+  return false;
+}
+}  // namespace
+
 Result<PlanFile> read_plan_file(const std::string& path) { return plan_from_records(read_csv_records(path)); }
 
 Result<PlanFile> parse_plan_text(const std::string& text) { return plan_from_records(parse_csv_records(text)); }
@@ -90,10 +102,17 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
   std::set<std::string> settings_seen;
   bool have_design = false;
   std::vector<CsvRecord> plot_rows;
+  std::map<std::string, int> trait_line;   // trait code -> its line
   for (size_t i = 1; i < rec.rows.size(); ++i) {
     const CsvRecord& r = rec.rows[i];
     std::vector<std::string> f;
     for (const auto& x : r.fields) f.push_back(trim(x));
+    // Names and labels are printed on stakes and sheets and typed back:
+    // no control characters (a tab or an escape cannot be written on paper).
+    for (size_t k = 0; k < f.size(); ++k)
+      if (std::any_of(f[k].begin(), f[k].end(), [](char c) { return static_cast<unsigned char>(c) < 0x20 || c == 0x7F; }))
+        return at(r.line, "", "field " + std::to_string(k + 1) + " holds a control character (a tab, line break or "
+                                                                 "escape); names and labels are plain text");
     const std::string& kind = f[0];
     if (kind == "setting") {
       if (f.size() != 3) return at(r.line, "setting", "a setting line has exactly a key and a value");
@@ -153,6 +172,9 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
       if (f.size() < 4) return at(r.line, "factor", "a factor line has a name and at least two levels");
       TreatmentFactor tf{f[1], {f.begin() + 2, f.end()}};
       if (tf.name.empty()) return at(r.line, "factor", "the factor has no name");
+      if (is_sheet_column_name(tf.name))
+        return at(r.line, tf.name, "'" + tf.name + "' names a column of the field sheet (" + kSheetColumnWords +
+                                       "); give the factor another name");
       std::set<std::string> seen;
       for (const auto& l : tf.levels)
         if (l.empty() || !seen.insert(l).second)
@@ -169,6 +191,10 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
       if (t.code.empty() || t.code.find_first_of(" ,") != std::string::npos)
         return at(r.line, "code", "a trait code is a short word without spaces or commas");
       if (t.name.empty()) return at(r.line, "name", "trait '" + t.code + "' has no name");
+      if (is_sheet_column_name(t.code))
+        return at(r.line, "code", "'" + t.code + "' names a column of the field sheet (" + kSheetColumnWords +
+                                      "); give the trait another code");
+      trait_line[t.code] = r.line;
       for (const auto& other : p.traits)
         if (other.code == t.code) return at(r.line, "code", "trait code '" + t.code + "' is given twice");
       const auto k = parse_trait_kind(f[4]);
@@ -216,6 +242,19 @@ Result<PlanFile> plan_from_records(const CsvRecords& rec) {
     }
   }
   const int last_line = rec.rows.back().line;
+  // Sheet columns are codes, and CODE_N for occasion N of a repeated trait:
+  // no two may read alike, and no factor may be called as a trait.
+  for (const Trait& t : p.traits) {
+    for (const TreatmentFactor& f : p.factors)
+      if (f.name == t.code)
+        return at(trait_line[t.code], "code", "trait code '" + t.code + "' is also a treatment factor's name");
+    if (t.occasions > 1)
+      for (int n = 1; n <= t.occasions; ++n)
+        if (trait_line.count(t.code + "_" + std::to_string(n)))
+          return at(trait_line[t.code + "_" + std::to_string(n)], "code",
+                    "trait code '" + t.code + "_" + std::to_string(n) + "' reads like occasion " + std::to_string(n) +
+                        " of trait '" + t.code + "' on the field sheet; give it another code");
+  }
   if (!have_design) return at(last_line, "design", "the plan has no 'setting,design,...' line");
   if (p.name.empty()) return at(last_line, "name", "the plan has no 'setting,name,...' line");
   if (p.factors.empty()) return at(last_line, "factor", "the plan has no treatment factor");

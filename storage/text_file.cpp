@@ -5,7 +5,20 @@
 
 namespace furrow {
 
+Status check_output_file(const std::string& path) {
+  namespace fs = std::filesystem;
+  std::error_code ec;
+  const fs::file_status st = fs::symlink_status(path, ec);
+  if (fs::is_directory(st)) return make_problem(path + " is a folder; give a file name");
+  if (fs::is_symlink(st)) return make_problem(path + " is a link; give the file itself");
+  if (fs::exists(st) && !fs::is_regular_file(st)) return make_problem(path + " is not a plain file (a device?)");
+  const fs::path folder = fs::absolute(path, ec).parent_path();
+  if (!fs::is_directory(folder, ec)) return make_problem("the folder " + folder.string() + " does not exist");
+  return ok_status();
+}
+
 Status write_text_file(const std::string& path, const std::string& text) {
+  if (auto ok = check_output_file(path); !ok) return ok;
   const std::string part = path + ".part";
   {
     std::ofstream f(part, std::ios::binary | std::ios::trunc);

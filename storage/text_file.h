@@ -10,4 +10,9 @@ namespace furrow {
 
 Status write_text_file(const std::string& path, const std::string& text);
 
+// Whether `path` can be written as a new or replaced plain file: its folder
+// exists, and it is not a folder, a link or a device (replacing those would
+// not do what was meant). Checked before anything is written.
+Status check_output_file(const std::string& path);
+
 }  // namespace furrow

@@ -616,6 +616,9 @@ Result<ObservationKey> ObservationWriter::append(const std::string& device_id, c
     return make_problem("the reason for no value must be 1 to " + std::to_string(kMaxReasonBytes) + " bytes long (it is " +
                         std::to_string(o.missing_reason->size()) + "); nothing was saved");
   if (o.confirmed_checks.size() > kMaxNameBytes) return make_problem("too many confirmed checks; nothing was saved");
+  if (has_control_character(o.observer) || has_control_character(o.note, true) ||
+      has_control_character(o.missing_reason.value_or("")) || has_control_character(o.value.value_or("")))
+    return make_problem("the text holds a control character (an escape, a bell, a NUL); nothing was saved");
   ObservationKey key{device_id, 0};
   auto status = in_transaction(db_, [&]() -> Status {
     FURROW_TRY(prepare(next_sequence_, "SELECT coalesce(max(sequence), 0) + 1 FROM observation WHERE device_id = ?"));
@@ -765,6 +768,15 @@ bool has_check(const std::string& checks, const std::string& key) {
 }  // namespace furrow
 
 namespace furrow {
+bool has_control_character(const std::string& text, bool line_breaks_allowed) {
+  for (char ch : text) {
+    const unsigned char c = static_cast<unsigned char>(ch);
+    if (line_breaks_allowed && (c == '\n' || c == '\t' || c == '\r')) continue;
+    if (c < 0x20 || c == 0x7F) return true;
+  }
+  return false;
+}
+
 std::string value_identity(const LiveObservation& row) {
   if (row.number) {
     char buf[40];

@@ -78,6 +78,9 @@ struct ObservationKey {
 // Entry, settlement and merge apply the same limits, so that no row a device
 // saves is one its station refuses.
 inline constexpr size_t kMaxNoteBytes = 2000, kMaxNameBytes = 200, kMaxReasonBytes = 200;
+// Whether text holds a control character (a NUL, an escape, a bell...);
+// notes may hold line breaks and tabs.
+bool has_control_character(const std::string& text, bool line_breaks_allowed = false);
 
 struct NewObservation {
   std::int64_t plot_id = 0, trait_id = 0;

@@ -91,7 +91,7 @@ int sync_with(const SyncCliRequest& r, bool pairing) {
     return fail("sync with " + where.host + ":" + std::to_string(where.port) + " stopped: " + why +
                 (why.find("refused") == std::string::npos ? "; what was merged before stays (sync again to go on)" : ""));
   }
-  if (result->token != where.token || pairing) {
+  if (!result->token.empty() && (result->token != where.token || pairing)) {
     where.token = result->token;
     where.paired_at = utc_now();
     if (auto s = save_pairing(*folder, where); !s) return fail("cannot save the pairing: " + s.problem().message);

@@ -8,6 +8,8 @@
 #include <map>
 #include <set>
 
+#include <fcntl.h>
+#include <sys/file.h>
 #include <unistd.h>
 
 #include "app/cli/analysis_output.h"
@@ -103,13 +105,20 @@ SheetAnswer ask_on_terminal(const SheetQuestion& q) {
   std::cerr << terminal_safe("line " + std::to_string(q.line) + ", plot " + q.plot + ", " + q.column + " = " + q.text +
                              ": " + choices)
             << std::flush;
-  std::string answer;
-  const bool got = static_cast<bool>(std::getline(std::cin, answer));
-  if (!::isatty(STDIN_FILENO)) std::cerr << "\n";   // the answer was not echoed
-  if (!got) return SheetAnswer::leave;
-  while (!answer.empty() && std::isspace(static_cast<unsigned char>(answer.back()))) answer.pop_back();
-  if (q.can_confirm && (answer == "c" || answer == "C")) return SheetAnswer::save_as_written;
-  if (!q.suggestion.empty() && (answer == "s" || answer == "S")) return SheetAnswer::save_suggestion;
+  // An answer not understood is asked again (three times, then left unsaved).
+  for (int tries = 0; tries < 3; ++tries) {
+    std::string answer;
+    const bool got = static_cast<bool>(std::getline(std::cin, answer));
+    if (!::isatty(STDIN_FILENO)) std::cerr << "\n";   // the answer was not echoed
+    if (!got) return SheetAnswer::leave;
+    while (!answer.empty() && std::isspace(static_cast<unsigned char>(answer.back()))) answer.pop_back();
+    while (!answer.empty() && std::isspace(static_cast<unsigned char>(answer.front()))) answer.erase(0, 1);
+    if (answer.empty()) return SheetAnswer::leave;
+    if (q.can_confirm && (answer == "c" || answer == "C")) return SheetAnswer::save_as_written;
+    if (!q.suggestion.empty() && (answer == "s" || answer == "S")) return SheetAnswer::save_suggestion;
+    std::cerr << "answer " << (q.can_confirm ? "c, " : "") << (q.suggestion.empty() ? "" : "s, ")
+              << "or Enter to leave it unsaved: " << std::flush;
+  }
   return SheetAnswer::leave;
 }
 
@@ -124,6 +133,19 @@ int run_record_sheet(const RecordRequest& r) {
     options.confirm.insert({std::stoi(line), colon == std::string::npos ? std::string("*") : c.substr(colon + 1)});
   }
   if (r.ask || ::isatty(STDIN_FILENO)) options.ask = ask_on_terminal;
+  // One sheet at a time into a trial file: two entries at once would each
+  // find the other's values missing (an advisory lock beside SQLite's own).
+  const int lock_fd = ::open(r.db.c_str(), O_RDONLY | O_CLOEXEC);
+  if (lock_fd >= 0 && ::flock(lock_fd, LOCK_EX | LOCK_NB) != 0) {
+    ::close(lock_fd);
+    return fail(r.db, "another sheet is being entered into this trial file now; enter this one when it is done");
+  }
+  struct Unlock {
+    int fd;
+    ~Unlock() {
+      if (fd >= 0) ::close(fd);
+    }
+  } unlock{lock_fd};
   auto session = RecordSession::open(r.db, r.observer);
   if (!session) return fail(r.db, session.problem().message);
   auto result = enter_sheet(*session, r.from_sheet, options);
@@ -223,9 +245,8 @@ int run_labels(const std::string& db_path, const std::string& out, const std::st
   if (auto w = write_stake_labels(open->trial, *sheet, blind, out); !w) return fail(out, w.problem().message);
   const size_t n = open->trial.layout.plots.size();
   const size_t per_page = static_cast<size_t>(sheet->columns * sheet->rows);
-  const std::string sample = stake_code_text({open->trial.uid, open->trial.plan.name, open->trial.layout.plots[0].label});
   char module[32];
-  std::snprintf(module, sizeof module, "%.2f", qr_module_mm(*sheet, sample));
+  std::snprintf(module, sizeof module, "%.2f", qr_module_mm(*sheet, open->trial));
   std::cout << "labels " << out << ": " << n << " plots in walk order on " << (n + per_page - 1) / per_page
             << " page(s), " << sheet->title << "; QR modules " << module
             << " mm (error correction M); print at 100 % (no fit to page)\n";
@@ -245,7 +266,9 @@ int run_sheets(const SheetsRequest& r) {
   if (r.traits.empty()) {
     for (size_t k = 0; k < t.plan.traits.size(); ++k) request.traits.push_back(k);
   } else {
-    for (const std::string& code : r.traits) {
+    for (std::string code : r.traits) {
+      while (!code.empty() && std::isspace(static_cast<unsigned char>(code.back()))) code.pop_back();
+      while (!code.empty() && std::isspace(static_cast<unsigned char>(code.front()))) code.erase(0, 1);
       size_t k = 0;
       if (!find_trait(t, code, &k)) return fail(r.db, "trait '" + code + "' is not measured in this trial");
       if (std::find(request.traits.begin(), request.traits.end(), k) != request.traits.end())
@@ -253,6 +276,9 @@ int run_sheets(const SheetsRequest& r) {
       request.traits.push_back(k);
     }
   }
+  for (const std::string& out : {r.out, r.csv_out})   // both checked before either is written
+    if (!out.empty())
+      if (auto ok = check_output_file(out); !ok) return fail(out, ok.problem().message);
   auto layout = write_field_sheet(t, *paper, request, r.out);
   if (!layout) return fail(r.out, layout.problem().message);
   std::vector<std::string> columns;

@@ -17,6 +17,7 @@ constexpr double kHeadHeight = 17.0;    // the table head: code, name, unit and 
 constexpr double kTopBlock = 18.0;      // trial, site and season, date and observer blanks
 constexpr double kFoot = 10.5;          // how to write "no value", and the field cautions
 constexpr double kMinValueBox = 18.0;   // narrowest box for a handwritten value
+constexpr double kRoomyValueBox = 26.0; // portrait is chosen only with boxes this wide
 constexpr double kTextSize = 3.2;       // body text, mm (about 9 pt)
 
 std::string number(double x) {
@@ -88,7 +89,10 @@ Result<FieldSheetLayout> field_sheet_layout(const StoredTrial& t, const SheetPap
   // The fixed columns, then the value boxes and the note sharing what is left.
   using Holds = FieldSheetLayout::Column::Holds;
   std::vector<FieldSheetLayout::Column> fixed;
-  fixed.push_back({Holds::plot, 0, "plot", "", 0, 20, false});
+  // The plot column fits the longest label whole (bold, about 2.7 mm a character).
+  size_t longest_label = 4;
+  for (const PlannedPlot& p : t.layout.plots) longest_label = std::max(longest_label, p.label.size());
+  fixed.push_back({Holds::plot, 0, "plot", "", 0, std::clamp(4.0 + 2.7 * static_cast<double>(longest_label), 20.0, 70.0), false});
   if (!t.plan.sites.empty()) {
     size_t longest = 4;
     for (const std::string& s : t.plan.sites) longest = std::max(longest, s.size());
@@ -110,7 +114,8 @@ Result<FieldSheetLayout> field_sheet_layout(const StoredTrial& t, const SheetPap
   for (bool landscape : {false, true}) {
     const double w = landscape ? paper.height_mm : paper.width_mm;
     const double box = (w - 2 * kMargin - fixed_width) / boxes;
-    if (box >= kMinValueBox) {
+    // Portrait only while its boxes stay roomy; landscape down to the narrowest.
+    if (box >= (landscape ? kMinValueBox : kRoomyValueBox)) {
       L.landscape = landscape;
       L.page_width_mm = w;
       L.page_height_mm = landscape ? paper.width_mm : paper.height_mm;
@@ -217,7 +222,12 @@ Result<FieldSheetLayout> write_field_sheet(const StoredTrial& t, const SheetPape
           case FieldSheetLayout::Column::Holds::note: continue;   // left empty for the crew
         }
         const bool plot = c.holds == FieldSheetLayout::Column::Holds::plot;
-        pdf.text(text, c.x_mm + 1.2, base, plot ? 4.2 : kTextSize, c.width_mm - 2.4, plot);
+        double size = plot ? 4.2 : kTextSize;
+        // The plot label is never cut: smaller type first, refused if even that is too wide.
+        while (plot && size > 2.2 && pdf.text_width(text, size, true) > c.width_mm - 2.4) size = std::max(2.2, size * 0.92);
+        if (plot && pdf.text_width(text, size, true) > c.width_mm - 2.4)
+          return pdf.finish("plot label '" + text + "' is too long to print whole on the sheet").problem();
+        pdf.text(text, c.x_mm + 1.2, base, size, c.width_mm - 2.4, plot);
       }
       // A heavier rule where a new block (or site) starts: the crew keeps its place.
       const bool new_block = i > first && (plots[static_cast<size_t>(i - 1)].block != p.block ||

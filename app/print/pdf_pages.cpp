@@ -5,10 +5,16 @@
 
 #include <filesystem>
 
+#include "storage/text_file.h"
+
 namespace furrow {
 
 PdfPages::PdfPages(const std::string& out_path, double width_mm, double height_mm, const std::string& title)
     : out_(out_path), part_(out_path + ".part") {
+  if (auto ok = check_output_file(out_path); !ok) {
+    refused_ = ok.problem().message;
+    part_ = "/dev/null";   // nothing of ours is written
+  }
   surface_ = cairo_pdf_surface_create(part_.c_str(), width_mm * kPointsPerMm, height_mm * kPointsPerMm);
   if (cairo_surface_status(surface_) != CAIRO_STATUS_SUCCESS) return;
   cairo_pdf_surface_set_metadata(surface_, CAIRO_PDF_METADATA_TITLE, title.c_str());
@@ -20,6 +26,7 @@ PdfPages::~PdfPages() {
 }
 
 Status PdfPages::status() const {
+  if (!refused_.empty()) return make_problem(refused_);
   if (cairo_surface_status(surface_) != CAIRO_STATUS_SUCCESS)
     return make_problem("cannot write " + out_ + " (" + cairo_status_to_string(cairo_surface_status(surface_)) + ")");
   return ok_status();
@@ -38,6 +45,7 @@ Status PdfPages::finish(const std::string& failure) {
   const cairo_status_t status = cairo_surface_status(surface_);
   cairo_surface_destroy(surface_);
   std::error_code ec;
+  if (!refused_.empty()) return make_problem(refused_);
   if (!failure.empty() || status != CAIRO_STATUS_SUCCESS) {
     std::filesystem::remove(part_, ec);
     return make_problem(out_ + ": " + (failure.empty() ? std::string(cairo_status_to_string(status)) : failure) +

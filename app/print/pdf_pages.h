@@ -43,6 +43,7 @@ class PdfPages {
   cairo_surface_t* surface_ = nullptr;
   cairo_t* cr_ = nullptr;
   bool finished_ = false;
+  std::string refused_;   // the output path cannot be written: why
 };
 
 }  // namespace furrow

@@ -13,7 +13,9 @@
 namespace furrow {
 namespace {
 
-constexpr int kQuietModules = 4;   // the light margin a QR code needs on each side (ISO/IEC 18004)
+constexpr int kQuietModules = 4;
+constexpr double kMinModuleMm = 0.30;    // the smallest module the tests read back at 300 dpi (0.31 mm)
+constexpr double kMinLabelTypeMm = 1.6;  // about 4.5 pt: the smallest plot label still read by eye   // the light margin a QR code needs on each side (ISO/IEC 18004)
 
 struct QrDeleter {
   void operator()(QRcode* q) const { QRcode_free(q); }
@@ -24,9 +26,16 @@ Qr encode(const std::string& text) {
   return Qr(QRcode_encodeString8bit(text.c_str(), 0, QR_ECLEVEL_M));
 }
 
-// The QR code's side on a label: the label's height less a margin, at most
-// half its width.
-double qr_side_mm(const LabelSheet& s) { return std::min(s.label_height_mm - 4.0, s.label_width_mm * 0.5); }
+// A tall label (a roll label standing up) has its code above the words.
+bool tall(const LabelSheet& s) { return s.label_height_mm > s.label_width_mm * 1.3; }
+
+// The QR code's side on a label: beside the words, the label's height less a
+// margin, at most half its width; above them, the width less a margin, at
+// most half the height.
+double qr_side_mm(const LabelSheet& s) {
+  return tall(s) ? std::min(s.label_width_mm - 4.0, s.label_height_mm * 0.5)
+                 : std::min(s.label_height_mm - 4.0, s.label_width_mm * 0.5);
+}
 
 }  // namespace
 
@@ -61,13 +70,24 @@ LabelPlace label_place(const LabelSheet& s, int index) {
           s.top_mm + row * (s.label_height_mm + s.gap_y_mm)};
 }
 
-double qr_module_mm(const LabelSheet& s, const std::string& code_text) {
-  const Qr qr = encode(code_text);
-  if (!qr) return 0;
-  return qr_side_mm(s) / (qr->width + 2 * kQuietModules);
+double qr_module_mm(const LabelSheet& s, const StoredTrial& trial) {
+  double smallest = 1e9;
+  for (const PlannedPlot& p : trial.layout.plots) {
+    const Qr qr = encode(stake_code_text({trial.uid, trial.plan.name, p.label}));
+    if (!qr) return 0;
+    smallest = std::min(smallest, qr_side_mm(s) / (qr->width + 2 * kQuietModules));
+  }
+  return smallest;
 }
 
 Status write_stake_labels(const StoredTrial& trial, const LabelSheet& s, bool blind, const std::string& out_path) {
+  // Codes too fine to be read are refused before anything is written.
+  if (const double module = qr_module_mm(s, trial); module < kMinModuleMm) {
+    char words[200];
+    std::snprintf(words, sizeof words, "the QR codes would have modules of %.2f mm on %s labels; they need at least "
+                  "%.2f mm to be read: choose a larger label", module, s.key.c_str(), kMinModuleMm);
+    return make_problem(words);
+  }
   PdfPages pdf(out_path, s.page_width_mm, s.page_height_mm, "Stake labels: " + trial.plan.name);
   if (auto st = pdf.status(); !st) return st;
   cairo_t* cr = pdf.cr();
@@ -86,7 +106,8 @@ Status write_stake_labels(const StoredTrial& trial, const LabelSheet& s, bool bl
     if (!qr) return pdf.finish("cannot make the QR code of plot " + p.label);
     // The QR code, dark modules as squares, with its quiet zone inside the label.
     const double module = side / (qr->width + 2 * kQuietModules);
-    const double qx = at.x_mm + pad, qy = at.y_mm + (s.label_height_mm - side) / 2;
+    const double qx = tall(s) ? at.x_mm + (s.label_width_mm - side) / 2 : at.x_mm + pad;
+    const double qy = tall(s) ? at.y_mm + pad : at.y_mm + (s.label_height_mm - side) / 2;
     cairo_set_source_rgb(cr, 0, 0, 0);
     for (int y = 0; y < qr->width; ++y)
       for (int x = 0; x < qr->width; ++x)
@@ -95,14 +116,19 @@ Status write_stake_labels(const StoredTrial& trial, const LabelSheet& s, bool bl
                           (qy + (y + kQuietModules) * module) * kPointsPerMm, module * kPointsPerMm,
                           module * kPointsPerMm);
     cairo_fill(cr);
-    // The words, right of the code.
-    const double tx = qx + side + 1.0, tw = at.x_mm + s.label_width_mm - pad - tx;
-    const double h = s.label_height_mm;
+    // The words, right of the code (below it on a tall label).
+    const double tx = tall(s) ? at.x_mm + pad : qx + side + 1.0;
+    const double tw = at.x_mm + s.label_width_mm - pad - tx;
+    const double h = tall(s) ? s.label_height_mm - side - pad : s.label_height_mm;
     const double small = std::max(2.0, std::min(h * 0.095, 3.4));
-    // The plot label whole, as large as the room allows (never cut short).
+    // The plot label whole, as large as the room allows: never cut short; a
+    // label too long for the sticker at the smallest readable type is refused.
     double big = std::min(h * 0.3, 14.0);
-    while (big > small && pdf.text_width(p.label, big, true) > tw) big *= 0.92;
-    double y = at.y_mm + pad + big * 0.8;
+    while (big > kMinLabelTypeMm && pdf.text_width(p.label, big, true) > tw) big = std::max(kMinLabelTypeMm, big * 0.92);
+    if (pdf.text_width(p.label, big, true) > tw)
+      return pdf.finish("plot label '" + p.label + "' does not fit whole on a " + s.key +
+                        " label even in small type; choose a larger label");
+    double y = (tall(s) ? qy + side + 1.0 : at.y_mm + pad) + big * 0.8;
     pdf.text(p.label, tx, y, big, tw, true);
     y += small * 1.5;
     pdf.text(trial.plan.name, tx, y, small, tw);

@@ -37,8 +37,10 @@ struct LabelPlace {
 };
 LabelPlace label_place(const LabelSheet& sheet, int index);
 
-// The QR code's module size in millimetres on a label of this sheet.
-double qr_module_mm(const LabelSheet& sheet, const std::string& code_text);
+// The smallest QR module of the trial's labels on this sheet, in millimetres
+// (the longest code has the finest modules). Labels whose modules would be
+// under 0.30 mm are refused, as is a plot label that cannot be printed whole.
+double qr_module_mm(const LabelSheet& sheet, const StoredTrial& trial);
 
 // Writes the labels PDF (to a temporary file, then renamed).
 Status write_stake_labels(const StoredTrial& trial, const LabelSheet& sheet, bool blind, const std::string& out_path);

@@ -512,8 +512,7 @@ Status RecordSession::jump_to(const std::string& label) {
   // A stake's code (scanned): this trial's opens its plot; another's is refused by name.
   if (const auto code = read_stake_code(label)) {
     if (code->trial_uid != open_.trial.uid)
-      return make_problem("this stake belongs to the trial '" + code->trial_name + "' (plot " + code->plot_label +
-                          "), not to '" + open_.trial.plan.name + "'");
+      return make_problem(stake_of_other_trial(*code, open_.trial.plan.name));
     l = code->plot_label;
   }
   while (!l.empty() && std::isspace(static_cast<unsigned char>(l.back()))) l.pop_back();

@@ -4,6 +4,7 @@
 #include <cctype>
 #include <map>
 #include <optional>
+#include <set>
 #include <sstream>
 
 #include "core/stake_code.h"
@@ -75,6 +76,13 @@ Result<std::vector<Column>> sheet_columns(const StoredTrial& t, const std::vecto
       for (size_t k = 0; k < t.plan.traits.size() && !known; ++k) {
         const Trait& tr = t.plan.traits[k];
         if (h.name == tr.code) {
+          // A trial made before codes like "height_2" beside a repeated "height" were refused.
+          for (const Trait& other : t.plan.traits)
+            for (int occ = 1; other.occasions > 1 && occ <= other.occasions; ++occ)
+              if (&other != &tr && h.name == sheet_column(other, occ))
+                return make_problem(where + ": field '" + h.name + "' is both the trait " + tr.code + " and occasion " +
+                                        std::to_string(occ) + " of " + other.code + "; nothing was saved",
+                                    h.name);
           if (default_occasion < 1 || default_occasion > tr.occasions)
             return make_problem(where + ": field '" + h.name + "': " + tr.code + " has " + std::to_string(tr.occasions) +
                                     " occasion(s), not occasion " + std::to_string(default_occasion),
@@ -110,18 +118,24 @@ Result<std::vector<Column>> sheet_columns(const StoredTrial& t, const std::vecto
   return out;
 }
 
+// Text from the file, shortened for a message.
+std::string shorten(const std::string& s) {
+  if (s.size() <= 60) return s;
+  size_t cut = 57;
+  while (cut > 0 && (static_cast<unsigned char>(s[cut]) & 0xC0) == 0x80) --cut;
+  return s.substr(0, cut) + "...";
+}
+
 // The plan index of a plot cell: a label or a scanned stake code of this trial.
 Result<size_t> plot_index(const StoredTrial& t, const std::map<std::string, size_t>& by_label, const std::string& cell) {
   std::string label = trimmed(cell);
   if (label.empty()) return make_problem("the plot is empty");
   if (const auto code = read_stake_code(label)) {
-    if (code->trial_uid != t.uid)
-      return make_problem("this stake belongs to the trial '" + code->trial_name + "' (plot " + code->plot_label +
-                          "), not to '" + t.plan.name + "'");
+    if (code->trial_uid != t.uid) return make_problem(stake_of_other_trial(*code, t.plan.name));
     label = code->plot_label;
   }
   const auto it = by_label.find(label);
-  if (it == by_label.end()) return make_problem("plot '" + label + "' is not in the plan of this trial");
+  if (it == by_label.end()) return make_problem("plot '" + shorten(label) + "' is not in the plan of this trial");
   return it->second;
 }
 
@@ -166,6 +180,11 @@ bool same_written(const Trait& trait, const std::string& a, const std::string& b
   return x && y && *x == *y;
 }
 
+// A note with a line of trace added.
+std::string with_trace(const std::string& note, const std::string& trace) {
+  return note.empty() ? trace : note + " (" + trace + ")";
+}
+
 std::string shown(const LiveObservation& x) {
   return x.value ? *x.value : "missing (" + x.missing_reason.value_or("") + ")";
 }
@@ -192,7 +211,8 @@ class SheetEntry {
     };
     for (const Status& st : {s_.jump_to(p.label), s_.set_trait(tr.code), s_.set_occasion(c.occasion)})
       if (!st) return finish(SheetItem::Kind::refused, st.problem().message);
-    // S4, S5: what the cell already holds.
+    // S4, S5: what the cell holds now (another program may have saved since).
+    if (auto fresh = s_.refresh_if_changed(); !fresh) return finish(SheetItem::Kind::refused, fresh.problem().message);
     std::vector<LiveObservation> held;
     for (const LiveObservation& x : s_.live())
       if (x.plot_id == t.plot_ids[plot] && x.trait_id == t.trait_ids[c.index] && x.occasion == c.occasion) held.push_back(x);
@@ -203,6 +223,7 @@ class SheetEntry {
         std::all_of(held.begin(), held.end(), [&](const LiveObservation& x) { return value_identity(x) == *identity; }))
       return finish(SheetItem::Kind::already_saved, "already saved (" + shown(held.front()) + "); nothing saved again");
     bool confirmed_replacement = false;
+    std::string held_words;
     if (acceptable && !held.empty()) {
       std::string before;
       bool own = true;
@@ -215,14 +236,20 @@ class SheetEntry {
       const SheetAnswer a = answer({line, p.label, c.name, text, question, {}, true});
       if (a != SheetAnswer::save_as_written) return finish(SheetItem::Kind::waiting, question + "; not saved");
       confirmed_replacement = true;
+      held_words = before;
     }
     if (note_line_ != line) {
       note_line_ = line;
-      s_.set_pending_note(note);
+      pending_note_ = note;
     }
+    s_.set_pending_note(confirmed_replacement
+                            ? with_trace(pending_note_, "sheet line " + std::to_string(line) + " replaced " + held_words)
+                            : pending_note_);
     if (const auto reason = missing_reason(text)) {
       if (reason->empty()) return finish(SheetItem::Kind::refused, "write the reason after 'missing:' (e.g. missing: flooded); not saved");
       if (auto st = s_.record_missing(*reason, ""); !st) return finish(SheetItem::Kind::refused, "not saved: " + st.problem().message);
+      note_taken_ = note_taken_ || !pending_note_.empty();
+      pending_note_.clear();
       return finish(confirmed_replacement ? SheetItem::Kind::confirmed : SheetItem::Kind::saved, "saved as missing (" + *reason + ")");
     }
     EntryOutcome out = s_.enter(text);
@@ -238,13 +265,20 @@ class SheetEntry {
         out = s_.confirm();
         saved_as = SheetItem::Kind::confirmed;
       } else if (a == SheetAnswer::save_suggestion && !v.suggestion.empty()) {
+        // The paper's figure stays on record beside the value saved.
+        s_.set_pending_note(with_trace(pending_note_, "sheet line " + std::to_string(line) + " reads " + v.typed +
+                                                          "; saved " + v.suggestion + " as suggested"));
         out = s_.save_suggestion();
         saved_as = SheetItem::Kind::suggestion;
       } else {
         break;
       }
     }
-    if (out.kind == EntryOutcome::Kind::saved) return finish(saved_as, out.message);
+    if (out.kind == EntryOutcome::Kind::saved) {
+      note_taken_ = note_taken_ || !pending_note_.empty();
+      pending_note_.clear();   // the line's note went with this value
+      return finish(saved_as, out.message);
+    }
     s_.drop_entry();
     if (out.kind == EntryOutcome::Kind::needs_confirmation) return finish(SheetItem::Kind::waiting, out.message);
     return finish(SheetItem::Kind::refused, out.message);
@@ -255,15 +289,32 @@ class SheetEntry {
     result_.items.push_back({k, line, plot, column, text, where_of(line, column) + ": " + message, {}});
   }
 
-  // A line's note travels with its first saved value; one that found none is listed.
-  void end_line(int line, size_t plot, const std::string& note) {
+  // A line's note travels with its first saved value. One that found none
+  // goes on the line's first value already held (as the Record screen's
+  // note does); with no value at all on the line it is refused.
+  void end_line(int line, size_t plot, const std::string& note, const std::vector<const Column*>& value_columns) {
     s_.set_pending_note("");
-    if (note.empty()) return;
+    const bool taken = note_taken_;
+    note_taken_ = false;
+    pending_note_.clear();
+    note_line_ = -1;
+    if (note.empty() || taken) return;
     const StoredTrial& t = s_.trial();
     for (const LiveObservation& x : s_.live())
-      if (x.plot_id == t.plot_ids[plot] && x.note == note) return;
-    line_item(SheetItem::Kind::waiting, line, t.layout.plots[plot].label, "note", note,
-              "the note was not saved: no value of this line was saved with it (add it on the Record screen)");
+      if (x.plot_id == t.plot_ids[plot] && x.note == note) return;   // entered before
+    for (const Column* c : value_columns) {
+      if (!s_.jump_to(t.layout.plots[plot].label) || !s_.set_trait(t.plan.traits[c->index].code) ||
+          !s_.set_occasion(c->occasion))
+        continue;
+      if (!s_.view().current) continue;
+      if (auto st = s_.add_note(note); st) {
+        line_item(SheetItem::Kind::saved, line, t.layout.plots[plot].label, "note", note,
+                  "note saved with the " + c->name + " value already held");
+        return;
+      }
+    }
+    line_item(SheetItem::Kind::refused, line, t.layout.plots[plot].label, "note", note,
+              "a note needs a value on its line (or 'missing: reason'); not saved");
   }
 
   std::string where_of(int line, const std::string& column) const {
@@ -271,9 +322,12 @@ class SheetEntry {
   }
 
   SheetResult take() { return std::move(result_); }
+  bool was_asked(int line, const std::string& column) const { return asked_.count({line, column}) > 0; }
 
  private:
   SheetAnswer answer(const SheetQuestion& q) {
+    asked_.insert({q.line, q.column});
+    asked_.insert({q.line, "*"});
     if (o_.confirm.count({q.line, q.column}) || o_.confirm.count({q.line, "*"}))
       return q.can_confirm ? SheetAnswer::save_as_written : SheetAnswer::leave;
     if (o_.ask) return o_.ask(q);
@@ -285,7 +339,14 @@ class SheetEntry {
   std::string path_;
   SheetResult result_;
   int note_line_ = -1;
+  std::string pending_note_;   // the line's note, until a value takes it
+  bool note_taken_ = false;    // a value of this line was saved with its note
+  std::set<std::pair<int, std::string>> asked_;   // (line, column) of every question
 };
+
+}  // namespace
+
+namespace {
 
 }  // namespace
 
@@ -314,13 +375,12 @@ Result<SheetResult> enter_sheet(RecordSession& session, const std::string& path,
 
   // S2: each line's plot, and its place and entry against the plan.
   std::vector<std::optional<size_t>> plot_of(static_cast<size_t>(records));
-  std::vector<std::string> line_problem(static_cast<size_t>(records));
   for (int r = 0; r < records; ++r) {
     const int line = read.csv.line_of_record[static_cast<size_t>(r)];
     auto idx = plot_index(t, by_label, cell(r, plot_column));
     if (!idx) {
-      entry.line_item(SheetItem::Kind::refused, line, cell(r, plot_column), (*columns)[plot_column].name,
-                      cell(r, plot_column), idx.problem().message + "; nothing saved from this line");
+      entry.line_item(SheetItem::Kind::refused, line, shorten(cell(r, plot_column)), (*columns)[plot_column].name,
+                      shorten(cell(r, plot_column)), idx.problem().message + "; nothing saved from this line");
       continue;
     }
     const PlannedPlot& p = t.layout.plots[*idx];
@@ -332,8 +392,8 @@ Result<SheetResult> enter_sheet(RecordSession& session, const std::string& path,
       if (written.empty()) continue;
       const std::string planned = plan_text(t, p, col);
       if (written != planned) {
-        entry.line_item(SheetItem::Kind::refused, line, p.label, col.name, written,
-                        "the sheet says " + col.name + " " + written + ", but plot " + p.label + " has " + col.name +
+        entry.line_item(SheetItem::Kind::refused, line, p.label, col.name, shorten(written),
+                        "the sheet says " + col.name + " " + shorten(written) + ", but plot " + p.label + " has " + col.name +
                             " " + planned + " in the plan; nothing saved from this line (check which plot was measured)");
         matches = false;
       }
@@ -341,46 +401,66 @@ Result<SheetResult> enter_sheet(RecordSession& session, const std::string& path,
     if (matches) plot_of[static_cast<size_t>(r)] = *idx;
   }
 
-  // S3: the lines of each plot.
-  std::map<size_t, std::vector<int>> lines_of_plot;
-  for (int r = 0; r < records; ++r)
-    if (plot_of[static_cast<size_t>(r)]) lines_of_plot[*plot_of[static_cast<size_t>(r)]].push_back(r);
+  // S3: for each plot and value column, the lines with a value there, the
+  // first of them, and whether they all read alike (one pass, then O(1) a line).
+  struct Group {
+    std::vector<int> with_value;
+    bool differ = false;
+  };
+  std::vector<const Column*> value_columns;
+  for (const Column& col : *columns)
+    if (col.kind == Column::Kind::value) value_columns.push_back(&col);
+  std::map<std::pair<size_t, size_t>, Group> groups;   // (plot, column) -> its lines
+  for (int r = 0; r < records; ++r) {
+    if (!plot_of[static_cast<size_t>(r)]) continue;
+    for (size_t c = 0; c < columns->size(); ++c) {
+      if ((*columns)[c].kind != Column::Kind::value || cell(r, c).empty()) continue;
+      Group& g = groups[{*plot_of[static_cast<size_t>(r)], c}];
+      if (!g.with_value.empty() && !g.differ)
+        g.differ = !same_written(t.plan.traits[(*columns)[c].index], cell(g.with_value.front(), c), cell(r, c));
+      if (g.with_value.size() < 50) g.with_value.push_back(r);   // enough to name in a message
+      else if (g.with_value.back() != -1) g.with_value.push_back(-1);   // "and more"
+    }
+  }
 
   for (int r = 0; r < records; ++r) {
     if (!plot_of[static_cast<size_t>(r)]) continue;
     const size_t plot = *plot_of[static_cast<size_t>(r)];
     const PlannedPlot& p = t.layout.plots[plot];
-    const std::vector<int>& same = lines_of_plot[plot];
     const int line = read.csv.line_of_record[static_cast<size_t>(r)];
     const std::string note = note_column < columns->size() ? cell(r, note_column) : std::string();
+    if (note.size() > kMaxNoteBytes) {
+      entry.line_item(SheetItem::Kind::refused, line, p.label, "note", shorten(note),
+                      "the note is longer than " + std::to_string(kMaxNoteBytes) +
+                          " bytes; nothing saved from this line (shorten the note)");
+      continue;
+    }
     std::vector<std::string> repeated;   // columns this later line repeats (S3)
     int repeated_first = read.csv.line_of_record.back() + 1;
     for (size_t c = 0; c < columns->size(); ++c) {
       const Column& col = (*columns)[c];
       if (col.kind != Column::Kind::value) continue;
-      const Trait& tr = t.plan.traits[col.index];
       const std::string text = cell(r, c);
       if (text.empty()) continue;
-      // The other lines of this plot with a value in this column.
-      std::vector<int> with_value;
-      for (int o : same)
-        if (!cell(o, c).empty()) with_value.push_back(o);
-      const bool differ = std::any_of(with_value.begin(), with_value.end(),
-                                      [&](int o) { return !same_written(tr, cell(o, c), text); });
-      if (differ) {
+      const Group& g = groups[{plot, c}];
+      if (g.differ) {
         std::string lines, values;
-        for (int o : with_value) {
+        for (int o : g.with_value) {
+          if (o < 0) {
+            lines += ", ...";
+            break;
+          }
           lines += (lines.empty() ? "" : ", ") + std::to_string(read.csv.line_of_record[static_cast<size_t>(o)]);
-          values += (values.empty() ? "" : ", ") + cell(o, c);
+          if (values.size() < 200) values += (values.empty() ? "" : ", ") + shorten(cell(o, c));
         }
-        entry.line_item(SheetItem::Kind::refused, line, p.label, col.name, text,
+        entry.line_item(SheetItem::Kind::refused, line, p.label, col.name, shorten(text),
                         "plot " + p.label + " is on lines " + lines + " with different " + col.name + " (" + values +
                             "): saved from none of them; look at the paper sheet and enter the right one");
         continue;
       }
-      if (with_value.front() != r) {
+      if (g.with_value.front() != r) {
         repeated.push_back(col.name);
-        repeated_first = std::min(repeated_first, read.csv.line_of_record[static_cast<size_t>(with_value.front())]);
+        repeated_first = std::min(repeated_first, read.csv.line_of_record[static_cast<size_t>(g.with_value.front())]);
         continue;
       }
       entry.value(line, plot, col, text, note);
@@ -392,9 +472,17 @@ Result<SheetResult> enter_sheet(RecordSession& session, const std::string& path,
                       "plot " + p.label + " is also on line " + std::to_string(repeated_first) + " with the same " +
                           names + ": nothing saved from this line");
     }
-    entry.end_line(line, plot, note);
+    entry.end_line(line, plot, repeated.empty() ? note : std::string(), value_columns);
   }
-  return entry.take();
+  // --confirm-line entries that matched no question are said (a typo must not look done).
+  SheetResult out = entry.take();
+  for (const auto& [line, column] : options.confirm)
+    if (!entry.was_asked(line, column))
+      out.items.push_back({SheetItem::Kind::refused, line, "", column == "*" ? "" : column, "",
+                           path + ":" + std::to_string(line) + (column == "*" ? "" : ": field '" + column + "'") +
+                               ": --confirm-line names no value that asked for confirmation there",
+                           {}});
+  return out;
 }
 
 std::string blank_sheet_csv(const StoredTrial& t, const std::vector<std::string>& trait_columns, bool blind) {

@@ -278,16 +278,16 @@ void SyncStation::serve(ByteStream& stream, const std::string& peer) {
   // auth: pairing and each trial's proof.
   auto auth = receive_json(ch, "auth");
   if (!auth) return refuse_session(auth.problem().message);
-  std::string token = text_of(*auth, "token");
+  const std::string token = text_of(*auth, "token");
   const std::string code = text_of(*auth, "code");
-  std::string new_token;
-  if (!check_token(token)) {
+  const bool token_ok = check_token(token);
+  if (!token_ok) {
     bool closed = false, right = false;
     {
       std::lock_guard<std::mutex> lock(pairing_mutex_);
       closed = wrong_codes_ >= config_.max_wrong_codes;
       right = !closed && !code.empty() && code == config_.pairing_code;
-      if (!closed && !right) ++wrong_codes_;
+      if (!closed && !right && !code.empty()) ++wrong_codes_;
     }
     if (!right) {
       const std::string why = closed ? "pairing is closed after too many wrong codes; restart the station to pair"
@@ -296,12 +296,6 @@ void SyncStation::serve(ByteStream& stream, const std::string& peer) {
       send_json(ch, {{"type", "refused"}, {"reason", why}});
       return refuse_session(why);
     }
-    new_token = pair_new(peer);
-    if (new_token.empty()) {
-      send_json(ch, {{"type", "refused"}, {"reason", "the station cannot save the pairing (its disk?)"}});
-      return refuse_session("cannot save a pairing");
-    }
-    log({"", peer, "paired", "", "", "", "", 0, 0, "with the pairing code"});
   }
   std::map<std::string, std::string> proof_of;
   if ((*auth)["trials"].is_array())
@@ -347,7 +341,19 @@ void SyncStation::serve(ByteStream& stream, const std::string& peer) {
     verdicts.push_back(v);
   }
   json welcome = {{"type", "welcome"}, {"trials", verdicts}};
-  if (!new_token.empty()) welcome["token"] = new_token;
+  // A device is paired (given its token) once the code was right and at
+  // least one of its trials accepted it.
+  if (!token_ok && !sessions.empty()) {
+    const std::string new_token = pair_new(peer);
+    if (new_token.empty()) {
+      send_json(ch, {{"type", "refused"}, {"reason", "the station cannot save the pairing (its disk?)"}});
+      return refuse_session("cannot save a pairing");
+    }
+    std::string who;
+    for (const auto& [uid, s] : sessions) who += (who.empty() ? "" : ", ") + s.label + " (" + s.device_id + ")";
+    log({"", peer, "paired", "", "", "", "", 0, 0, "with the pairing code: " + who});
+    welcome["token"] = new_token;
+  }
   if (auto s = send_json(ch, welcome); !s) return refuse_session(s.problem().message);
 
   // The exchange: bundles both ways until bye.

@@ -91,6 +91,15 @@ plan_cases = {
     "no_design": variant(drop="setting,design"),
     "no_traits": variant(drop="trait,"),
     "cannot_randomise": variant(drop="plot,", replace={"setting,rows": "setting,rows,3"}),
+    # Names the field sheet uses for its own columns, and codes that read alike on it.
+    "trait_code_note": variant(add=["trait,note,remarks,,text,0,,,,,no,1,"]),
+    "trait_code_block": variant(add=["trait,Block,block score,,score,0,,,,,no,1,1-5"]),
+    "factor_named_plot": variant(replace={"factor,entry": "factor,plot,Kestrel,Basalt"}),
+    "factor_named_as_trait": variant(replace={"factor,entry": "factor,height_cm,Kestrel,Basalt"}),
+    "code_reads_as_occasion": variant(add=["trait,tiller,tillers,,count,0,0,50,,,yes,2,",
+                                           "trait,tiller_2,second count,,count,0,0,50,,,yes,1,"]),
+    "control_character_name": variant(replace={"setting,name": "setting,name,Harrow\x1b[31m Ridge"}),
+    "control_character_label": variant(replace={PLOT1: "plot,10\x0b1,1,1,1,Quillon"}),
 }
 
 # Plan files: no database may be created.
@@ -135,6 +144,8 @@ record_cases = {
     "count_fraction": ["--plot", "102", "--trait", "stand_count", "--value", "230.5"],
     "negative_count": ["--plot", "102", "--trait", "stand_count", "--value", "-3"],
     "empty_value": ["--plot", "102", "--trait", "height_cm", "--value", " "],
+    "exponent": ["--plot", "102", "--trait", "height_cm", "--value", "9.6e1"],
+    "control_in_note": ["--plot", "102", "--trait", "height_cm", "--value", "95", "--note", "lodged\x07"],
 }
 for name, args in record_cases.items():
     p = run("record", "--db", db, "--observer", "Ana", *args)

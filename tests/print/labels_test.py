@@ -74,7 +74,7 @@ for key, sheet in SHEETS.items():
     if all(parts):
         uid = parts[0][1]
         check(all(p[1] == uid and len(uid) == 32 for p in parts), f"{key}: every code holds the trial's identity")
-        check(all(p[2] == name for p in parts), f"{key}: and its name ({parts[0][2]})")
+        check(all(p[2] == name.encode()[:40].decode() for p in parts), f"{key}: and its name, cut to 40 bytes ({parts[0][2]})")
         check([p[3] for p in parts] == walk, f"{key}: each plot once, in walk order, in its own rectangle")
     # The big plot label of each label: where the layout puts it, to 0.5 mm.
     bbox = subprocess.run(["pdftotext", "-bbox", pdf, "-"], capture_output=True, text=True).stdout

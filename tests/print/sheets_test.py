@@ -191,4 +191,37 @@ before = len(long_rows(db3))
 r = run("record", "--db", db3, "--from-sheet", bad, "--observer", "Ana Pell")
 check(r.returncode == 2 and f"{bad}:1: field 'hieght_cm' is not a column" in r.stderr and len(long_rows(db3)) == before,
       f"a misspelt column: refused before anything is saved ({r.stderr.strip()[:90]})")
+# One sheet at a time into a trial file.
+import fcntl  # noqa: E402
+with open(db3, "rb") as held:
+    fcntl.flock(held, fcntl.LOCK_EX)
+    r = run("record", "--db", db3, "--from-sheet", typed, "--observer", "Ana Pell")
+check(r.returncode == 2 and "another sheet is being entered into this trial file now" in r.stderr,
+      "a second sheet entered at the same time is turned away in words")
+
+# Long plot labels are printed whole, on the sheet and on the stakes; codes too fine to read are refused.
+with open(plan, encoding="utf-8") as f:
+    lines = f.read().splitlines()
+long_plan = os.path.join(work, "long.plan.csv")
+with open(long_plan, "w", encoding="utf-8") as f:
+    for line in lines:
+        if line.startswith("plot,"):
+            parts = line.split(",")
+            parts[1] = "HR26-B" + parts[2] + "-" + parts[1]
+            line = ",".join(parts)
+        f.write(line + "\n")
+long_db = new_trial("long.furrow")
+os.remove(long_db)
+subprocess.run([furrow, "trial", "new", "--plan", long_plan, "--db", long_db], check=True, capture_output=True)
+r = run("sheets", "--db", long_db, "--out", os.path.join(work, "long.pdf"), "--traits", "height_cm")
+text = subprocess.run(["pdftotext", "-layout", os.path.join(work, "long.pdf"), "-"], capture_output=True, text=True).stdout
+check(r.returncode == 0 and "HR26-B1-101" in text and "HR26-B4-420" in text, "long plot labels printed whole on the sheet")
+r = run("labels", "--db", long_db, "--out", os.path.join(work, "long-labels.pdf"), "--sheet", "roll-50x30")
+text = subprocess.run(["pdftotext", os.path.join(work, "long-labels.pdf"), "-"], capture_output=True, text=True).stdout
+check(r.returncode == 0 and "HR26-B1-101" in text, "and whole on the stake labels")
+r = run("labels", "--db", long_db, "--out", os.path.join(work, "tiny.pdf"), "--sheet", "roll-20x20")
+check(r.returncode == 2 and "need at least 0.30 mm to be read" in r.stderr and not os.path.exists(os.path.join(work, "tiny.pdf")),
+      f"labels whose QR codes would be too fine are refused ({r.stderr.strip()})")
+r = run("labels", "--db", long_db, "--out", work, "--sheet", "a4-3x8")
+check(r.returncode == 2 and "is a folder" in r.stderr, "a folder as the output is refused in words")
 check.finish()

@@ -173,6 +173,12 @@ TEST_CASE("the demo sheet typed back: the slip asks, an unknown plot is refused,
     CHECK(asked[0].can_confirm);
     CHECK(item_at(*again, 48, "height_cm")->kind == SheetItem::Kind::suggestion);
     CHECK(live_by_plot(*s, "height_cm").at("307") == std::vector<std::string>{"83"});
+    // The paper's figure stays on record beside the value saved.
+    bool traced = false;
+    for (const LiveObservation& x : s->live())
+      traced = traced || (x.value == std::optional<std::string>("83") &&
+                          x.note.find("sheet line 48 reads 8.3; saved 83 as suggested") != std::string::npos);
+    CHECK(traced);
     auto third = enter_sheet(*s, path, SheetOptions{});
     REQUIRE(third.ok());
     const SheetItem* replace = item_at(*third, 48, "height_cm");
@@ -344,4 +350,62 @@ TEST_CASE("the blank sheet lists every plot in walk order with the sheet's colum
   const std::string blind = blank_sheet_csv(open->trial, {"height_cm"}, true);
   CHECK(blind.substr(0, blind.find('\n')) == "plot,block,field_row,field_column,height_cm,note");
   CHECK(blind.find("Quillon") == std::string::npos);
+}
+
+TEST_CASE("notes: a note-only line goes on the value already held, or is refused; a long note is refused by name") {
+  const std::string db = test::fresh_demo_trial("sheet_notes.furrow");
+  auto s = RecordSession::open(db, "Ana Pell");
+  REQUIRE(s.ok());
+  REQUIRE(s->jump_to("101").ok());
+  REQUIRE(s->set_trait("height_cm").ok());
+  REQUIRE(s->enter("96").kind == EntryOutcome::Kind::saved);
+  const std::string text = "plot,height_cm,note\n"
+                           "101,,lodged patch\n"            // 2: no value on the line; 101's height is held
+                           "102,,just a note\n"             // 3: nothing held: refused
+                           "103,98," + std::string(2100, 'x') + "\n"   // 4: note too long: the line refused
+                           "104,101,\n";                    // 5: a plain value
+  const std::string path = write_sheet("notes.csv", text);
+  SheetOptions o;
+  o.confirm.insert({9, "height_cm"});   // no such line: said, not ignored
+  auto r = enter_sheet(*s, path, o);
+  REQUIRE(r.ok());
+  CHECK(item_at(*r, 2, "note")->kind == SheetItem::Kind::saved);
+  bool noted = false;
+  for (const LiveObservation& x : s->live()) noted = noted || (x.value == std::optional<std::string>("96") && x.note == "lodged patch");
+  CHECK(noted);
+  CHECK(item_at(*r, 3, "note")->kind == SheetItem::Kind::refused);
+  CHECK(item_at(*r, 3, "note")->message.find("a note needs a value on its line") != std::string::npos);
+  const SheetItem* long_note = item_at(*r, 4, "note");
+  REQUIRE(long_note);
+  CHECK(long_note->kind == SheetItem::Kind::refused);
+  CHECK(long_note->message.find("the note is longer than 2000 bytes; nothing saved from this line") != std::string::npos);
+  CHECK(item_at(*r, 4, "height_cm") == nullptr);
+  CHECK(item_at(*r, 5, "height_cm")->kind == SheetItem::Kind::saved);
+  const SheetItem* typo = item_at(*r, 9, "height_cm");
+  REQUIRE(typo);
+  CHECK(typo->message.find("--confirm-line names no value that asked for confirmation there") != std::string::npos);
+  // Entered again: the note is held, nothing new.
+  const int rows = log_rows(db);
+  auto again = enter_sheet(*s, path, SheetOptions{});
+  REQUIRE(again.ok());
+  CHECK(item_at(*again, 2, "note") == nullptr);
+  CHECK(log_rows(db) == rows);
+}
+
+TEST_CASE("two entries of one sheet through two sessions opened together save each value once") {
+  const std::string db = test::fresh_demo_trial("sheet_twice.furrow");
+  auto a = RecordSession::open(db, "Ana Pell");
+  auto b = RecordSession::open(db, "Ben Oduya");
+  REQUIRE(a.ok());
+  REQUIRE(b.ok());
+  const std::string path = write_sheet("twice.csv", sheet_text(demo_lines()));
+  auto first = enter_sheet(*a, path, SheetOptions{});
+  REQUIRE(first.ok());
+  const int rows = log_rows(db);
+  CHECK(rows == 158);
+  // b opened before a saved anything: it reads the file again before each value.
+  auto second = enter_sheet(*b, path, SheetOptions{});
+  REQUIRE(second.ok());
+  CHECK(second->count(SheetItem::Kind::already_saved) == 158);
+  CHECK(log_rows(db) == rows);
 }
