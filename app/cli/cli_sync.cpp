@@ -6,9 +6,7 @@
 #include <filesystem>
 #include <ctime>
 #include <iostream>
-#include <list>
 #include <memory>
-#include <thread>
 
 #include <unistd.h>
 
@@ -36,18 +34,6 @@ Result<std::string> folder_or_default(const std::string& given) {
   if (!given.empty()) return given;
   return data_folder();
 }
-
-// A TCP stream as the channel's byte stream.
-class TcpBytes : public ByteStream {
- public:
-  explicit TcpBytes(TcpStream s) : s_(std::move(s)) {}
-  Status write_all(std::string_view b) override { return s_.write_all(b); }
-  Result<std::string> read_exact(size_t n) override { return s_.read_exact(n); }
-  TcpStream& tcp() { return s_; }
-
- private:
-  TcpStream s_;
-};
 
 std::string today_utc() {
   const std::time_t now = std::time(nullptr);
@@ -81,11 +67,8 @@ int sync_with(const SyncCliRequest& r, bool pairing) {
   request.token = pairing ? std::string() : where.token;
   request.code = r.code;
   request.others = r.others;
-  auto tcp = TcpStream::connect(where.host, where.port, r.timeout_s * 1000);
-  if (!tcp) return fail(tcp.problem().message);
-  TcpBytes bytes(std::move(*tcp));
   SyncProgress progress;
-  auto result = sync_as_device(bytes, request, &progress);
+  auto result = sync_over_network(where.host, where.port, r.timeout_s, request, &progress);
   if (!result) {
     const std::string& why = result.problem().message;
     return fail("sync with " + where.host + ":" + std::to_string(where.port) + " stopped: " + why +
@@ -123,9 +106,8 @@ int run_serve(const ServeRequest& r) {
   config.keep_backups = r.keep;
   if (!r.code.empty() && (r.code.size() < 6 || r.code.size() > 32))
     return fail("a pairing code is 6 to 32 characters");
-  auto listener = TcpListener::listen(r.listen, r.port);
-  if (!listener) return fail(listener.problem().message);
-  SyncStation station(config);
+  auto server = SyncServer::start(config, r.listen, r.port, r.timeout_s);
+  if (!server) return fail(server.problem().message);
   struct sigaction sa {};
   sa.sa_handler = on_stop;
   sigaction(SIGINT, &sa, nullptr);
@@ -134,37 +116,14 @@ int run_serve(const ServeRequest& r) {
   const std::string addresses = local_addresses();
   std::cout << "Furrow station serving the trials in " << terminal_safe(*folder) << "\n"
             << "  address: " << (r.listen == "0.0.0.0" ? (addresses.empty() ? std::string("this machine") : addresses) : r.listen)
-            << " port " << listener->port() << "\n"
-            << "  pairing code: " << station.pairing_code() << "\n"
+            << " port " << (*server)->port() << "\n"
+            << "  pairing code: " << (*server)->pairing_code() << "\n"
             << (r.backup_to.empty() ? "  no backups (give --backup-to FOLDER, e.g. a second disk)\n"
                                     : "  backups to " + r.backup_to + " after each sync and daily\n")
             << "  stop with Ctrl+C" << std::endl;
-  station.backups_due();
-  std::list<std::thread> workers;
-  std::time_t last_daily_check = std::time(nullptr);
-  while (!g_stop) {
-    auto conn = listener->accept(250);
-    if (!conn) {
-      std::cerr << terminal_safe(conn.problem().message) << "\n";
-      continue;
-    }
-    if (conn->is_open()) {
-      conn->set_timeout(r.timeout_s * 1000);
-      auto stream = std::make_shared<TcpBytes>(std::move(*conn));
-      workers.emplace_back([&station, stream]() { station.serve(*stream, stream->tcp().peer()); });
-    }
-    if (std::time(nullptr) - last_daily_check > 60) {
-      last_daily_check = std::time(nullptr);
-      station.backups_due();
-    }
-    // Finished sessions' threads are joined as they end (at most a few run at once).
-    if (workers.size() > 64) {
-      for (auto& w : workers) w.join();
-      workers.clear();
-    }
-  }
-  std::cout << "stopping: finishing " << station.active() << " session(s)" << std::endl;
-  for (auto& w : workers) w.join();
+  while (!g_stop) ::usleep(100 * 1000);
+  std::cout << "stopping: finishing " << (*server)->active() << " session(s)" << std::endl;
+  (*server)->stop();
   std::cout << "stopped" << std::endl;
   return 0;
 }

@@ -27,6 +27,8 @@
 #include "app/work/sheet_entry.h"
 #include "storage/text_file.h"
 #include "app/work/station.h"
+#include "app/work/sync.h"
+#include "platform/net.h"
 #include "app/work/trial_analysis.h"
 #include "core/entry_checks.h"
 #include "storage/bundle.h"
@@ -95,7 +97,7 @@ class FieldApp final : public FieldAppState {
   // Work is under way that needs frames without waiting for input.
   // Until its outcome has been drawn once, so that the screen never waits for
   // a touch to show the new state.
-  bool busy() const { return import_ && (!import_->done() || !import_reported_); }
+  bool busy() const { return (import_ && (!import_->done() || !import_reported_)) || sync_job_; }
   bool has_trial() const { return session_.has_value(); }
   const std::string& trial_name() const { return session_->trial().plan.name; }
 
@@ -288,6 +290,68 @@ class FieldApp final : public FieldAppState {
   std::string outgoing_folder() const { return bundle_folders(folder_).outgoing; }
   std::string export_folder() const { return folder_ + "/exports"; }
 
+  // The sync part of the Station screen, and a finished sync's outcome.
+  void fill_sync_view() {
+    StationView::Sync& v = station_->sync;
+    const StoredTrial* t = session_ ? &session_->trial() : nullptr;
+    v.station_trial = t && t->role == "station";
+    v.device_trial = t && t->role == "device";
+    v.serving = server_ != nullptr;
+    if (server_) {
+      const std::string addresses = local_addresses();
+      v.serving_words = "Serving this station's trials: address " + (addresses.empty() ? "this machine" : addresses) +
+                        ", port " + std::to_string(server_->port()) + ", pairing code " + server_->pairing_code();
+      v.sessions = server_->active();
+    }
+    if (v.station_trial) {
+      // The day's view, read again every few seconds while the screen is open.
+      const double now = ImGui::GetTime();
+      if (last_day_read_ < 0 || now - last_day_read_ > 2.0 || v.day.empty()) {
+        last_day_read_ = now;
+        auto day = station_day(std::filesystem::path(trial_path_).parent_path().string(), utc_now().substr(0, 10));
+        if (day) {
+          v.day.clear();
+          for (const DeviceDay& d : *day)
+            if (d.trial_uid == t->uid) v.day.push_back(d);
+        }
+      }
+    }
+    if (v.device_trial) {
+      auto p = load_pairing(folder_);
+      v.paired_with = p && *p ? (*p)->host + ":" + std::to_string((*p)->port) : "";
+    }
+    v.syncing = sync_job_ != nullptr;
+    if (sync_job_) {
+      v.done = sync_job_->progress.done.load();
+      v.total = sync_job_->progress.total.load();
+      if (sync_job_->done()) {
+        auto r = sync_job_->result();
+        if (r) {
+          StationPairing pairing{sync_job_->host(), sync_job_->port(), r->token, utc_now()};
+          if (!r->token.empty()) (void)save_pairing(folder_, pairing);
+          std::string refusals;
+          for (const SyncTrialResult& tr : r->trials)
+            if (!tr.accepted) refusals += "; " + tr.name + " refused: " + tr.refusal;
+          station_ui_.message = "Synced with " + sync_job_->host() + ": " + r->summary() + refusals;
+          station_ui_.message_is_problem = !refusals.empty();
+          station_ui_.pairing = false;
+          station_ui_.pairing_code[0] = 0;
+        } else {
+          station_ui_.message = "Sync stopped: " + r.problem().message + " (what was merged before stays; sync again)";
+          station_ui_.message_is_problem = true;
+        }
+        sync_job_.reset();
+        v.syncing = false;
+        if (session_) {
+          (void)session_->refresh();
+          map_.reset();
+          analysis_.reset();
+          leaving_.reset();
+        }
+      }
+    }
+  }
+
   void draw_station(float scale, float top) {
     if (import_) {
       if (!import_->done()) {
@@ -331,7 +395,8 @@ class FieldApp final : public FieldAppState {
         }
       }
     }
-    station_->importing = busy();
+    station_->importing = import_ && (!import_->done() || !import_reported_);
+    fill_sync_view();
     if (import_) {
       station_->imported = import_->finished();
       station_->to_import = import_->total();
@@ -406,6 +471,54 @@ class FieldApp final : public FieldAppState {
                                         ".csv to type it back"
                                   : csv.problem().message;
         station_ui_.message_is_problem = !csv;
+        break;
+      }
+      case StationAction::Kind::start_serving: {
+        StationConfig config;
+        config.data_folder = std::filesystem::path(trial_path_).parent_path().string();
+        if (const char* code = std::getenv("FURROW_PAIRING_CODE")) config.pairing_code = code;   // fixed, for checks
+        const char* port = std::getenv("FURROW_SYNC_PORT");
+        auto server = SyncServer::start(config, "0.0.0.0", port ? std::atoi(port) : kDefaultSyncPort, 30);
+        if (!server) {
+          station_ui_.message = server.problem().message;
+          station_ui_.message_is_problem = true;
+        } else {
+          server_ = std::move(server).value();
+          station_ui_.message.clear();
+        }
+        break;
+      }
+      case StationAction::Kind::stop_serving:
+        server_.reset();   // waits for the sessions under way
+        station_ui_.message = "Stopped serving; devices can sync again once you serve";
+        station_ui_.message_is_problem = false;
+        break;
+      case StationAction::Kind::sync_now: {
+        std::string host;
+        int port = kDefaultSyncPort;
+        std::string token;
+        if (!action->text.empty()) {
+          auto hp = parse_host_port(action->text, kDefaultSyncPort);
+          if (!hp) {
+            station_ui_.message = hp.problem().message;
+            station_ui_.message_is_problem = true;
+            break;
+          }
+          host = hp->first;
+          port = hp->second;
+        } else if (auto p = load_pairing(folder_); p && *p) {
+          host = (*p)->host;
+          port = (*p)->port;
+          token = (*p)->token;
+        }
+        SyncRequest request;
+        request.trial_paths = device_trial_files(std::filesystem::path(trial_path_).parent_path().string());
+        if (std::find(request.trial_paths.begin(), request.trial_paths.end(), trial_path_) == request.trial_paths.end())
+          request.trial_paths.push_back(trial_path_);
+        request.token = token;
+        request.code = action->code;
+        sync_job_ = std::make_unique<SyncJob>(host, port, std::move(request));
+        station_ui_.message.clear();
         break;
       }
       case StationAction::Kind::keep:
@@ -790,6 +903,10 @@ class FieldApp final : public FieldAppState {
   std::optional<std::vector<EveryTraitOutlier>> every_trait_;
   std::uint64_t every_trait_revision_ = 0;
   double last_fresh_check_ = -1;
+  // Sync over the network: this app serving as the station, or syncing as a device.
+  std::unique_ptr<SyncServer> server_;
+  std::unique_ptr<SyncJob> sync_job_;
+  double last_day_read_ = -1;
 };
 
 }  // namespace

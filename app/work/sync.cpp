@@ -12,6 +12,7 @@
 #include <fcntl.h>
 #include <unistd.h>
 
+#include "platform/net.h"
 #include "storage/backup.h"
 #include "storage/bundle.h"
 #include "storage/enrolment.h"
@@ -688,6 +689,84 @@ Result<SyncResult> sync_as_device(ByteStream& stream, const SyncRequest& request
   auto bye = receive_json(ch, "bye");
   if (!bye) return bye.problem();
   return result;
+}
+
+// --- Network glue ----------------------------------------------------------
+
+namespace {
+// A TCP stream as the channel's byte stream.
+class TcpBytes : public ByteStream {
+ public:
+  explicit TcpBytes(TcpStream s) : s_(std::move(s)) {}
+  Status write_all(std::string_view b) override { return s_.write_all(b); }
+  Result<std::string> read_exact(size_t n) override { return s_.read_exact(n); }
+  const std::string& peer() const { return s_.peer(); }
+
+ private:
+  TcpStream s_;
+};
+}  // namespace
+
+Result<std::unique_ptr<SyncServer>> SyncServer::start(StationConfig config, const std::string& listen_address, int port,
+                                                      int timeout_s) {
+  auto listener = TcpListener::listen(listen_address, port);
+  if (!listener) return listener.problem();
+  std::unique_ptr<SyncServer> server(new SyncServer());
+  server->station_ = std::make_unique<SyncStation>(std::move(config));
+  server->port_ = listener->port();
+  server->thread_ = std::thread([s = server.get(), l = std::make_shared<TcpListener>(std::move(*listener)), timeout_s]() {
+    std::vector<std::thread> workers;
+    std::time_t last_check = 0;
+    while (!s->stop_.load()) {
+      if (std::time(nullptr) - last_check >= 60) {
+        last_check = std::time(nullptr);
+        s->station_->backups_due();
+      }
+      auto conn = l->accept(200);
+      if (!conn || !conn->is_open()) continue;
+      conn->set_timeout(timeout_s * 1000);
+      auto stream = std::make_shared<TcpBytes>(std::move(*conn));
+      workers.emplace_back([station = s->station_.get(), stream]() { station->serve(*stream, stream->peer()); });
+    }
+    for (auto& w : workers) w.join();
+  });
+  return server;
+}
+
+void SyncServer::stop() {
+  stop_ = true;
+  if (thread_.joinable()) thread_.join();
+}
+
+SyncServer::~SyncServer() { stop(); }
+
+Result<SyncResult> sync_over_network(const std::string& host, int port, int timeout_s, const SyncRequest& request,
+                                     SyncProgress* progress) {
+  auto tcp = TcpStream::connect(host, port, timeout_s * 1000);
+  if (!tcp) return tcp.problem();
+  TcpBytes bytes(std::move(*tcp));
+  return sync_as_device(bytes, request, progress);
+}
+
+SyncJob::SyncJob(std::string host, int port, SyncRequest request) : host_(std::move(host)), port_(port) {
+  thread_ = std::thread([this, request = std::move(request)]() {
+    auto r = sync_over_network(host_, port_, 30, request, &progress);
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      result_.emplace(std::move(r));
+    }
+    done_ = true;
+  });
+}
+
+SyncJob::~SyncJob() {
+  if (thread_.joinable()) thread_.join();
+}
+
+Result<SyncResult> SyncJob::result() {
+  std::lock_guard<std::mutex> lock(mutex_);
+  if (!result_) return make_problem("the sync has not finished");
+  return *result_;
 }
 
 }  // namespace furrow

@@ -41,6 +41,7 @@
 #include <mutex>
 #include <optional>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "core/result.h"
@@ -97,6 +98,27 @@ class SyncStation {
   std::map<std::string, std::string> last_backup_day_;   // trial path -> YYYY-MM-DD
 };
 
+// A station serving on the network: a thread takes connections and gives each
+// its own thread (SyncStation::serve); backups fall due each minute. Stops
+// (and waits for the sessions under way) when stopped or destroyed.
+class SyncServer {
+ public:
+  static Result<std::unique_ptr<SyncServer>> start(StationConfig config, const std::string& listen_address, int port,
+                                                   int timeout_s);
+  ~SyncServer();
+  void stop();
+  int port() const { return port_; }
+  const std::string& pairing_code() const { return station_->pairing_code(); }
+  int active() const { return station_->active(); }
+
+ private:
+  SyncServer() = default;
+  std::unique_ptr<SyncStation> station_;
+  std::thread thread_;
+  std::atomic<bool> stop_{false};
+  int port_ = 0;
+};
+
 // The station's log, oldest first (unreadable lines skipped).
 std::vector<SyncLogEntry> read_sync_log(const std::string& data_folder);
 
@@ -151,6 +173,31 @@ struct SyncRequest {
 };
 // Runs the device's side over `stream` (connected to the station).
 Result<SyncResult> sync_as_device(ByteStream& stream, const SyncRequest& request, SyncProgress* progress);
+
+// Connects to host:port and runs sync_as_device.
+Result<SyncResult> sync_over_network(const std::string& host, int port, int timeout_s, const SyncRequest& request,
+                                     SyncProgress* progress);
+
+// A sync run in the background (the field app's "Sync with station"): the
+// screen reads `progress` every frame and takes the result once done().
+class SyncJob {
+ public:
+  SyncJob(std::string host, int port, SyncRequest request);
+  ~SyncJob();
+  bool done() const { return done_.load(); }
+  SyncProgress progress;
+  Result<SyncResult> result();   // once done()
+  const std::string& host() const { return host_; }
+  int port() const { return port_; }
+
+ private:
+  std::string host_;
+  int port_;
+  std::atomic<bool> done_{false};
+  std::mutex mutex_;
+  std::optional<Result<SyncResult>> result_;
+  std::thread thread_;
+};
 
 // This device's trial files in `data_folder` (device copies only).
 std::vector<std::string> device_trial_files(const std::string& data_folder);

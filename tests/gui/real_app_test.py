@@ -227,4 +227,104 @@ p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "s
 rows = [r.split(",") for r in run("export", "--db", demo, "--long").splitlines()[1:]]
 scanned = [r for r in rows if r[0] == "307" and "stand_count" in r and "Scanner crew" in r]
 check(len(scanned) == 1 and "250" in scanned[0], f"the scanned plot 307 got 250 plants from the keypad ({scanned})")
+# --- Sync over the network, in the real app ----------------------------------
+# The station's app serves (its switch on the Station screen); a device syncs
+# with it; the Station screen then lists that device as synced today. And a
+# device's app pairs with a station by address and code and syncs with one tap.
+import socket  # noqa: E402
+
+
+def free_port():
+    s = socket.socket()
+    s.bind(("127.0.0.1", 0))
+    port = s.getsockname()[1]
+    s.close()
+    return port
+
+
+sdata = os.path.join(work, "sync_station")
+os.makedirs(sdata)
+sstation = os.path.join(sdata, "oats.furrow")
+run("trial", "new", "--plan", plan, "--db", sstation)
+d1, d2 = os.path.join(work, "sync_dev1"), os.path.join(work, "sync_dev2")
+for d, label in ((d1, "Tablet A"), (d2, "Tablet B")):
+    os.makedirs(d)
+    run("trial", "copy", "--from", sstation, "--db", os.path.join(d, "oats.furrow"), "--by", "Manager", "--label", label)
+    for plot, value in (("101", "91"), ("102", "92")):
+        run("record", "--db", os.path.join(d, "oats.furrow"), "--plot", plot, "--trait", "stand_count", "--value",
+            str(200 + int(value)), "--observer", label)
+dev1_id = json.loads(run("device", "list", "--db", sstation, "--json"))
+dev1_id = [x["device"] for x in dev1_id if x.get("label") == "Tablet A"][0]
+port = free_port()
+targets = os.path.join(work, "serve_targets.txt")
+script = tap_function(targets) + f"""
+'{furrow}' field --db '{sstation}' --observer 'Station manager' --screen station --targets-out '{targets}' &
+app=$!
+sleep 3
+xdotool search --sync --name '^Furrow' windowfocus --sync
+xdotool mousemove 640 790
+sleep 1
+tap 'Serve devices on the network'
+sleep 1.5
+'{furrow}' pair --data '{d1}' --station 127.0.0.1:{port} --code 246810 > '{work}/pair1.out' 2>&1
+sleep 3
+xdotool mousemove 640 780
+sleep 1
+cp '{targets}' '{work}/serve_targets_after.txt'
+kill $app
+wait $app
+"""
+p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c", script],
+                   env=dict(os.environ, FURROW_DATA_DIR=sdata, FURROW_SYNC_PORT=str(port), FURROW_PAIRING_CODE="246810"),
+                   capture_output=True, text=True, timeout=120)
+paired = open(os.path.join(work, "pair1.out"), encoding="utf-8").read()
+check("synced: sent 2 values" in paired, f"the app's Serve switch took a device's sync ({paired.strip()[:200]})")
+after = open(os.path.join(work, "serve_targets_after.txt"), encoding="utf-8").read()
+check(f"synced today {dev1_id}" in after, "the Station screen lists Tablet A as synced today")
+check("not synced today" in after, "and the other device as not synced")
+
+# The device's app: pair by address and code, then one tap.
+port2 = free_port()
+serve = subprocess.Popen([furrow, "serve", "--data", sdata, "--listen", "127.0.0.1", "--port", str(port2), "--code",
+                          "135790"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+for line in serve.stdout:
+    if "stop with" in line:
+        break
+targets = os.path.join(work, "device_targets.txt")
+shot = os.path.join(work, "device_synced.png")
+script = tap_function(targets) + f"""
+'{furrow}' field --db '{os.path.join(d2, "oats.furrow")}' --observer 'Tablet B crew' --screen station --targets-out '{targets}' &
+app=$!
+sleep 3
+xdotool search --sync --name '^Furrow' windowfocus --sync
+xdotool mousemove 640 790
+sleep 1
+tap 'station address'
+xdotool type --delay 20 '127.0.0.1:{port2}'
+tap 'pairing code'
+xdotool type --delay 20 '135790'
+sleep 0.5
+tap 'Pair and sync'
+sleep 3
+xdotool mousemove 600 700
+sleep 1
+cp '{targets}' '{work}/device_targets_after.txt'
+tap 'Sync with station'
+sleep 2
+kill $app
+wait $app
+"""
+p = subprocess.run(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24 -noreset", "sh", "-c", script],
+                   env=dict(os.environ, FURROW_DATA_DIR=d2), capture_output=True, text=True, timeout=120)
+serve.terminate()
+serve.communicate(timeout=30)
+pairing = os.path.join(d2, "station.json")
+check(os.path.exists(pairing) and json.load(open(pairing))["token"], "the device app paired: its station is kept")
+after = open(os.path.join(work, "device_targets_after.txt"), encoding="utf-8").read()
+check("Sync with station" in after, "after pairing the screen offers Sync with station")
+log = [json.loads(line) for line in open(os.path.join(sdata, "sync", "log.jsonl"), encoding="utf-8")]
+synced_b = [e for e in log if e["event"] == "synced" and e.get("device") == "Tablet B"]
+check(len(synced_b) >= 2 and synced_b[0]["received"] == 2, f"the station took Tablet B's 2 values, then a second sync ({len(synced_b)})")
+rows = run("export", "--db", sstation, "--long")
+check(rows.count("Tablet B") == 2 and rows.count("Tablet A") == 2, "the station holds both tablets' values once")
 check.finish()

@@ -36,6 +36,62 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
     first = false;
     if (solid_button(b.label, ImVec2(w, h), plain, &st->targets) && !v.importing) action = StationAction{b.kind, 0, 0, {}};
   }
+  // Sync over the local network: a device syncs, the station serves.
+  const auto& sy = v.sync;
+  if (sy.device_trial) {
+    ImGui::Spacing();
+    ImGui::Separator();
+    if (!sy.paired_with.empty() && !st->pairing) {
+      ImGui::TextWrapped("Station: %s", sy.paired_with.c_str());
+      if (solid_button("Sync with station", ImVec2(button_width("Sync with station", scale), h), plain, &st->targets) &&
+          !sy.syncing && !v.importing)
+        action = StationAction{StationAction::Kind::sync_now, 0, 0, {}, {}, {}, {}};
+      flow_next(button_width("Pair with another station", scale));
+      if (solid_button("Pair with another station", ImVec2(button_width("Pair with another station", scale), h), plain,
+                       &st->targets))
+        st->pairing = true;
+    } else {
+      ImGui::TextWrapped("Pair with the station once: type the address and the pairing code the station shows.");
+      ImGui::PushStyleVar(ImGuiStyleVar_FramePadding, ImVec2(ImGui::GetStyle().FramePadding.x, (h - ImGui::GetFontSize()) / 2));
+      ImGui::PushItemWidth(std::min(width, 12 * h));
+      ImGui::InputTextWithHint("##station_address", "station address, e.g. 192.168.1.20", st->station_address,
+                               sizeof st->station_address);
+      note_target("station address", &st->targets);
+      ImGui::SameLine();
+      ImGui::TextUnformatted("station address");
+      ImGui::InputTextWithHint("##pairing_code", "pairing code", st->pairing_code, sizeof st->pairing_code,
+                               ImGuiInputTextFlags_CharsDecimal);
+      note_target("pairing code", &st->targets);
+      ImGui::SameLine();
+      ImGui::TextUnformatted("pairing code");
+      ImGui::PopItemWidth();
+      ImGui::PopStyleVar();
+      if (solid_button("Pair and sync", ImVec2(button_width("Pair and sync", scale), h), plain, &st->targets) &&
+          !sy.syncing && st->station_address[0] && st->pairing_code[0])
+        action = StationAction{StationAction::Kind::sync_now, 0, 0, {}, {}, st->station_address, st->pairing_code};
+    }
+    if (sy.syncing) {
+      char overlay[120];
+      std::snprintf(overlay, sizeof overlay, "Syncing: %lld of %lld values sent", sy.done, sy.total);
+      ImGui::ProgressBar(sy.total ? static_cast<float>(sy.done) / static_cast<float>(sy.total) : 0.0f, ImVec2(width, h),
+                         overlay);
+    }
+  }
+  if (sy.station_trial) {
+    ImGui::Spacing();
+    ImGui::Separator();
+    if (!sy.serving) {
+      if (solid_button("Serve devices on the network", ImVec2(button_width("Serve devices on the network", scale), h),
+                       plain, &st->targets))
+        action = StationAction{StationAction::Kind::start_serving, 0, 0, {}, {}, {}, {}};
+    } else {
+      banner(sy.serving_words.c_str(), t.saved, t.saved_text);
+      if (sy.sessions) ImGui::Text("%d device(s) syncing now", sy.sessions);
+      if (solid_button("Stop serving", ImVec2(button_width("Stop serving", scale), h), plain, &st->targets))
+        action = StationAction{StationAction::Kind::stop_serving, 0, 0, {}, {}, {}, {}};
+    }
+  }
+
   // The outcome goes below the actions, so that they stay where the finger expects them.
   if (!st->message.empty())
     banner(st->message.c_str(), st->message_is_problem ? t.refuse : t.saved,
@@ -132,6 +188,16 @@ std::optional<StationAction> draw_station_screen(const StationView& v, const The
                          key_fingerprint(e.public_key).c_str());
       ImGui::TextWrapped("Enrolled %s by %s; %s in the log; %s", when(e.enrolled_at).c_str(), e.enrolled_by.c_str(),
                          count_of(d.rows_in_log, "value").c_str(), brought.c_str());
+      for (const DeviceDay& day : v.sync.day)
+        if (day.device_id == e.device_id && !e.revoked()) {
+          const std::string words = day.synced_today ? "Synced today, last " + when(day.last_sync) + "; brought " +
+                                                           count_of(day.rows_today, "value") + " today"
+                                                     : "Not synced today" + (day.last_sync.empty() ? std::string()
+                                                                                                  : " (last " + when(day.last_sync) + ")");
+          if (day.synced_today) ImGui::TextWrapped("%s", words.c_str());
+          else banner(words.c_str(), t.confirm, t.confirm_text);
+          note_target((day.synced_today ? "synced today " : "not synced today ") + e.device_id, &st->targets);
+        }
       if (e.revoked()) {
         banner(("Revoked " + when(*e.revoked_at) + " by " + e.revoked_by.value_or("?") +
                 ": its later bundles are refused")
