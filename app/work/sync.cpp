@@ -137,6 +137,10 @@ SyncStation::SyncStation(StationConfig config) : config_(std::move(config)) {
   }
 }
 
+void SyncStation::log_refusal(const std::string& peer, const std::string& why) {
+  log({"", peer, "refused", "", "", "", "", 0, 0, why});
+}
+
 void SyncStation::log(const SyncLogEntry& e) {
   json j = {{"at", e.at.empty() ? utc_now() : e.at}, {"peer", e.peer}, {"event", e.event}};
   if (!e.trial_uid.empty()) j["trial_uid"] = e.trial_uid;
@@ -234,6 +238,16 @@ void SyncStation::backups_due(const std::string& trial_path) {
 }
 
 void SyncStation::serve(ByteStream& stream, const std::string& peer) {
+  // Whatever a peer sends, a session ends in words in the log, never by
+  // taking the station down.
+  try {
+    serve_session(stream, peer);
+  } catch (const std::exception& e) {
+    log({"", peer, "refused", "", "", "", "", 0, 0, std::string("a message the station could not read (") + e.what() + ")"});
+  }
+}
+
+void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
   ++active_;
   struct Done {
     std::atomic<int>& n;
@@ -520,6 +534,8 @@ std::vector<std::string> device_trial_files(const std::string& folder) {
   return out;
 }
 
+Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& request, SyncProgress* progress);
+
 std::string SyncResult::summary() const {
   std::int64_t sent = 0, received = 0, settlements = 0;
   int refused = 0;
@@ -540,6 +556,14 @@ std::string SyncResult::summary() const {
 }
 
 Result<SyncResult> sync_as_device(ByteStream& stream, const SyncRequest& request, SyncProgress* progress) {
+  try {
+    return sync_device_session(stream, request, progress);
+  } catch (const std::exception& e) {
+    return make_problem(std::string("the station sent a message this device could not read (") + e.what() + ")");
+  }
+}
+
+Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& request, SyncProgress* progress) {
   struct Local {
     std::string path;
     OpenTrial open;
@@ -715,20 +739,45 @@ Result<std::unique_ptr<SyncServer>> SyncServer::start(StationConfig config, cons
   server->station_ = std::make_unique<SyncStation>(std::move(config));
   server->port_ = listener->port();
   server->thread_ = std::thread([s = server.get(), l = std::make_shared<TcpListener>(std::move(*listener)), timeout_s]() {
-    std::vector<std::thread> workers;
+    struct Worker {
+      std::thread thread;
+      std::shared_ptr<std::atomic<bool>> finished;
+    };
+    std::vector<Worker> workers;
     std::time_t last_check = 0;
     while (!s->stop_.load()) {
       if (std::time(nullptr) - last_check >= 60) {
         last_check = std::time(nullptr);
         s->station_->backups_due();
       }
+      // Finished sessions' threads are joined as they end.
+      for (auto it = workers.begin(); it != workers.end();) {
+        if (it->finished->load()) {
+          it->thread.join();
+          it = workers.erase(it);
+        } else {
+          ++it;
+        }
+      }
       auto conn = l->accept(200);
       if (!conn || !conn->is_open()) continue;
+      if (workers.size() >= kMaxSyncSessions) {
+        // A station holds a bounded number of sessions: a flood of idle
+        // connections cannot take all its threads.
+        s->station_->log_refusal(conn->peer(), "too many connections at once (" + std::to_string(kMaxSyncSessions) +
+                                                   "); the device is asked to try again");
+        continue;   // closed as it goes out of scope
+      }
       conn->set_timeout(timeout_s * 1000);
       auto stream = std::make_shared<TcpBytes>(std::move(*conn));
-      workers.emplace_back([station = s->station_.get(), stream]() { station->serve(*stream, stream->peer()); });
+      auto finished = std::make_shared<std::atomic<bool>>(false);
+      workers.push_back({std::thread([station = s->station_.get(), stream, finished]() {
+                           station->serve(*stream, stream->peer());
+                           *finished = true;
+                         }),
+                         finished});
     }
-    for (auto& w : workers) w.join();
+    for (auto& w : workers) w.thread.join();
   });
   return server;
 }

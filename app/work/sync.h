@@ -51,6 +51,7 @@ namespace furrow {
 
 inline constexpr int kDefaultSyncPort = 47110;
 inline constexpr std::int64_t kSyncChunkRows = 2000;
+inline constexpr size_t kMaxSyncSessions = 32;   // sessions a station holds at once
 
 // --- The station ---------------------------------------------------------
 
@@ -84,8 +85,10 @@ class SyncStation {
   void backups_due(const std::string& trial_path = {});
   // Sessions running now.
   int active() const { return active_.load(); }
+  void log_refusal(const std::string& peer, const std::string& why);
 
  private:
+  void serve_session(ByteStream& stream, const std::string& peer);
   void log(const SyncLogEntry& e);
   struct Pairing;
   bool check_token(const std::string& token);

@@ -157,17 +157,19 @@ for name, bad in (("a surrogate", b"\xed\xa0\x80"), ("an overlong form", b"\xc0\
     ok = r.returncode == 2 or (r.returncode == 0 and json.loads(r.stdout) is not None)
     check(ok and r.returncode != 134, f"{name} in a level name: no abort (exit {r.returncode})")
 
-# 5. A bundle's observer and note with a terminal escape and invalid UTF-8: the
-#    station's conflicts list shows neither raw.
+# 5. Control characters are refused at entry (and in bundles); invalid UTF-8
+#    from a bundle is shown replaced; rows an older version saved with a
+#    terminal escape are shown without it.
 run("trial", "copy", "--from", p("t.furrow"), "--db", p("dev2.furrow"), "--by", "Test manager", check=True)
-evil = b"\x1b[2J\x1b]0;owned\x07Eve\xed\xa0\x80"
+evil = b"\x1b[2J\x1b]0;owned\x07Eve"
+r = subprocess.run([furrow.encode(), b"record", b"--db", p("dev2.furrow").encode(), b"--plot", b"101", b"--trait",
+                    b"height_cm", b"--value", b"95", b"--observer", evil, b"--note", evil], capture_output=True)
+check(r.returncode == 2 and b"control character" in r.stderr, f"a terminal escape in a name is refused ({r.stderr[:120]!r})")
+bad_utf8 = b"Eve\xed\xa0\x80"
 subprocess.run([furrow.encode(), b"record", b"--db", p("dev2.furrow").encode(), b"--plot", b"101", b"--trait",
-                b"height_cm", b"--value", b"95", b"--observer", evil, b"--note", evil], check=True, capture_output=True)
+                b"height_cm", b"--value", b"95", b"--observer", bad_utf8, b"--note", bad_utf8], check=True, capture_output=True)
 run("bundle", "--db", p("dev2.furrow"), "--out", p("dev2.bundle"), check=True)
 run("merge", "--db", p("t.furrow"), p("dev.bundle"), p("dev2.bundle"), check=True)
-r = subprocess.run([furrow, "conflicts", "--db", p("t.furrow")], capture_output=True)
-check(r.returncode == 0 and b"\x1b" not in r.stdout and b"\x07" not in r.stdout and b"Eve" in r.stdout,
-      f"conflicts shows the names without control characters ({r.stdout[:200]!r})")
 r = subprocess.run([furrow, "conflicts", "--db", p("t.furrow"), "--json"], capture_output=True)
 try:
     rows = json.loads(r.stdout)
@@ -176,6 +178,21 @@ except ValueError:
     parsed = False
 check(r.returncode == 0 and parsed and b"not valid UTF-8" in r.stderr,
       f"conflicts --json with invalid UTF-8: valid JSON, the replacement said ({r.returncode}, {r.stderr.strip()!r})")
+# A row as an older Furrow could have saved it, written straight into the station's log.
+import sqlite3  # noqa: E402
+c = sqlite3.connect(p("t.furrow"))
+station_id = c.execute("SELECT device_id FROM this_device").fetchone()[0]
+seq = c.execute("SELECT coalesce(max(sequence), 0) + 1 FROM observation WHERE device_id = ?", (station_id,)).fetchone()[0]
+plot_id = c.execute("SELECT id FROM plot WHERE label = '101'").fetchone()[0]
+trait_id = c.execute("SELECT id FROM trait WHERE code = 'height_cm'").fetchone()[0]
+c.execute("INSERT INTO observation (device_id, sequence, plot_id, trait_id, occasion, value, number, missing_reason, note, "
+          "observer, recorded_at, confirmed_checks) VALUES (?,?,?,?,1,'97',97,NULL,?,?,'2026-06-01T09:00:00.000Z','')",
+          (station_id, seq, plot_id, trait_id, evil.decode(), evil.decode()))
+c.commit()
+c.close()
+r = subprocess.run([furrow, "conflicts", "--db", p("t.furrow")], capture_output=True)
+check(r.returncode == 0 and b"\x1b" not in r.stdout and b"\x07" not in r.stdout and b"Eve" in r.stdout,
+      f"conflicts shows an older row's names without control characters ({r.stdout[:200]!r})")
 # 6. A note or an observer that a spreadsheet would run as a formula.
 run("record", "--db", p("t.furrow"), "--plot", "110", "--trait", "height_cm", "--value", "88", "--observer", "@SUM(A1)",
     "--note", "=HYPERLINK(\"http://x\")", check=True)

@@ -316,21 +316,21 @@ st_db = os.path.join(st_dir, "trial.furrow")
 dev_dir = os.path.join(fx_b, "dev0")
 dev_db = os.path.join(dev_dir, "trial.furrow")
 dev_id = device_id_of(dev_db)
-station = Station(st_dir, timeout=3)
+station = Station(st_dir, timeout=10)
 # The other device's rows are at the station: they travel down to dev0 (--others).
 run("pair", "--data", os.path.join(fx_b, "dev1"), "--station", station.address(), "--code", CODE)
 station.stop()
 copy_db(st_db, base)
 dev_base = os.path.join(work, "cuts-device.furrow")
 copy_db(dev_db, dev_base)
-station = Station(st_dir, timeout=3)
+station = Station(st_dir, timeout=10)
 r = run("pair", "--data", dev_dir, "--station", station.address(), "--code", CODE, "--others")
 full_rows = count_of(st_db)
 station.stop()
 # The size of one whole sync, for the cut offsets.
 copy_db(base, st_db)
 copy_db(dev_base, dev_db)
-station = Station(st_dir, timeout=3)
+station = Station(st_dir, timeout=10)
 measure = Proxy(station.port)
 r = run("sync", "--data", dev_dir, "--station", f"127.0.0.1:{measure.port}", "--others")
 measure.thread.join(10)
@@ -344,10 +344,10 @@ for k in range(cuts):
     station.stop()
     copy_db(base, st_db)
     copy_db(dev_base, dev_db)
-    station = Station(st_dir, timeout=3)
+    station = Station(st_dir, timeout=10)
     offset = rng.randrange(0, total_bytes)
     p = Proxy(station.port, cut=offset)
-    cut_run = run("sync", "--data", dev_dir, "--station", f"127.0.0.1:{p.port}", "--others", "--timeout", "3")
+    cut_run = run("sync", "--data", dev_dir, "--station", f"127.0.0.1:{p.port}", "--others", "--timeout", "10")
     p.thread.join(10)
     time.sleep(0.05)
     ok = integrity(st_db) == "ok" and integrity(dev_db) == "ok"
@@ -355,7 +355,7 @@ for k in range(cuts):
     ok = ok and n == mx   # the station's rows of the device: 1..n, no gap, none twice
     cut_failed += cut_run.returncode != 0
     partial += 0 < n < 5000
-    again = run("sync", "--data", dev_dir, "--station", station.address(), "--others", "--timeout", "3")
+    again = run("sync", "--data", dev_dir, "--station", station.address(), "--others", "--timeout", "10")
     n2, mx2 = count_of(st_db, dev_id)
     ok = ok and again.returncode == 0 and n2 == mx2 == 5000 and count_of(st_db) == full_rows
     ok = ok and count_of(dev_db) == full_rows and integrity(st_db) == "ok" and integrity(dev_db) == "ok"
@@ -391,9 +391,9 @@ kill_bad = []
 copy_db(base, st_db)
 copy_db(dev_base, dev_db)
 for k in range(kills):
-    station = Station(st_dir, timeout=3)
+    station = Station(st_dir, timeout=10)
     sync = subprocess.Popen([furrow, "sync", "--data", dev_dir, "--station", station.address(), "--others",
-                             "--timeout", "3"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+                             "--timeout", "10"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     time.sleep(rng.random() * 0.4)
     station.kill()
     sync.communicate(timeout=60)
@@ -404,7 +404,7 @@ for k in range(kills):
     if k % 10 == 9:   # now and then start from nothing again, so that kills fall early in a sync too
         copy_db(base, st_db)
         copy_db(dev_base, dev_db)
-station = Station(st_dir, timeout=3)
+station = Station(st_dir, timeout=10)
 again = run("sync", "--data", dev_dir, "--station", station.address(), "--others")
 n2, mx2 = count_of(st_db, dev_id)
 check(not kill_bad and again.returncode == 0 and n2 == mx2 == 5000 and count_of(st_db) == full_rows
