@@ -67,6 +67,13 @@ int sync_with(const SyncCliRequest& r, bool pairing) {
   request.token = pairing ? std::string() : where.token;
   request.code = r.code;
   request.others = r.others;
+  request.on_paired = [&](const std::string& token) {
+    StationPairing paired = where;
+    paired.token = token;
+    paired.paired_at = utc_now();
+    if (auto s = save_pairing(*folder, paired); !s) std::cerr << "cannot save the pairing: " << s.problem().message << "\n";
+    else std::cout << "paired with the station at " << where.host << ":" << where.port << "\n";
+  };
   SyncProgress progress;
   auto result = sync_over_network(where.host, where.port, r.timeout_s, request, &progress);
   if (!result) {
@@ -74,11 +81,11 @@ int sync_with(const SyncCliRequest& r, bool pairing) {
     return fail("sync with " + where.host + ":" + std::to_string(where.port) + " stopped: " + why +
                 (why.find("refused") == std::string::npos ? "; what was merged before stays (sync again to go on)" : ""));
   }
-  if (!result->token.empty() && (result->token != where.token || pairing)) {
-    where.token = result->token;
+  if (!r.station.empty() && !pairing && result->token == where.token && (!*saved || (*saved)->host != where.host ||
+                                                                        (*saved)->port != where.port)) {
+    // The same pairing at a new address (the station moved): kept.
     where.paired_at = utc_now();
-    if (auto s = save_pairing(*folder, where); !s) return fail("cannot save the pairing: " + s.problem().message);
-    if (pairing) std::cout << "paired with the station at " << where.host << ":" << where.port << "\n";
+    (void)save_pairing(*folder, where);
   }
   int refused = 0;
   for (const SyncTrialResult& t : result->trials) {

@@ -327,8 +327,6 @@ class FieldApp final : public FieldAppState {
       if (sync_job_->done()) {
         auto r = sync_job_->result();
         if (r) {
-          StationPairing pairing{sync_job_->host(), sync_job_->port(), r->token, utc_now()};
-          if (!r->token.empty()) (void)save_pairing(folder_, pairing);
           std::string refusals;
           for (const SyncTrialResult& tr : r->trials)
             if (!tr.accepted) refusals += "; " + tr.name + " refused: " + tr.refusal;
@@ -517,6 +515,9 @@ class FieldApp final : public FieldAppState {
           request.trial_paths.push_back(trial_path_);
         request.token = token;
         request.code = action->code;
+        request.on_paired = [folder = folder_, host, port](const std::string& new_token) {
+          (void)save_pairing(folder, StationPairing{host, port, new_token, utc_now()});
+        };
         sync_job_ = std::make_unique<SyncJob>(host, port, std::move(request));
         station_ui_.message.clear();
         break;

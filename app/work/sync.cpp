@@ -629,6 +629,7 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
   auto welcome = receive_json(ch, "welcome");
   if (!welcome) return make_problem("the station refused: " + welcome.problem().message);
   result.token = text_of(*welcome, "token").empty() ? request.token : text_of(*welcome, "token");
+  if (!text_of(*welcome, "token").empty() && request.on_paired) request.on_paired(result.token);
 
   std::map<std::string, json> verdict;
   if ((*welcome)["trials"].is_array())

@@ -36,6 +36,7 @@
 
 #include <atomic>
 #include <cstdint>
+#include <functional>
 #include <map>
 #include <memory>
 #include <mutex>
@@ -173,6 +174,9 @@ struct SyncRequest {
   std::string token;                      // from an earlier pairing, else empty
   std::string code;                       // the station's pairing code (first time)
   bool others = false;                    // also receive other devices' rows
+  // Called as soon as the station hands out a token (a new pairing), before
+  // any data moves: a sync cut later must not lose the pairing.
+  std::function<void(const std::string& token)> on_paired;
 };
 // Runs the device's side over `stream` (connected to the station).
 Result<SyncResult> sync_as_device(ByteStream& stream, const SyncRequest& request, SyncProgress* progress);

@@ -16,7 +16,6 @@ sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."
 furrow, fixture, work = sys.argv[1:4]
 shutil.rmtree(work, ignore_errors=True)
 os.makedirs(work)
-sys.argv = [sys.argv[0], furrow, fixture, os.path.join(work, "t")]
 CODE = "271828"
 
 
@@ -62,7 +61,7 @@ p.wait()
 print(f"ten devices of 20,000 values at once: {dt:.2f} s (exit codes {set(codes)})")
 
 # Resume after a cut at 90 % of a whole sync's bytes.
-from sync_test import Proxy  # noqa: E402  (the test's proxy)
+from sync_proxy import Proxy  # noqa: E402  (the tests' proxy)
 
 d = fixture_dir("resume", 1, 20000)
 station_data = os.path.join(d, "station")

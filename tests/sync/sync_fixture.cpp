@@ -64,12 +64,14 @@ int main(int argc, char** argv) {
       auto ins = open->db.prepare("INSERT INTO observation VALUES (?,?,?,?,?,?,?,NULL,'',?,?,'')");
       if (!ins) return ins.problem();
       std::int64_t seq = 0;
+      // Occasion d mod 5 + 1 first; a longer day goes on to the next occasions.
+      for (int j = 0; j < 5 && seq < rows; ++j)
       for (size_t k = 0; k < t.trait_ids.size() && seq < rows; ++k)
         for (size_t p = 0; p < t.plot_ids.size() && seq < rows; ++p) {
           char text[16];
           std::snprintf(text, sizeof text, "%.1f", 80 + static_cast<double>((p * 37 + k * 11 + d * 7) % 600) / 10.0);
           ins->reset();
-          ins->bind(1, t.device_id).bind(2, ++seq).bind(3, t.plot_ids[p]).bind(4, t.trait_ids[k]).bind(5, d % 5 + 1)
+          ins->bind(1, t.device_id).bind(2, ++seq).bind(3, t.plot_ids[p]).bind(4, t.trait_ids[k]).bind(5, (d + j) % 5 + 1)
               .bind(6, std::string(text)).bind(7, std::strtod(text, nullptr)).bind(8, "crew " + std::to_string(d))
               .bind(9, "2026-06-1" + std::to_string(d % 10) + "T09:00:00.000Z");
           if (auto r = ins->run(); !r) return r;

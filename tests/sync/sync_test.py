@@ -32,7 +32,9 @@ import threading
 import time
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "cli"))
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from checks import Checks  # noqa: E402
+from sync_proxy import Proxy  # noqa: E402
 
 furrow, fixture, work = sys.argv[1:4]
 quick = "--quick" in sys.argv
@@ -56,15 +58,15 @@ def make_fixture(name, devices, rows):
 class Station:
     """furrow serve on 127.0.0.1, any free port."""
 
-    def __init__(self, data, timeout=30, backup_to=None):
-        self.data, self.timeout, self.backup_to = data, timeout, backup_to
+    def __init__(self, data, timeout=30, backup_to=None, keep=14):
+        self.data, self.timeout, self.backup_to, self.keep = data, timeout, backup_to, keep
         self.start()
 
     def start(self):
         args = [furrow, "serve", "--data", self.data, "--listen", "127.0.0.1", "--port", "0", "--code", CODE,
                 "--timeout", str(self.timeout)]
         if self.backup_to:
-            args += ["--backup-to", self.backup_to]
+            args += ["--backup-to", self.backup_to, "--keep", str(self.keep)]
         self.proc = subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
         self.port = None
         for line in self.proc.stdout:
@@ -239,76 +241,6 @@ station.stop()
 
 
 # --- B. A proxy that cuts and stalls -----------------------------------------
-class Proxy:
-    """Forwards one connection to the station; after `cut` bytes in total
-    (both directions) it closes both sides; `stall_at` stops forwarding for
-    good at that byte (the peers time out); `flip_at` alters one byte of the
-    device's stream; `record` keeps what the device sent."""
-
-    def __init__(self, target_port, cut=None, stall_at=None, flip_at=None, record=None):
-        self.target_port, self.cut, self.stall_at, self.flip_at, self.record = target_port, cut, stall_at, flip_at, record
-        self.sock = socket.socket()
-        self.sock.bind(("127.0.0.1", 0))
-        self.sock.listen(4)
-        self.port = self.sock.getsockname()[1]
-        self.moved = 0
-        self.lock = threading.Lock()
-        self.thread = threading.Thread(target=self.serve, daemon=True)
-        self.thread.start()
-
-    def serve(self):
-        try:
-            dev, _ = self.sock.accept()
-        except OSError:
-            return
-        st = socket.create_connection(("127.0.0.1", self.target_port))
-        done = threading.Event()
-
-        def pump(a, b, from_device):
-            sent_by_device = 0
-            try:
-                while not done.is_set():
-                    data = a.recv(4096)
-                    if not data:
-                        break
-                    with self.lock:
-                        start = self.moved
-                        self.moved += len(data)
-                    if from_device and self.record is not None:
-                        self.record.append(data)
-                    if from_device and self.flip_at is not None and sent_by_device <= self.flip_at < sent_by_device + len(data):
-                        k = self.flip_at - sent_by_device
-                        data = data[:k] + bytes([data[k] ^ 0x40]) + data[k + 1:]
-                    if from_device:
-                        sent_by_device += len(data)
-                    if self.stall_at is not None and start + len(data) > self.stall_at:
-                        b.sendall(data[:max(0, self.stall_at - start)])
-                        done.wait(60)
-                        break
-                    if self.cut is not None and start + len(data) > self.cut:
-                        b.sendall(data[:max(0, self.cut - start)])
-                        break
-                    b.sendall(data)
-            except OSError:
-                pass
-            done.set()
-            for s in (a, b):
-                try:
-                    s.shutdown(socket.SHUT_RDWR)
-                except OSError:
-                    pass
-
-        t1 = threading.Thread(target=pump, args=(dev, st, True), daemon=True)
-        t2 = threading.Thread(target=pump, args=(st, dev, False), daemon=True)
-        t1.start()
-        t2.start()
-        t1.join()
-        t2.join()
-        dev.close()
-        st.close()
-        self.sock.close()
-
-
 fx_b = make_fixture("cuts", 2, 5000)
 base = os.path.join(work, "cuts-base.furrow")
 st_dir = os.path.join(fx_b, "station")
@@ -478,11 +410,13 @@ check(sum(1 for e in refused if "did not open" in e.get("detail", "")) >= 2,
 fx_e = make_fixture("backup", 10, 2000)
 st_dir = os.path.join(fx_e, "station")
 st_db = os.path.join(st_dir, "trial.furrow")
-station = Station(st_dir)
+served_backups = os.path.join(work, "served-backups")
+station = Station(st_dir, backup_to=served_backups, keep=3)
 for i in range(3):   # some rows are there before the backup starts
     run("pair", "--data", os.path.join(fx_e, f"dev{i}"), "--station", station.address(), "--code", CODE)
+# Ten devices syncing at once (three of them again, with nothing new).
 procs = [subprocess.Popen([furrow, "pair", "--data", os.path.join(fx_e, f"dev{i}"), "--station", station.address(),
-                           "--code", CODE], stdout=subprocess.PIPE, stderr=subprocess.PIPE) for i in range(3, 10)]
+                           "--code", CODE], stdout=subprocess.PIPE, stderr=subprocess.PIPE) for i in range(10)]
 time.sleep(0.2)
 committed = count_of(st_db)
 bk = os.path.join(work, "backups")
@@ -495,6 +429,13 @@ check(r.returncode == 0 and "integrity checked" in r.stdout and integrity(backup
       f"E: a backup taken while seven devices sync passes the integrity check ({r.stdout.strip()[:120]})")
 check(held >= committed, f"E: it holds every row committed before it started ({held} >= {committed})")
 station.stop()
+# The station's own backups: after each sync that brought values, rotated to the newest three, each checked.
+kept = sorted(os.listdir(served_backups))
+check(len(kept) == 3 and all(integrity(os.path.join(served_backups, k)) == "ok" for k in kept),
+      f"E: serve --backup-to kept the newest 3 backups, each intact ({kept})")
+check(count_of(os.path.join(served_backups, kept[-1])) == 20000, "E: the newest holds every row of the day")
+backup_lines = [e for e in log_of(st_dir) if e["event"] == "backup"]
+check(len(backup_lines) >= 4, f"E: each backup is in the station's log ({len(backup_lines)})")
 restored = os.path.join(work, "restored", "trial.furrow")
 os.makedirs(os.path.dirname(restored))
 r = run("restore", "--from", backup_file, "--db", restored)
