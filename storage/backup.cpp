@@ -73,7 +73,7 @@ std::vector<std::string> backups_of(const std::string& folder, const std::string
   std::error_code ec;
   for (const auto& e : fs::directory_iterator(folder, ec)) {
     const std::string name = e.path().filename().string();
-    // stem-YYYYMMDD-HHMMSS.mmmZ.furrow
+    // <stem>-YYYYMMDD-HHMMSS.mmmZ.furrow, where <stem> is the file's name and its trial's identity
     if (name.size() == stem.size() + 1 + 20 + 7 && name.rfind(stem + "-", 0) == 0 &&
         name.compare(name.size() - 7, 7, ".furrow") == 0 && name[stem.size() + 9] == '-')
       out.push_back(e.path().string());
@@ -83,6 +83,18 @@ std::vector<std::string> backups_of(const std::string& folder, const std::string
 }
 
 Result<std::int64_t> verify_backup(const std::string& path) {
+  // Reading a file of ours makes SQLite's -shm beside it: removed again if it was not there.
+  std::error_code ec;
+  const bool had_wal = fs::exists(path + "-wal", ec), had_shm = fs::exists(path + "-shm", ec);
+  struct Tidy {
+    std::string path;
+    bool had_wal, had_shm;
+    ~Tidy() {
+      std::error_code e;
+      if (!had_wal && fs::exists(path + "-wal", e) && fs::file_size(path + "-wal", e) == 0) fs::remove(path + "-wal", e);
+      if (!had_shm) fs::remove(path + "-shm", e);
+    }
+  } tidy{path, had_wal, had_shm};
   {
     auto db = Database::open_looking(path);
     if (!db) return make_problem(path + ": " + db.problem().message);
@@ -102,9 +114,15 @@ Result<BackupCopy> backup_trial(const std::string& trial_path, const std::string
   std::error_code ec;
   fs::create_directories(folder, ec);
   if (ec) return make_problem("cannot make the backup folder " + folder + ": " + ec.message());
+  auto trial = open_trial_database(trial_path, Access::read_only);
+  if (!trial) return make_problem(trial_path + ": " + trial.problem().message);
   auto src = Database::open_looking(trial_path);
   if (!src) return make_problem(trial_path + ": " + src.problem().message);
-  const std::string stem = fs::path(trial_path).stem().string();
+  // Named by the file and its trial's identity and role: backups of two
+  // trials (or of the station's file and a device's copy) with one file name
+  // are never taken for each other when old ones are removed.
+  const std::string stem = fs::path(trial_path).stem().string() + "-" + trial->trial.uid.substr(0, 8) +
+                           (trial->trial.role == "station" ? "" : "-" + trial->trial.device_id.substr(0, 8));
   std::string final_path = (fs::path(folder) / (stem + "-" + stamp() + ".furrow")).string();
   while (fs::exists(final_path)) {   // two backups in one millisecond
     sqlite3_sleep(2);
@@ -143,13 +161,29 @@ Result<BackupCopy> backup_trial(const std::string& trial_path, const std::string
 }
 
 Status restore_trial(const std::string& backup_path, const std::string& target_path, bool replace) {
+  std::error_code ec;
+  if (!fs::is_regular_file(backup_path, ec)) return make_problem(backup_path + ": no such backup file");
+  const fs::path folder = fs::absolute(target_path, ec).parent_path();
+  if (!fs::is_directory(folder, ec)) return make_problem("the folder " + folder.string() + " does not exist");
   auto rows = verify_backup(backup_path);
   if (!rows) return rows.problem();
-  std::error_code ec;
   const bool exists = fs::exists(target_path);
   if (exists && !replace)
     return make_problem(target_path + " exists; nothing was changed (restore over it with --replace: the file is kept "
                                       "beside it)");
+  if (exists) {
+    // Only a backup of this very file: the same trial, the same role and device.
+    auto now = open_trial_database(target_path, Access::read_only);
+    auto then = open_trial_database(backup_path, Access::read_only);
+    if (now && then &&
+        (now->trial.uid != then->trial.uid || now->trial.role != then->trial.role ||
+         now->trial.device_id != then->trial.device_id))
+      return make_problem(backup_path + " is a backup of " +
+                          (now->trial.uid != then->trial.uid ? "another trial ('" + then->trial.plan.name + "')"
+                                                             : then->trial.role == "station" ? std::string("the station's file")
+                                                                                             : "a device's copy (" + then->trial.device_id + ")") +
+                          ", not of " + target_path + "; nothing was changed");
+  }
   auto src = Database::open_looking(backup_path);
   if (!src) return make_problem(backup_path + ": " + src.problem().message);
   const std::string part = target_path + ".restoring";
@@ -176,6 +210,7 @@ Status restore_trial(const std::string& backup_path, const std::string& target_p
   remove_with_sidecars(target_path + "-wal");
   std::error_code e2;
   fs::remove(target_path + "-shm", e2);
+  for (const char* side : {"-wal", "-shm", "-journal"}) fs::remove(part + side, e2);
   fs::rename(part, target_path, ec);
   if (ec) return make_problem("cannot put the restored file in place: " + ec.message());
   return ok_status();

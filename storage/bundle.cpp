@@ -527,6 +527,35 @@ Result<std::pair<BundleManifest, std::string>> bundle_for_sync(Database& db, con
 
 Result<std::map<std::string, std::int64_t>> held_without_gap(Database& db) { return holdings(db); }
 
+Result<std::string> rows_digest(Database& db, const std::string& device_id, std::int64_t upto) {
+  Hasher h;
+  auto s = db.prepare(std::string("SELECT ") + kRowColumns +
+                      " FROM observation o JOIN plot p ON p.id = o.plot_id JOIN trait t ON t.id = o.trait_id "
+                      "WHERE o.device_id = ? AND o.sequence <= ? ORDER BY o.sequence");
+  if (!s) return s.problem();
+  s->bind(1, device_id).bind(2, upto);
+  std::int64_t n = 0;
+  while (s->step()) {
+    const Row r = read_row(*s);
+    ++n;
+    // Each field with its length first: no two rows read alike.
+    for (const std::string& f : {r.plot_label, r.trait_code, std::to_string(r.sequence), std::to_string(r.occasion),
+                                 r.value.value_or("\x01"), opt_key(r.number), r.missing_reason.value_or("\x01"), r.note,
+                                 r.observer, r.recorded_at, r.confirmed_checks}) {
+      h.update(std::to_string(f.size()) + ":");
+      h.update(f);
+    }
+  }
+  if (s->failed()) return make_problem(s->error());
+  auto l = db.prepare("SELECT sequence, replaced_device_id, replaced_sequence FROM replacement WHERE device_id = ? "
+                      "AND sequence <= ? ORDER BY 1, 2, 3");
+  if (!l) return l.problem();
+  l->bind(1, device_id).bind(2, upto);
+  while (l->step()) h.update("r" + std::to_string(l->integer(0)) + "|" + l->text(1) + "|" + std::to_string(l->integer(2)) + ";");
+  if (n != upto) return std::string("incomplete:") + std::to_string(n);
+  return h.hex();
+}
+
 Status learn_station_holdings(Database& db, const std::map<std::string, std::int64_t>& held) {
   return in_transaction(db, [&]() -> Status {
     auto h = db.prepare("INSERT INTO station_holding (device_id, max_sequence) VALUES (?, ?) "

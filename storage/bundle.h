@@ -114,6 +114,10 @@ Result<std::pair<BundleManifest, std::string>> bundle_for_sync(Database& db, con
                                                                const BundleSelection& selection);
 // What `db` holds of each device's log with no gap: device id -> n (rows 1..n).
 Result<std::map<std::string, std::int64_t>> held_without_gap(Database& db);
+// A digest of `device_id`'s rows 1..upto in `db` (every field, and their
+// links): two files that hold those rows alike give the same digest. One
+// that lacks some of them gives "incomplete:<rows held>".
+Result<std::string> rows_digest(Database& db, const std::string& device_id, std::int64_t upto);
 // A device learns (from its station, in a sync) what the station holds.
 Status learn_station_holdings(Database& db, const std::map<std::string, std::int64_t>& held);
 

@@ -2,6 +2,7 @@
 
 #include <sodium.h>
 
+#include <algorithm>
 #include <cstring>
 
 namespace furrow {
@@ -41,12 +42,13 @@ Status SecureChannel::send(std::string_view message) {
   return stream_->write_all(frame);
 }
 
-Result<std::string> SecureChannel::receive() {
+Result<std::string> SecureChannel::receive(size_t max_bytes) {
   auto head = stream_->read_exact(4);
   if (!head) return head.problem();
   const auto* h = reinterpret_cast<const unsigned char*>(head->data());
   const std::uint32_t n = (std::uint32_t(h[0]) << 24) | (std::uint32_t(h[1]) << 16) | (std::uint32_t(h[2]) << 8) | h[3];
-  if (n < crypto_secretstream_xchacha20poly1305_ABYTES || n > kMaxChannelMessage + crypto_secretstream_xchacha20poly1305_ABYTES)
+  if (n < crypto_secretstream_xchacha20poly1305_ABYTES ||
+      n > std::min(max_bytes, kMaxChannelMessage) + crypto_secretstream_xchacha20poly1305_ABYTES)
     return make_problem("a message of impossible length " + std::to_string(n) + " (altered or not of this connection)");
   auto body = stream_->read_exact(n);
   if (!body) return body.problem();

@@ -33,7 +33,8 @@
 
 namespace furrow {
 
-inline constexpr size_t kMaxChannelMessage = 64u * 1024 * 1024;
+inline constexpr size_t kMaxChannelMessage = 16u * 1024 * 1024;   // a 2,000-row bundle is about 0.2 MB
+inline constexpr size_t kMaxHandshakeMessage = 64u * 1024;         // before the peer has proved who it is
 
 // Whatever carries the bytes (a TCP stream; a pair of pipes in tests).
 class ByteStream {
@@ -41,6 +42,9 @@ class ByteStream {
   virtual ~ByteStream() = default;
   virtual Status write_all(std::string_view bytes) = 0;
   virtual Result<std::string> read_exact(size_t n) = 0;
+  // Every read and write from now on must finish within `seconds` in all
+  // (0: no overall limit); a stream without a clock may ignore it.
+  virtual void set_deadline(int seconds) { (void)seconds; }
 };
 
 class SecureChannel {
@@ -60,7 +64,8 @@ class SecureChannel {
   Status send(std::string_view message);
   // A Problem when the connection fails or a message does not open
   // ("altered or not of this connection").
-  Result<std::string> receive();
+  // Messages longer than `max_bytes` are refused before they are read.
+  Result<std::string> receive(size_t max_bytes = kMaxChannelMessage);
 
  private:
   struct State;

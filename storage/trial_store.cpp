@@ -422,20 +422,27 @@ Result<OpenTrial> open_trial_database(const std::string& path, Access access) {
                             " KB free): nothing can be read or saved until space is freed");
       return make_problem(path + ": cannot be read: " + message);
     };
-    {
+    // The file is never opened here except through SQLite: closing any other
+    // handle on a database file drops the locks SQLite holds on it in this
+    // process (POSIX advisory locks belong to the process), and another
+    // program could then delete the log under the connections still open.
+    // A signed bundle (not SQLite at all) is recognised once SQLite has
+    // refused it, when no connection of ours can be on it.
+    const auto bundle_or = [&](const std::string& message) {
       std::ifstream in(path, std::ios::binary);
       char head[16] = {};
       in.read(head, sizeof head);
       if (in.gcount() == sizeof head && std::string(head, sizeof head) == "FURROW BUNDLE 3\n")
         return make_problem(path + " is a bundle, not a trial database: merge it with furrow merge");
-    }
+      return why(message);
+    };
     auto probe = Database::open_looking(path);
-    if (!probe) return why(probe.problem().message);
+    if (!probe) return bundle_or(probe.problem().message);
     auto kind = probe->prepare(
         "SELECT (SELECT application_id FROM pragma_application_id), (SELECT user_version FROM pragma_user_version), "
         "(SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name IN ('trial', 'plot', 'observation'))");
-    if (!kind) return why(kind.problem().message);
-    if (!kind->step()) return why(kind->error());
+    if (!kind) return bundle_or(kind.problem().message);
+    if (!kind->step()) return bundle_or(kind->error());
     if (kind->integer(0) == kBundleApplicationIdForTrials)
       return make_problem(path + " is a bundle, not a trial database: merge it with furrow merge");
     if (kind->integer(1) < 1 || kind->integer(2) != 3)

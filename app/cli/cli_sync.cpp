@@ -3,6 +3,8 @@
 #include <nlohmann/json.hpp>
 
 #include <csignal>
+#include <cstdio>
+#include <cstdlib>
 #include <filesystem>
 #include <ctime>
 #include <iostream>
@@ -15,6 +17,7 @@
 #include "platform/data_folder.h"
 #include "platform/net.h"
 #include "storage/backup.h"
+#include "storage/text_file.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
@@ -28,7 +31,12 @@ int fail(const std::string& message) {
 }
 
 volatile std::sig_atomic_t g_stop = 0;
-void on_stop(int) { g_stop = 1; }
+void on_stop(int) {
+  // A second Ctrl+C stops at once: every merge is one transaction, so a
+  // session cut here loses nothing that was reported merged.
+  if (g_stop) std::_Exit(130);
+  g_stop = 1;
+}
 
 Result<std::string> folder_or_default(const std::string& given) {
   if (!given.empty()) return given;
@@ -95,7 +103,11 @@ int sync_with(const SyncCliRequest& r, bool pairing) {
       std::cout << "refused: " << terminal_safe(t.refusal) << "\n";
       continue;
     }
-    std::cout << "sent " << t.sent << ", received " << t.received << " (" << t.settlements << " settlements)\n";
+    std::cout << "sent " << t.sent << (t.sent == 1 ? " value" : " values") << ", received " << t.settlements
+              << (t.settlements == 1 ? " settlement" : " settlements");
+    if (t.received > t.settlements)
+      std::cout << " and " << t.received - t.settlements << " other device value(s)" << (r.others ? "" : " they replace");
+    std::cout << "\n";
   }
   std::cout << "synced: " << result->summary() << "\n";
   return refused ? kExitFailed : 0;
@@ -113,6 +125,16 @@ int run_serve(const ServeRequest& r) {
   config.keep_backups = r.keep;
   if (!r.code.empty() && (r.code.size() < 6 || r.code.size() > 32))
     return fail("a pairing code is 6 to 32 characters");
+  if (!r.backup_to.empty()) {
+    // The backup folder is tried now, not found wanting at the first sync.
+    std::error_code ec;
+    std::filesystem::create_directories(r.backup_to, ec);
+    const std::string probe = (std::filesystem::path(r.backup_to) / ".furrow-write-test").string();
+    if (ec || !write_text_file(probe, "ok\n"))
+      return fail("cannot write backups to " + r.backup_to + (ec ? ": " + ec.message() : std::string()) +
+                  "; choose a folder this station can write (a second disk, a USB drive)");
+    std::filesystem::remove(probe, ec);
+  }
   auto server = SyncServer::start(config, r.listen, r.port, r.timeout_s);
   if (!server) return fail(server.problem().message);
   struct sigaction sa {};
@@ -146,6 +168,17 @@ int run_device_today(const std::string& data, const std::string& day_given, bool
   auto folder = folder_or_default(data);
   if (!folder) return fail(folder.problem().message);
   const std::string day = day_given.empty() ? today_utc() : day_given;
+  {
+    int y = 0, m = 0, d = 0;
+    char tail = 0;
+    if (std::sscanf(day.c_str(), "%4d-%2d-%2d%c", &y, &m, &d, &tail) != 3 || day.size() != 10 || m < 1 || m > 12 ||
+        d < 1 || d > 31)
+      return fail("--day is a date written YYYY-MM-DD (UTC), not '" + day + "'");
+  }
+  {
+    std::error_code ec;
+    if (!std::filesystem::is_directory(*folder, ec)) return fail(*folder + ": no such data folder");
+  }
   auto days = station_day(*folder, day);
   if (!days) return fail(days.problem().message);
   if (json) {
@@ -163,10 +196,11 @@ int run_device_today(const std::string& data, const std::string& day_given, bool
       trial = d.trial_name;
       std::cout << terminal_safe(trial) << " (" << day << ", UTC):\n";
     }
-    std::cout << "  " << (d.synced_today ? "synced     " : "NOT SYNCED ") << terminal_safe(d.label) << " (" << d.device_id
-              << ")" << (d.revoked ? ", revoked" : "");
+    std::cout << "  " << (d.revoked ? "REVOKED    " : d.synced_today ? "synced     " : "NOT SYNCED ") << terminal_safe(d.label)
+              << " (" << d.device_id << ")";
     if (!d.last_sync.empty()) std::cout << ", last sync " << d.last_sync;
-    std::cout << ", brought " << d.rows_today << " values today, " << d.rows_in_log << " in the log\n";
+    std::cout << ", brought " << d.rows_today << (d.rows_today == 1 ? " value" : " values") << " today, "
+              << d.rows_in_log << " in the log\n";
   }
   if (days->empty()) std::cout << "no devices enrolled in the trials of " << terminal_safe(*folder) << "\n";
   return 0;

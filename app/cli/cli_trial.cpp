@@ -135,6 +135,9 @@ int run_record_sheet(const RecordRequest& r) {
   if (r.ask || ::isatty(STDIN_FILENO)) options.ask = ask_on_terminal;
   // One sheet at a time into a trial file: two entries at once would each
   // find the other's values missing (an advisory lock beside SQLite's own).
+  // The descriptor is closed only after the session's connection (declared
+  // below, so destroyed first): closing another handle on the file while
+  // SQLite has it open would drop SQLite's own locks in this process.
   const int lock_fd = ::open(r.db.c_str(), O_RDONLY | O_CLOEXEC);
   if (lock_fd >= 0 && ::flock(lock_fd, LOCK_EX | LOCK_NB) != 0) {
     ::close(lock_fd);

@@ -3,6 +3,7 @@
 #include <nlohmann/json.hpp>
 
 #include <algorithm>
+#include <chrono>
 #include <cstdio>
 #include <ctime>
 #include <filesystem>
@@ -35,8 +36,8 @@ Status send_json(SecureChannel& ch, const json& j) { return ch.send(j.dump()); }
 
 // The next message as JSON of the given type ("refused" from the other side
 // becomes its Problem).
-Result<json> receive_json(SecureChannel& ch, const char* type) {
-  auto m = ch.receive();
+Result<json> receive_json(SecureChannel& ch, const char* type, size_t max_bytes = kMaxJsonMessage) {
+  auto m = ch.receive(max_bytes);
   if (!m) return m.problem();
   if (m->size() > kMaxJsonMessage) return make_problem("a message too large for its kind");
   json j = json::parse(*m, nullptr, false);
@@ -50,6 +51,22 @@ Result<json> receive_json(SecureChannel& ch, const char* type) {
 std::string text_of(const json& j, const char* key) {
   const auto it = j.find(key);
   return it != j.end() && it->is_string() ? it->get<std::string>() : std::string();
+}
+
+bool bool_of(const json& j, const char* key) {
+  const auto it = j.find(key);
+  return it != j.end() && it->is_boolean() && it->get<bool>();
+}
+
+std::int64_t int_of(const json& j, const char* key) {
+  const auto it = j.find(key);
+  return it != j.end() && it->is_number_integer() ? it->get<std::int64_t>() : 0;
+}
+
+const json& object_of(const json& j, const char* key) {
+  static const json empty = json::object();
+  const auto it = j.find(key);
+  return it != j.end() && it->is_object() ? *it : empty;
 }
 
 std::map<std::string, std::int64_t> holds_of(const json& j) {
@@ -113,6 +130,24 @@ std::int64_t count_rows_of(Database& db, const std::string& device_id) {
   return s->step() ? s->integer(0) : 0;
 }
 
+// Whether this device's own rows differ from what the station holds of it
+// (`own`: {n, digest}): words for the crew, or empty when they agree.
+std::string own_rows_clash(Database& db, const std::string& device_id, const json& own) {
+  const std::int64_t n = int_of(own, "n");
+  if (n <= 0) return {};
+  const std::int64_t mine = count_rows_of(db, device_id);
+  auto digest = rows_digest(db, device_id, n);
+  if (mine < n)
+    return "this tablet's file holds fewer of its own values (" + std::to_string(mine) + ") than the station has from it (" +
+           std::to_string(n) + "): it was restored from an older copy or backup. Nothing was sent, so that no "
+           "value is lost; the station manager gives this file a new identity (furrow device renew), then sync again";
+  if (!digest || *digest != text_of(own, "digest"))
+    return "the station holds values from this tablet that this file does not hold alike: another copy of this "
+           "tablet's file has synced. Nothing was sent, so that no value is lost; the station manager gives this copy "
+           "a new identity (furrow device renew), then sync again";
+  return {};
+}
+
 // Served station trials in a folder: uid -> path.
 std::map<std::string, std::string> station_trials(const std::string& folder) {
   std::map<std::string, std::string> out;
@@ -157,9 +192,14 @@ void SyncStation::log(const SyncLogEntry& e) {
   std::error_code ec;
   fs::create_directories(sync_folder(config_.data_folder), ec);
   const std::string path = (fs::path(sync_folder(config_.data_folder)) / "log.jsonl").string();
-  const int fd = ::open(path.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
+  const int fd = ::open(path.c_str(), O_RDWR | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
   if (fd < 0) return;
-  ssize_t written = ::write(fd, line.data(), line.size());
+  // A line cut short before (a crash mid-write) is ended, so this one stays whole.
+  std::string out = line;
+  const off_t size = ::lseek(fd, 0, SEEK_END);
+  char last = '\n';
+  if (size > 0 && ::pread(fd, &last, 1, size - 1) == 1 && last != '\n') out.insert(0, "\n");
+  ssize_t written = ::write(fd, out.data(), out.size());
   (void)written;
   ::fsync(fd);
   ::close(fd);
@@ -192,9 +232,14 @@ bool SyncStation::check_token(const std::string& token) {
   const std::string hashed = hash_hex(token);
   std::lock_guard<std::mutex> lock(pairing_mutex_);
   const std::string path = (fs::path(sync_folder(config_.data_folder)) / "paired.json").string();
+  std::error_code ec;
+  if (!fs::is_regular_file(path, ec)) return false;
   std::ifstream in(path);
   json j = json::parse(in, nullptr, false);
-  if (j.is_discarded() || !j.is_object() || !j.contains("devices") || !j["devices"].is_array()) return false;
+  if (j.is_discarded() || !j.is_object() || !j.contains("devices") || !j["devices"].is_array()) {
+    pairing_damaged_ = true;
+    return false;
+  }
   for (const auto& d : j["devices"])
     if (d.is_object() && text_of(d, "token_hash") == hashed) return true;
   return false;
@@ -205,14 +250,19 @@ std::string SyncStation::pair_new(const std::string& peer) {
   std::lock_guard<std::mutex> lock(pairing_mutex_);
   const std::string path = (fs::path(sync_folder(config_.data_folder)) / "paired.json").string();
   json j;
+  std::error_code ec;
+  if (fs::exists(path, ec) && !fs::is_regular_file(path, ec)) return {};
   {
     std::ifstream in(path);
     j = json::parse(in, nullptr, false);
   }
+  if (fs::exists(path, ec) && (j.is_discarded() || !j.is_object())) {
+    // A damaged pairing file is kept aside, not overwritten: the manager may mend it.
+    fs::rename(path, path + ".damaged-" + utc_now(), ec);
+  }
   if (j.is_discarded() || !j.is_object()) j = json::object();
   if (!j.contains("devices") || !j["devices"].is_array()) j["devices"] = json::array();
   j["devices"].push_back({{"token_hash", hash_hex(token)}, {"paired_at", utc_now()}, {"peer", peer}});
-  std::error_code ec;
   fs::create_directories(sync_folder(config_.data_folder), ec);
   if (!write_text_file(path, j.dump(2) + "\n")) return {};
   return token;
@@ -256,13 +306,16 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
   auto refuse_session = [&](const std::string& why) {
     log({"", peer, "refused", "", "", "", "", 0, 0, why});
   };
+  // Until the device has proved itself, the whole exchange has a time limit:
+  // a connection that trickles bytes cannot hold a session for ever.
+  stream.set_deadline(kHandshakeSeconds);
   auto channel = SecureChannel::as_server(stream);
   if (!channel) return refuse_session("no secure connection: " + channel.problem().message);
   SecureChannel& ch = *channel;
   const std::string& transcript = ch.transcript();
 
   // hello: the device's trials.
-  auto hello = receive_json(ch, "hello");
+  auto hello = receive_json(ch, "hello", kMaxHandshakeMessage);
   if (!hello) return refuse_session(hello.problem().message);
   if (!(*hello).contains("version") || (*hello)["version"] != kProtocolVersion) {
     send_json(ch, {{"type", "refused"}, {"reason", "this station speaks sync version " + std::to_string(kProtocolVersion) +
@@ -291,34 +344,42 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
   if (auto s = send_json(ch, {{"type", "station"}, {"trials", proofs}}); !s) return refuse_session(s.problem().message);
 
   // auth: pairing and each trial's proof.
-  auto auth = receive_json(ch, "auth");
+  auto auth = receive_json(ch, "auth", kMaxHandshakeMessage);
   if (!auth) return refuse_session(auth.problem().message);
   const std::string token = text_of(*auth, "token");
   const std::string code = text_of(*auth, "code");
   const bool token_ok = check_token(token);
   if (!token_ok) {
     bool closed = false, right = false;
+    // Wrong codes are counted per network address: guessing from one machine
+    // closes pairing for that machine only.
+    const std::string address = peer.substr(0, peer.rfind(':'));
     {
       std::lock_guard<std::mutex> lock(pairing_mutex_);
-      closed = wrong_codes_ >= config_.max_wrong_codes;
+      int& wrong = wrong_codes_[address];
+      closed = wrong >= config_.max_wrong_codes;
       right = !closed && !code.empty() && code == config_.pairing_code;
-      if (!closed && !right && !code.empty()) ++wrong_codes_;
+      if (!closed && !right && !code.empty()) ++wrong;
     }
     if (!right) {
-      const std::string why = closed ? "pairing is closed after too many wrong codes; restart the station to pair"
+      const std::string why = closed ? "pairing is closed for this device's address after too many wrong codes; "
+                                       "restart the station to pair"
                               : code.empty() ? "this device has not paired with this station: give the pairing code"
                                              : "wrong pairing code";
       send_json(ch, {{"type", "refused"}, {"reason", why}});
       return refuse_session(why);
     }
   }
+  if (pairing_damaged_.exchange(false))
+    log({"", peer, "failed", "", "", "", "", 0, 0,
+         "the station's pairing file (sync/paired.json) cannot be read: paired devices are asked for the code again"});
   std::map<std::string, std::string> proof_of;
   if ((*auth)["trials"].is_array())
     for (const auto& t : (*auth)["trials"]) proof_of[text_of(t, "uid")] = text_of(t, "sig");
 
   struct Session {
     OpenTrial open;
-    std::string device_id, label;
+    std::string device_id, label, public_key;
     std::int64_t received = 0, sent = 0;
   };
   std::map<std::string, Session> sessions;
@@ -346,7 +407,12 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
         v["accepted"] = true;
         auto held = held_without_gap(open->db);
         v["holds"] = held ? holds_json(*held) : json::object();
-        sessions.emplace(a.uid, Session{std::move(*open), a.device_id, (*who)->label});
+        // What the station holds of this device, as a digest the device checks
+        // against its own rows: a copied or restored tablet file is found here.
+        const std::int64_t own = held && held->count(a.device_id) ? held->at(a.device_id) : 0;
+        auto digest = rows_digest(open->db, a.device_id, own);
+        v["own"] = {{"n", own}, {"digest", digest ? *digest : std::string()}};
+        sessions.emplace(a.uid, Session{std::move(*open), a.device_id, (*who)->label, (*who)->public_key});
       }
     }
     if (!v["accepted"].get<bool>()) {
@@ -356,6 +422,8 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
     verdicts.push_back(v);
   }
   json welcome = {{"type", "welcome"}, {"trials", verdicts}};
+  if (sessions.empty()) stream.set_deadline(kHandshakeSeconds);   // nothing to exchange: the limit stays
+  else stream.set_deadline(0);
   // A device is paired (given its token) once the code was right and at
   // least one of its trials accepted it.
   if (!token_ok && !sessions.empty()) {
@@ -399,6 +467,13 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
         failure = bytes.problem().message;
         break;
       }
+      // A bundle signed by another device than the one that proved itself is
+      // refused before it is opened (its signer's key is bytes 16-47).
+      if (bytes->size() < 48 || bytes->compare(16, 32, s.public_key) != 0) {
+        failure = "a bundle signed by another device than the one that proved itself in this session";
+        send_json(ch, {{"type", "refused"}, {"reason", failure}});
+        break;
+      }
       // One merge at a time per trial in this station: writers queue here
       // instead of polling SQLite's lock.
       std::mutex* trial_lock = nullptr;
@@ -430,8 +505,22 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       send_json(ch, {{"type", "merged"}, {"added", merged->observations_added}, {"holds", holds}});
     } else if (type == "want") {
       BundleSelection sel;
-      sel.receiver_holds = holds_of(j.value("holds", json::object()));
-      sel.makers_rows_only = !j.value("others", false);
+      sel.receiver_holds = holds_of(object_of(j, "holds"));
+      sel.makers_rows_only = !bool_of(j, "others");
+      // The station's own rows the device holds must be the station's still
+      // (a station file restored from an older backup has lost some).
+      const json& mine = object_of(j, "station_rows");
+      const std::int64_t n = int_of(mine, "n");
+      if (n > 0) {
+        auto here = rows_digest(s.open.db, s.open.trial.device_id, n);
+        if (!here || *here != text_of(mine, "digest")) {
+          failure = "this device holds settlements the station's file no longer holds alike (was the station's "
+                    "trial restored from an older backup?); nothing more is exchanged for this trial: the station "
+                    "manager must look at it";
+          send_json(ch, {{"type", "refused"}, {"reason", failure}});
+          break;
+        }
+      }
       sel.max_rows = kSyncChunkRows;
       auto b = bundle_for_sync(s.open.db, s.open.trial, sel);
       if (!b) {
@@ -615,6 +704,9 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
           proven.insert(uid);
         }
     }
+  if (proven.empty())
+    return make_problem("the station at this address holds none of this device's trials, or could not prove it is "
+                        "their station; nothing was sent (not the pairing code either)");
   json proofs = json::array();
   for (const Local& l : locals)
     if (proven.count(l.open.trial.uid))
@@ -639,8 +731,8 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
   std::int64_t total = 0;
   for (Local& l : locals) {
     const auto v = verdict.find(l.open.trial.uid);
-    if (v == verdict.end() || !v->second.value("accepted", false)) continue;
-    const auto station_holds = holds_of(v->second.value("holds", json::object()));
+    if (v == verdict.end() || !bool_of(v->second, "accepted")) continue;
+    const auto station_holds = holds_of(object_of(v->second, "holds"));
     const auto own = station_holds.find(l.open.trial.device_id);
     total += std::max<std::int64_t>(0, count_rows_of(l.open.db, l.open.trial.device_id) -
                                            (own == station_holds.end() ? 0 : own->second));
@@ -656,11 +748,14 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
     const auto v = verdict.find(l.open.trial.uid);
     if (!proven.count(l.open.trial.uid)) {
       r.refusal = "the station does not serve this trial";
-    } else if (v == verdict.end() || !v->second.value("accepted", false)) {
+    } else if (v == verdict.end() || !bool_of(v->second, "accepted")) {
       r.refusal = v == verdict.end() ? "the station did not answer for this trial" : text_of(v->second, "reason");
+    } else if (const std::string clash = own_rows_clash(l.open.db, l.open.trial.device_id, object_of(v->second, "own"));
+               !clash.empty()) {
+      r.refusal = clash;
     } else {
       r.accepted = true;
-      auto holds = holds_of(v->second.value("holds", json::object()));
+      auto holds = holds_of(object_of(v->second, "holds"));
       FURROW_TRY(learn_station_holdings(l.open.db, holds));
       // Up: this device's rows the station lacks, a chunk at a time.
       for (;;) {
@@ -675,8 +770,8 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
         FURROW_TRY(ch.send(b->second));
         auto merged = receive_json(ch, "merged");
         if (!merged) return make_problem("the station refused a bundle of '" + r.name + "': " + merged.problem().message);
-        const auto added = (*merged).value("added", std::int64_t{0});
-        auto now_holds = holds_of((*merged).value("holds", json::object()));
+        const auto added = int_of(*merged, "added");
+        auto now_holds = holds_of(object_of(*merged, "holds"));
         const auto before = holds.count(l.open.trial.device_id) ? holds[l.open.trial.device_id] : 0;
         const auto after = now_holds.count(l.open.trial.device_id) ? now_holds[l.open.trial.device_id] : 0;
         r.sent += added;
@@ -690,8 +785,12 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
       for (;;) {
         auto mine = held_without_gap(l.open.db);
         if (!mine) return make_problem(l.path + ": " + mine.problem().message);
+        const std::int64_t station_n = mine->count(l.station_id) ? mine->at(l.station_id) : 0;
+        auto station_digest = rows_digest(l.open.db, l.station_id, station_n);
+        if (!station_digest) return make_problem(l.path + ": " + station_digest.problem().message);
         FURROW_TRY(send_json(ch, {{"type", "want"}, {"uid", l.open.trial.uid}, {"holds", holds_json(*mine)},
-                                  {"others", request.others}}));
+                                  {"others", request.others},
+                                  {"station_rows", {{"n", station_n}, {"digest", *station_digest}}}}));
         auto m = ch.receive();
         if (!m) return m.problem();
         json j = json::parse(*m, nullptr, false);
@@ -722,13 +821,35 @@ namespace {
 // A TCP stream as the channel's byte stream.
 class TcpBytes : public ByteStream {
  public:
-  explicit TcpBytes(TcpStream s) : s_(std::move(s)) {}
-  Status write_all(std::string_view b) override { return s_.write_all(b); }
-  Result<std::string> read_exact(size_t n) override { return s_.read_exact(n); }
+  TcpBytes(TcpStream s, int timeout_ms) : s_(std::move(s)), timeout_ms_(timeout_ms) { s_.set_timeout(timeout_ms); }
+  Status write_all(std::string_view b) override {
+    if (auto t = arm(); !t) return t;
+    return s_.write_all(b);
+  }
+  Result<std::string> read_exact(size_t n) override {
+    if (auto t = arm(); !t) return t.problem();
+    return s_.read_exact(n);
+  }
+  void set_deadline(int seconds) override {
+    deadline_ = seconds > 0 ? std::optional(std::chrono::steady_clock::now() + std::chrono::seconds(seconds)) : std::nullopt;
+  }
   const std::string& peer() const { return s_.peer(); }
 
  private:
+  // Each wait is the shorter of the stream's timeout and what is left.
+  Status arm() {
+    if (!deadline_) {
+      s_.set_timeout(timeout_ms_);
+      return ok_status();
+    }
+    const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(*deadline_ - std::chrono::steady_clock::now());
+    if (left.count() <= 0) return make_problem("the other side took too long to prove who it is");
+    s_.set_timeout(static_cast<int>(std::min<long long>(left.count(), timeout_ms_)));
+    return ok_status();
+  }
   TcpStream s_;
+  int timeout_ms_;
+  std::optional<std::chrono::steady_clock::time_point> deadline_;
 };
 }  // namespace
 
@@ -769,8 +890,7 @@ Result<std::unique_ptr<SyncServer>> SyncServer::start(StationConfig config, cons
                                                    "); the device is asked to try again");
         continue;   // closed as it goes out of scope
       }
-      conn->set_timeout(timeout_s * 1000);
-      auto stream = std::make_shared<TcpBytes>(std::move(*conn));
+      auto stream = std::make_shared<TcpBytes>(std::move(*conn), timeout_s * 1000);
       auto finished = std::make_shared<std::atomic<bool>>(false);
       workers.push_back({std::thread([station = s->station_.get(), stream, finished]() {
                            station->serve(*stream, stream->peer());
@@ -794,7 +914,7 @@ Result<SyncResult> sync_over_network(const std::string& host, int port, int time
                                      SyncProgress* progress) {
   auto tcp = TcpStream::connect(host, port, timeout_s * 1000);
   if (!tcp) return tcp.problem();
-  TcpBytes bytes(std::move(*tcp));
+  TcpBytes bytes(std::move(*tcp), timeout_s * 1000);
   return sync_as_device(bytes, request, progress);
 }
 

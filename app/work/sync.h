@@ -53,6 +53,7 @@ namespace furrow {
 inline constexpr int kDefaultSyncPort = 47110;
 inline constexpr std::int64_t kSyncChunkRows = 2000;
 inline constexpr size_t kMaxSyncSessions = 32;   // sessions a station holds at once
+inline constexpr int kHandshakeSeconds = 20;      // to prove who it is, in all
 
 // --- The station ---------------------------------------------------------
 
@@ -97,7 +98,8 @@ class SyncStation {
   StationConfig config_;
   std::mutex log_mutex_, pairing_mutex_, backup_mutex_, merge_locks_mutex_;
   std::map<std::string, std::unique_ptr<std::mutex>> merge_locks_;   // trial uid -> one merge at a time
-  int wrong_codes_ = 0;
+  std::map<std::string, int> wrong_codes_;   // network address -> wrong pairing codes
+  std::atomic<bool> pairing_damaged_{false};
   std::atomic<int> active_{0};
   std::map<std::string, std::string> last_backup_day_;   // trial path -> YYYY-MM-DD
 };

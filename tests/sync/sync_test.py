@@ -228,15 +228,28 @@ station = Station(os.path.join(fx_s, "station"))
 for d in (0, 5):
     run("pair", "--data", os.path.join(fx_s, f"dev{d}"), "--station", station.address(), "--code", CODE)
 c0 = conflicts(st_db)[0]
+station.stop()
+before_settling = os.path.join(work, "before-settling")
+run("backup", "--db", st_db, "--to", before_settling)
+station = Station(os.path.join(fx_s, "station"))
 run("settle", "--db", st_db, "--plot", c0["plot"], "--trait", c0["trait"], "--occasion", str(c0["occasion"]),
     "--value", "77.7", "--by", "Station manager")
-r = run("sync", "--data", os.path.join(fx_s, "dev0"))
+r = run("sync", "--data", os.path.join(fx_s, "dev0"), "--station", station.address())
 check(r.returncode == 0 and "received 1 settlement" in r.stdout, f"A: the device received the settlement ({r.stdout.strip()})")
 dev0 = os.path.join(fx_s, "dev0", "trial.furrow")
 live = run("export", "--db", dev0, "--long").stdout
 check(any(line.startswith(c0["plot"] + ",") and ",77.7," in line for line in live.splitlines()),
       "A: the settled value is the device's live value")
 check(conflicts(dev0) == [], "A: the device sees no conflict left on that cell")
+station.stop()
+# The station's file restored from a backup taken before that settlement: the
+# device, which holds it, is told in words instead of drifting apart quietly.
+r = run("restore", "--from", os.path.join(before_settling, os.listdir(before_settling)[0]), "--db", st_db, "--replace")
+check(r.returncode == 0, f"A: the station restored from before the settlement ({r.stderr.strip()})")
+station = Station(os.path.join(fx_s, "station"))
+r = run("sync", "--data", os.path.join(fx_s, "dev0"), "--station", station.address())
+check(r.returncode == 2 and "settlements the station's file no longer holds alike" in r.stderr,
+      f"A: the device holding a settlement the restored station lost is told so ({r.stderr.strip()[:160]})")
 station.stop()
 
 
@@ -370,6 +383,23 @@ run("device", "revoke", "--db", st_db, "--device", device_id_of(dev2), "--by", "
 r = run("pair", "--data", os.path.join(fx_d, "dev2"), "--station", station.address(), "--code", CODE)
 check(r.returncode == 2 and "was revoked" in r.stdout and count_of(st_db) == before,
       f"D: a revoked device is refused ({r.stdout.strip()[:160]})")
+# A tablet's file copied to a second tablet: both record; the first syncs; the
+# copy is refused in words (its rows would reuse the first one's numbers), and
+# nothing of either is lost or merged twice.
+dev1_dir = os.path.join(fx_d, "dev1")
+clone_dir = os.path.join(work, "dev1-clone")
+shutil.copytree(dev1_dir, clone_dir)
+run("record", "--db", os.path.join(dev1_dir, "trial.furrow"), "--plot", "1001", "--trait", "T2", "--value", "91",
+    "--observer", "First tablet")
+run("record", "--db", os.path.join(clone_dir, "trial.furrow"), "--plot", "1002", "--trait", "T2", "--value", "77",
+    "--observer", "Copied tablet")
+r = run("pair", "--data", dev1_dir, "--station", station.address(), "--code", CODE)
+check(r.returncode == 0 and "sent 41 values" in r.stdout, f"D: the first tablet syncs its 41 values ({r.stdout.strip()[-60:]})")
+held_after_first = count_of(st_db)
+r = run("pair", "--data", clone_dir, "--station", station.address(), "--code", CODE)
+check(r.returncode == 2 and "another copy of this tablet's file has synced" in r.stdout and count_of(st_db) == held_after_first,
+      f"D: the copied tablet is refused in words, nothing merged ({r.stdout.strip()[:200]})")
+before = count_of(st_db)
 # A replay: what device 0 sent in an earlier sync, sent again byte for byte.
 recorded = []
 p = Proxy(station.port, record=recorded)
@@ -383,6 +413,7 @@ shutil.copy(st_db, os.path.join(work, "refusals-after.furrow"))
 copy_db(os.path.join(fx_d, "station-before.furrow"), st_db)
 run("device", "revoke", "--db", st_db, "--device", device_id_of(dev2), "--by", "Manager", "--reason", "lost")
 station = Station(st_dir)
+before = count_of(st_db)
 replay = socket.create_connection(("127.0.0.1", station.port))
 replay.settimeout(5)
 try:
@@ -433,7 +464,11 @@ station.stop()
 kept = sorted(os.listdir(served_backups))
 check(len(kept) == 3 and all(integrity(os.path.join(served_backups, k)) == "ok" for k in kept),
       f"E: serve --backup-to kept the newest 3 backups, each intact ({kept})")
-check(count_of(os.path.join(served_backups, kept[-1])) == 20000, "E: the newest holds every row of the day")
+newest = max(count_of(os.path.join(served_backups, k)) for k in kept)
+check(newest == 20000, f"E: the newest holds every row of the day ({[count_of(os.path.join(served_backups, k)) for k in kept]})")
+# Another program reading the trial meanwhile (as count_of did) never makes a session or backup fail.
+failed = [e.get("detail", "")[:100] for e in log_of(st_dir) if e["event"] == "failed"]
+check(not failed, f"E: no session or backup failed while others read the file ({failed[:2]})")
 backup_lines = [e for e in log_of(st_dir) if e["event"] == "backup"]
 check(len(backup_lines) >= 4, f"E: each backup is in the station's log ({len(backup_lines)})")
 restored = os.path.join(work, "restored", "trial.furrow")
