@@ -43,14 +43,6 @@ Result<std::string> folder_or_default(const std::string& given) {
   return data_folder();
 }
 
-std::string today_utc() {
-  const std::time_t now = std::time(nullptr);
-  std::tm utc{};
-  gmtime_r(&now, &utc);
-  char b[16];
-  std::strftime(b, sizeof b, "%Y-%m-%d", &utc);
-  return b;
-}
 
 int sync_with(const SyncCliRequest& r, bool pairing) {
   auto folder = folder_or_default(r.data);
@@ -167,7 +159,7 @@ int run_sync(const SyncCliRequest& r) { return sync_with(r, false); }
 int run_device_today(const std::string& data, const std::string& day_given, bool json) {
   auto folder = folder_or_default(data);
   if (!folder) return fail(folder.problem().message);
-  const std::string day = day_given.empty() ? today_utc() : day_given;
+  const std::string day = day_given.empty() ? utc_now().substr(0, 10) : day_given;
   {
     int y = 0, m = 0, d = 0;
     char tail = 0;

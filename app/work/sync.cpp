@@ -83,14 +83,6 @@ json holds_json(const std::map<std::string, std::int64_t>& h) {
   return j;
 }
 
-std::string today_utc() {
-  const std::time_t now = std::time(nullptr);
-  std::tm utc{};
-  gmtime_r(&now, &utc);
-  char b[16];
-  std::strftime(b, sizeof b, "%Y-%m-%d", &utc);
-  return b;
-}
 
 // A bundle's bytes as a file in the sync folder's spool (merge_bundle reads files).
 struct SpoolFile {
@@ -271,7 +263,7 @@ std::string SyncStation::pair_new(const std::string& peer) {
 void SyncStation::backups_due(const std::string& trial_path) {
   if (config_.backup_folder.empty()) return;
   std::lock_guard<std::mutex> lock(backup_mutex_);
-  const std::string day = today_utc();
+  const std::string day = utc_now().substr(0, 10);
   std::vector<std::string> paths;
   if (!trial_path.empty()) paths.push_back(trial_path);
   for (const auto& [uid, path] : station_trials(config_.data_folder))
