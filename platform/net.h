@@ -29,6 +29,9 @@ class TcpStream {
   Status write_all(std::string_view bytes);
   Result<std::string> read_exact(size_t n);
   void set_timeout(int ms) { timeout_ms_ = ms; }
+  // Every read and write must also end by this time (milliseconds on the
+  // steady clock; 0: no overall limit), however the bytes trickle in.
+  void set_deadline_ms(long long steady_ms) { deadline_ms_ = steady_ms; }
   const std::string& peer() const { return peer_; }   // "192.168.1.20:51234"
   void close();
   bool is_open() const { return fd_ >= 0; }
@@ -37,7 +40,12 @@ class TcpStream {
   int fd_ = -1;
   std::string peer_;
   int timeout_ms_ = 30000;
+  long long deadline_ms_ = 0;
+  int wait_ms() const;   // the shorter of the timeout and what is left before the deadline (0: passed)
 };
+
+// Milliseconds on the steady clock, for deadlines.
+long long steady_now_ms();
 
 class TcpListener {
  public:

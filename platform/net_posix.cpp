@@ -12,6 +12,7 @@
 #include <sys/socket.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 
 namespace furrow {
@@ -50,6 +51,17 @@ TcpStream& TcpStream::operator=(TcpStream&& o) noexcept {
 }
 
 TcpStream::~TcpStream() { close(); }
+
+long long steady_now_ms() {
+  return std::chrono::duration_cast<std::chrono::milliseconds>(std::chrono::steady_clock::now().time_since_epoch()).count();
+}
+
+int TcpStream::wait_ms() const {
+  if (deadline_ms_ == 0) return timeout_ms_;
+  const long long left = deadline_ms_ - steady_now_ms();
+  if (left <= 0) return 0;
+  return static_cast<int>(std::min<long long>(left, timeout_ms_));
+}
 
 void TcpStream::close() {
   if (fd_ >= 0) ::close(fd_);
@@ -112,8 +124,10 @@ Status TcpStream::write_all(std::string_view bytes) {
     }
     if (n < 0 && errno == EINTR) continue;
     if (n < 0 && (errno == EAGAIN || errno == EWOULDBLOCK)) {
-      if (!wait_for(fd_, POLLOUT, timeout_ms_)) return make_problem("the connection stalled (nothing moved for " +
-                                                                   std::to_string(timeout_ms_ / 1000) + " s)");
+      const int wait = wait_ms();
+      if (wait == 0) return make_problem("the other side took too long");
+      if (!wait_for(fd_, POLLOUT, wait)) return make_problem("the connection stalled (nothing moved for " +
+                                                             std::to_string(timeout_ms_ / 1000) + " s)");
       continue;
     }
     return make_problem("the connection was cut: " + errno_words());
@@ -134,7 +148,9 @@ Result<std::string> TcpStream::read_exact(size_t n) {
     if (r == 0) return make_problem("the connection was closed by the other side");
     if (errno == EINTR) continue;
     if (errno == EAGAIN || errno == EWOULDBLOCK) {
-      if (!wait_for(fd_, POLLIN, timeout_ms_))
+      const int wait = wait_ms();
+      if (wait == 0) return make_problem("the other side took too long");
+      if (!wait_for(fd_, POLLIN, wait))
         return make_problem("the connection stalled (nothing came for " + std::to_string(timeout_ms_ / 1000) + " s)");
       continue;
     }

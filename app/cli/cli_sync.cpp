@@ -163,8 +163,10 @@ int run_device_today(const std::string& data, const std::string& day_given, bool
   {
     int y = 0, m = 0, d = 0;
     char tail = 0;
-    if (std::sscanf(day.c_str(), "%4d-%2d-%2d%c", &y, &m, &d, &tail) != 3 || day.size() != 10 || m < 1 || m > 12 ||
-        d < 1 || d > 31)
+    static const int days_in[] = {31, 29, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
+    const bool parsed = std::sscanf(day.c_str(), "%4d-%2d-%2d%c", &y, &m, &d, &tail) == 3 && day.size() == 10;
+    const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
+    if (!parsed || m < 1 || m > 12 || d < 1 || d > days_in[m - 1] || (m == 2 && d == 29 && !leap))
       return fail("--day is a date written YYYY-MM-DD (UTC), not '" + day + "'");
   }
   {

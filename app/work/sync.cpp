@@ -158,8 +158,8 @@ std::map<std::string, std::string> station_trials(const std::string& folder) {
 
 SyncStation::SyncStation(StationConfig config) : config_(std::move(config)) {
   if (config_.pairing_code.empty()) {
-    char b[8];
-    std::snprintf(b, sizeof b, "%06u", random_below(1000000));
+    char b[12];
+    std::snprintf(b, sizeof b, "%08u", random_below(100000000));
     config_.pairing_code = b;
   }
 }
@@ -341,6 +341,9 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
   const std::string token = text_of(*auth, "token");
   const std::string code = text_of(*auth, "code");
   const bool token_ok = check_token(token);
+  if (pairing_damaged_.exchange(false))
+    log({"", peer, "failed", "", "", "", "", 0, 0,
+         "the station's pairing file (sync/paired.json) cannot be read: paired devices are asked for the code again"});
   if (!token_ok) {
     bool closed = false, right = false;
     // Wrong codes are counted per network address: guessing from one machine
@@ -353,6 +356,11 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       right = !closed && !code.empty() && code == config_.pairing_code;
       if (!closed && !right && !code.empty()) ++wrong;
     }
+    if (!right && !code.empty()) {
+      // A wrong code costs the guesser two seconds (with at most 32 sessions
+      // and 4 an address, 10^8 codes take years).
+      std::this_thread::sleep_for(std::chrono::seconds(2));
+    }
     if (!right) {
       const std::string why = closed ? "pairing is closed for this device's address after too many wrong codes; "
                                        "restart the station to pair"
@@ -362,9 +370,6 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       return refuse_session(why);
     }
   }
-  if (pairing_damaged_.exchange(false))
-    log({"", peer, "failed", "", "", "", "", 0, 0,
-         "the station's pairing file (sync/paired.json) cannot be read: paired devices are asked for the code again"});
   std::map<std::string, std::string> proof_of;
   if ((*auth)["trials"].is_array())
     for (const auto& t : (*auth)["trials"]) proof_of[text_of(t, "uid")] = text_of(t, "sig");
@@ -373,6 +378,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
     OpenTrial open;
     std::string device_id, label, public_key;
     std::int64_t received = 0, sent = 0;
+    std::string declined;   // why the device sent nothing for this trial
   };
   std::map<std::string, Session> sessions;
   json verdicts = json::array();
@@ -404,7 +410,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
         const std::int64_t own = held && held->count(a.device_id) ? held->at(a.device_id) : 0;
         auto digest = rows_digest(open->db, a.device_id, own);
         v["own"] = {{"n", own}, {"digest", digest ? *digest : std::string()}};
-        sessions.emplace(a.uid, Session{std::move(*open), a.device_id, (*who)->label, (*who)->public_key});
+        sessions.emplace(a.uid, Session{std::move(*open), a.device_id, (*who)->label, (*who)->public_key, 0, 0, {}});
       }
     }
     if (!v["accepted"].get<bool>()) {
@@ -446,6 +452,11 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       send_json(ch, {{"type", "bye"}});
       break;
     }
+    if (type.empty()) {
+      failure = "a message that is not Furrow's sync";
+      send_json(ch, {{"type", "refused"}, {"reason", failure}});
+      break;
+    }
     const auto it = sessions.find(j.is_object() ? text_of(j, "uid") : "");
     if (it == sessions.end()) {
       failure = "a message about a trial not accepted in this session";
@@ -453,6 +464,12 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       break;
     }
     Session& s = it->second;
+    if (type == "decline") {
+      // The device found its own rows differ from the station's (a copied or
+      // restored tablet file) and sends nothing for this trial.
+      s.declined = text_of(j, "reason").substr(0, 500);
+      continue;
+    }
     if (type == "bundle") {
       auto bytes = ch.receive();
       if (!bytes) {
@@ -461,7 +478,12 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       }
       // A bundle signed by another device than the one that proved itself is
       // refused before it is opened (its signer's key is bytes 16-47).
-      if (bytes->size() < 48 || bytes->compare(16, 32, s.public_key) != 0) {
+      if (bytes->size() < 120 || bytes->compare(0, 16, "FURROW BUNDLE 3\n") != 0) {
+        failure = "a message that is not a bundle where a bundle was due";
+        send_json(ch, {{"type", "refused"}, {"reason", failure}});
+        break;
+      }
+      if (bytes->compare(16, 32, s.public_key) != 0) {
         failure = "a bundle signed by another device than the one that proved itself in this session";
         send_json(ch, {{"type", "refused"}, {"reason", failure}});
         break;
@@ -537,8 +559,10 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
     }
   }
   for (auto& [uid, s] : sessions) {
-    SyncLogEntry e{"", peer, failure.empty() ? "synced" : "failed", uid, s.open.trial.plan.name, s.device_id, s.label,
-                   s.received, s.sent, failure};
+    SyncLogEntry e{"", peer, !s.declined.empty() ? "refused" : failure.empty() ? "synced" : "failed", uid,
+                   s.open.trial.plan.name, s.device_id, s.label, s.received, s.sent,
+                   !s.declined.empty() ? "the device's file differs from what the station holds of it: " + s.declined
+                                       : failure};
     log(e);
   }
   // A backup of each trial that took rows (at least after each sync).
@@ -745,6 +769,7 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
     } else if (const std::string clash = own_rows_clash(l.open.db, l.open.trial.device_id, object_of(v->second, "own"));
                !clash.empty()) {
       r.refusal = clash;
+      FURROW_TRY(send_json(ch, {{"type", "decline"}, {"uid", l.open.trial.uid}, {"reason", clash}}));
     } else {
       r.accepted = true;
       auto holds = holds_of(object_of(v->second, "holds"));
@@ -813,35 +838,14 @@ namespace {
 // A TCP stream as the channel's byte stream.
 class TcpBytes : public ByteStream {
  public:
-  TcpBytes(TcpStream s, int timeout_ms) : s_(std::move(s)), timeout_ms_(timeout_ms) { s_.set_timeout(timeout_ms); }
-  Status write_all(std::string_view b) override {
-    if (auto t = arm(); !t) return t;
-    return s_.write_all(b);
-  }
-  Result<std::string> read_exact(size_t n) override {
-    if (auto t = arm(); !t) return t.problem();
-    return s_.read_exact(n);
-  }
-  void set_deadline(int seconds) override {
-    deadline_ = seconds > 0 ? std::optional(std::chrono::steady_clock::now() + std::chrono::seconds(seconds)) : std::nullopt;
-  }
+  TcpBytes(TcpStream s, int timeout_ms) : s_(std::move(s)) { s_.set_timeout(timeout_ms); }
+  Status write_all(std::string_view b) override { return s_.write_all(b); }
+  Result<std::string> read_exact(size_t n) override { return s_.read_exact(n); }
+  void set_deadline(int seconds) override { s_.set_deadline_ms(seconds > 0 ? steady_now_ms() + seconds * 1000LL : 0); }
   const std::string& peer() const { return s_.peer(); }
 
  private:
-  // Each wait is the shorter of the stream's timeout and what is left.
-  Status arm() {
-    if (!deadline_) {
-      s_.set_timeout(timeout_ms_);
-      return ok_status();
-    }
-    const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(*deadline_ - std::chrono::steady_clock::now());
-    if (left.count() <= 0) return make_problem("the other side took too long to prove who it is");
-    s_.set_timeout(static_cast<int>(std::min<long long>(left.count(), timeout_ms_)));
-    return ok_status();
-  }
   TcpStream s_;
-  int timeout_ms_;
-  std::optional<std::chrono::steady_clock::time_point> deadline_;
 };
 }  // namespace
 
@@ -856,6 +860,7 @@ Result<std::unique_ptr<SyncServer>> SyncServer::start(StationConfig config, cons
     struct Worker {
       std::thread thread;
       std::shared_ptr<std::atomic<bool>> finished;
+      std::string address;
     };
     std::vector<Worker> workers;
     std::time_t last_check = 0;
@@ -875,6 +880,15 @@ Result<std::unique_ptr<SyncServer>> SyncServer::start(StationConfig config, cons
       }
       auto conn = l->accept(200);
       if (!conn || !conn->is_open()) continue;
+      const std::string address = conn->peer().substr(0, conn->peer().rfind(':'));
+      size_t from_address = 0;
+      for (const Worker& w : workers) from_address += w.address == address;
+      // (This machine's own connections, 127.x, are not counted: tests and tools on the station itself.)
+      if (from_address >= kMaxSessionsPerAddress && address.rfind("127.", 0) != 0) {
+        s->station_->log_refusal(conn->peer(), "too many connections from one address at once (" +
+                                                   std::to_string(kMaxSessionsPerAddress) + ")");
+        continue;
+      }
       if (workers.size() >= kMaxSyncSessions) {
         // A station holds a bounded number of sessions: a flood of idle
         // connections cannot take all its threads.
@@ -888,7 +902,7 @@ Result<std::unique_ptr<SyncServer>> SyncServer::start(StationConfig config, cons
                            station->serve(*stream, stream->peer());
                            *finished = true;
                          }),
-                         finished});
+                         finished, address});
     }
     for (auto& w : workers) w.thread.join();
   });

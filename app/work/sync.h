@@ -53,6 +53,7 @@ namespace furrow {
 inline constexpr int kDefaultSyncPort = 47110;
 inline constexpr std::int64_t kSyncChunkRows = 2000;
 inline constexpr size_t kMaxSyncSessions = 32;   // sessions a station holds at once
+inline constexpr size_t kMaxSessionsPerAddress = 4;   // ... from one network address
 inline constexpr int kHandshakeSeconds = 20;      // to prove who it is, in all
 
 // --- The station ---------------------------------------------------------

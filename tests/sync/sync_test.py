@@ -399,6 +399,28 @@ held_after_first = count_of(st_db)
 r = run("pair", "--data", clone_dir, "--station", station.address(), "--code", CODE)
 check(r.returncode == 2 and "another copy of this tablet's file has synced" in r.stdout and count_of(st_db) == held_after_first,
       f"D: the copied tablet is refused in words, nothing merged ({r.stdout.strip()[:200]})")
+refusal = [e for e in log_of(st_dir) if e["event"] == "refused" and "differs from what the station holds" in e.get("detail", "")]
+check(len(refusal) == 1 and refusal[0]["device"] == "Tablet 1", "D: the station's log says the copy was refused, and why")
+# A peer that trickles a byte a second before proving itself is dropped within the
+# 20 s limit (it cannot hold one of the station's sessions for ever).
+t0 = time.time()
+trickles = []
+for _ in range(2):
+    c = socket.create_connection(("127.0.0.1", station.port))
+    c.sendall(b"FRWSYNC1" + os.urandom(32))
+    trickles.append(c)
+dropped = [None, None]
+while time.time() - t0 < 40 and None in dropped:
+    for k, c in enumerate(trickles):
+        if dropped[k] is None:
+            try:
+                c.sendall(b"\x00")
+            except OSError:
+                dropped[k] = time.time() - t0
+    time.sleep(1)
+for c in trickles:
+    c.close()
+check(all(d is not None and d < 30 for d in dropped), f"D: trickling peers dropped within the limit ({dropped})")
 before = count_of(st_db)
 # A replay: what device 0 sent in an earlier sync, sent again byte for byte.
 recorded = []
