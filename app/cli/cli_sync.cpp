@@ -138,7 +138,7 @@ int run_serve(const ServeRequest& r) {
   std::cout << "Furrow station serving the trials in " << terminal_safe(*folder) << "\n"
             << "  address: " << (r.listen == "0.0.0.0" ? (addresses.empty() ? std::string("this machine") : addresses) : r.listen)
             << " port " << (*server)->port() << "\n"
-            << "  pairing code: " << (*server)->pairing_code() << "\n"
+            << "  pairing code: " << code_for_people((*server)->pairing_code()) << "\n"
             << (r.backup_to.empty() ? "  no backups (give --backup-to FOLDER, e.g. a second disk)\n"
                                     : "  backups to " + r.backup_to + " after each sync and daily\n")
             << "  stop with Ctrl+C" << std::endl;

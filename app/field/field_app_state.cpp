@@ -300,7 +300,7 @@ class FieldApp final : public FieldAppState {
     if (server_) {
       const std::string addresses = local_addresses();
       v.serving_words = "Serving this station's trials: address " + (addresses.empty() ? "this machine" : addresses) +
-                        ", port " + std::to_string(server_->port()) + ", pairing code " + server_->pairing_code();
+                        ", port " + std::to_string(server_->port()) + ", pairing code " + code_for_people(server_->pairing_code());
       v.sessions = server_->active();
     }
     if (v.station_trial) {

@@ -197,6 +197,11 @@ void SyncStation::log(const SyncLogEntry& e) {
   ::close(fd);
 }
 
+std::string code_for_people(const std::string& code) {
+  if (code.size() != 8 || code.find_first_not_of("0123456789") != std::string::npos) return code;
+  return code.substr(0, 4) + " " + code.substr(4);
+}
+
 std::vector<SyncLogEntry> read_sync_log(const std::string& data_folder) {
   std::vector<SyncLogEntry> out;
   std::ifstream in(fs::path(sync_folder(data_folder)) / "log.jsonl");
@@ -353,7 +358,10 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       std::lock_guard<std::mutex> lock(pairing_mutex_);
       int& wrong = wrong_codes_[address];
       closed = wrong >= config_.max_wrong_codes;
-      right = !closed && !code.empty() && code == config_.pairing_code;
+      std::string typed;
+      for (char c : code)
+        if (c != ' ' && c != '-') typed += c;
+      right = !closed && !typed.empty() && typed == config_.pairing_code;
       if (!closed && !right && !code.empty()) ++wrong;
     }
     if (!right && !code.empty()) {

@@ -126,6 +126,9 @@ class SyncServer {
   int port_ = 0;
 };
 
+// The pairing code as people read it: "4069 2800" (the digits are what is typed).
+std::string code_for_people(const std::string& code);
+
 // The station's log, oldest first (unreadable lines skipped).
 std::vector<SyncLogEntry> read_sync_log(const std::string& data_folder);
 
