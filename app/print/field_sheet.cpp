@@ -172,8 +172,12 @@ Result<FieldSheetLayout> write_field_sheet(const StoredTrial& t, const SheetPape
     pdf.text(t.plan.name, left, y, 5.0, width - pages_w - 6, true);
     pdf.text(pages, right - pages_w, y, 4.0, pages_w + 1, true);
     y += 6.0;
-    std::string where = t.plan.site + (t.plan.season.empty() ? "" : ", season " + t.plan.season) + "; " +
-                        design_kind_title(t.plan.design) + "; " + walk_words(t.plan);
+    std::string where;
+    for (std::string part : {t.plan.site + (t.plan.season.empty() ? "" : (t.plan.site.empty() ? "season " : ", season ") + t.plan.season),
+                             std::string(design_kind_title(t.plan.design)), walk_words(t.plan)})
+      if (!part.empty()) where += (where.empty() ? "" : "; ") + part;
+    if (std::any_of(r.traits.begin(), r.traits.end(), [&](size_t k) { return t.plan.traits[k].occasions > 1; }))
+      where += "; occasion " + std::to_string(r.occasion);
     pdf.text(where, left, y, kTextSize, width);
     y += 5.0;
     pdf.text("printed " + r.printed_on, left, y, kTextSize, 45);
