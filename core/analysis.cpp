@@ -749,7 +749,11 @@ Result<Analysis> analyse_response(const PlotTable& table, const DesignModel& m, 
       a.lsd = first.lsd;
       if (first.q_critical > 0) a.hsd = first.hsd;
       if (a.grand_mean != 0) {
-        const double mdd = (first.t_critical + t_quantile(kDetectionPower, first.error_df)) * first.sed;
+        // Exact: the noncentral t power (the usual t(1 - alpha/2) + t(power)
+        // is too small at few error DF, as split-plot main plots have).
+        double in_se = detectable_difference_in_se(first.error_df, options.alpha, kDetectionPower);
+        if (!std::isfinite(in_se)) in_se = first.t_critical + t_quantile(kDetectionPower, first.error_df);
+        const double mdd = in_se * first.sed;
         a.mdd_percent = 100.0 * mdd / std::abs(a.grand_mean);
       }
     }

@@ -151,7 +151,8 @@ struct Analysis {
   double alpha = 0.05;
   std::vector<TermMeans> means;      // one per treatment term
   std::optional<double> lsd, hsd;    // of the first treatment term
-  std::optional<double> mdd_percent; // minimum detectable difference, % of the mean
+  std::optional<double> mdd_percent; // minimum detectable difference, % of the mean: the exact noncentral-t
+                                    // root at kDetectionPower (core/distributions.h)
   VarianceComponents variance_components;
   std::vector<OutlierPlot> outliers;
   std::vector<PlotFit> fits;         // every analysed plot, in input order

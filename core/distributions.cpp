@@ -1,6 +1,7 @@
 #include "core/distributions.h"
 
 #include <boost/math/distributions/fisher_f.hpp>
+#include <boost/math/distributions/non_central_t.hpp>
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/students_t.hpp>
 #include <cmath>
@@ -41,6 +42,40 @@ double t_two_sided_p(double t, double df) {
   } catch (...) {
     return kNaN;
   }
+}
+
+double t_test_power(double delta, double df, double alpha) {
+  if (!(df > 0) || !(alpha > 0 && alpha < 1) || std::isnan(delta)) return kNaN;
+  try {
+    if (std::isinf(df)) {
+      const boost::math::normal z;
+      const double c = boost::math::quantile(z, 1 - alpha / 2);
+      return boost::math::cdf(boost::math::complement(z, c - delta)) + boost::math::cdf(z, -c - delta);
+    }
+    const double c = boost::math::quantile(boost::math::students_t(df), 1 - alpha / 2);
+    const boost::math::non_central_t nct(df, delta);
+    return boost::math::cdf(boost::math::complement(nct, c)) + boost::math::cdf(nct, -c);
+  } catch (...) {
+    return kNaN;
+  }
+}
+
+double detectable_difference_in_se(double df, double alpha, double power) {
+  if (!(df > 0) || !(alpha > 0 && alpha < 1) || !(power > alpha && power < 1)) return kNaN;
+  // The power grows with delta: bisection between 0 and a bound that is enough.
+  double lo = 0, hi = t_quantile(1 - alpha / 2, df) + t_quantile(power, df);
+  if (!std::isfinite(hi)) return kNaN;
+  while (t_test_power(hi, df, alpha) < power) {
+    hi *= 2;
+    if (hi > 1e6) return kNaN;
+  }
+  for (int i = 0; i < 200 && hi - lo > 1e-12 * hi; ++i) {
+    const double mid = 0.5 * (lo + hi);
+    const double p = t_test_power(mid, df, alpha);
+    if (std::isnan(p)) return kNaN;
+    (p < power ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi);
 }
 
 }  // namespace furrow

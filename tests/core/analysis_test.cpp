@@ -48,9 +48,12 @@ TEST_CASE("summaries follow STATISTICS.md: CV, LSD, HSD and detectable differenc
   CHECK(*a->lsd == doctest::Approx(2.446912 * std::sqrt(2 * 0.40 / 3)).epsilon(1e-6));
   // q(0.95; 4, 6) = 4.896 (Harter 1960 / Gleason 1998 tables, 4 digits).
   CHECK(*a->hsd == doctest::Approx(4.896 * std::sqrt(0.40 / 3)).epsilon(2e-4));
-  // t(0.80; 6) = 0.905703 (standard t table).
-  CHECK(*a->mdd_percent ==
-        doctest::Approx(100 * (2.446912 + 0.905703) * std::sqrt(2 * 0.40 / 3) / 7.25).epsilon(1e-6));
+  // The detectable difference at 80 % power is the exact noncentral-t root:
+  // 3.366894895 standard errors at 6 error DF (scipy: the power integrated
+  // over the chi-square, tests/reference/make_detectable_difference_cases.py),
+  // not t(0.975; 6) + t(0.80; 6) = 2.446912 + 0.905703 (standard t table),
+  // whose real power is 0.797.
+  CHECK(*a->mdd_percent == doctest::Approx(100 * 3.366894895 * std::sqrt(2 * 0.40 / 3) / 7.25).epsilon(1e-6));
 }
 
 PlotTable rcbd_with_outlier(double bad_value) {
