@@ -448,6 +448,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
   // The exchange: bundles both ways until bye.
   const std::string spool = (fs::path(sync_folder(config_.data_folder)) / "spool").string();
   std::string failure;
+  bool said_bye = false;
   for (;;) {
     auto m = ch.receive();
     if (!m) {
@@ -457,7 +458,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
     json j = json::parse(*m, nullptr, false);
     const std::string type = j.is_object() ? text_of(j, "type") : "";
     if (type == "bye") {
-      send_json(ch, {{"type", "bye"}});
+      said_bye = true;   // answered once the session is in the log
       break;
     }
     if (type.empty()) {
@@ -573,6 +574,9 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
                                        : failure};
     log(e);
   }
+  // The device hears the end only after the session is in the log (so what
+  // `device today` shows never lags what the device was told).
+  if (said_bye) send_json(ch, {{"type", "bye"}});
   // A backup of each trial that took rows (at least after each sync).
   for (auto& [uid, s] : sessions)
     if (s.received > 0) backups_due(served.at(uid));
