@@ -16,8 +16,8 @@ struct SecureChannel::State {
   crypto_secretstream_xchacha20poly1305_state push{}, pull{};
 };
 
-SecureChannel::SecureChannel(ByteStream& stream, std::unique_ptr<State> state, std::string transcript)
-    : stream_(&stream), state_(std::move(state)), transcript_(std::move(transcript)) {}
+SecureChannel::SecureChannel(ByteStream& stream, std::unique_ptr<State> state, std::string session_hash)
+    : stream_(&stream), state_(std::move(state)), session_hash_(std::move(session_hash)) {}
 SecureChannel::SecureChannel(SecureChannel&&) noexcept = default;
 SecureChannel& SecureChannel::operator=(SecureChannel&&) noexcept = default;
 SecureChannel::~SecureChannel() {
@@ -79,7 +79,7 @@ Result<SecureChannel> SecureChannel::handshake(ByteStream& stream, bool client) 
                         : crypto_kx_server_session_keys(rx, tx, pk, sk, peer_pk);
   sodium_memzero(sk, sizeof sk);
   if (kx != 0) return make_problem("the other side's key is not acceptable");
-  // The transcript: both hellos, the client's first.
+  // The session hash: both hellos, the client's first.
   const std::string& first = client ? hello : *peer;
   const std::string& second = client ? *peer : hello;
   unsigned char t[32];

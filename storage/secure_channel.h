@@ -11,7 +11,7 @@
 //      and authenticated, in order; a message changed, dropped, reordered or
 //      replayed from another connection fails to open.
 //   4. Who is at the other end is proved inside the stream: each side signs
-//      the connection's transcript (the BLAKE2b hash of both hellos, so of
+//      the connection's session hash (the BLAKE2b hash of both hellos, so of
 //      both fresh keys) with the Ed25519 key the other already trusts for the
 //      trial (the device: its enrolled key; the station: the trial's station
 //      key the device copy pinned). A signature made for one connection is
@@ -60,7 +60,7 @@ class SecureChannel {
   ~SecureChannel();
 
   // 32 bytes naming this connection: what each side signs.
-  const std::string& transcript() const { return transcript_; }
+  const std::string& session_hash() const { return session_hash_; }
   Status send(std::string_view message);
   // A Problem when the connection fails or a message does not open
   // ("altered or not of this connection").
@@ -70,10 +70,10 @@ class SecureChannel {
  private:
   struct State;
   static Result<SecureChannel> handshake(ByteStream& stream, bool client);
-  SecureChannel(ByteStream& stream, std::unique_ptr<State> state, std::string transcript);
+  SecureChannel(ByteStream& stream, std::unique_ptr<State> state, std::string session_hash);
   ByteStream* stream_;
   std::unique_ptr<State> state_;
-  std::string transcript_;
+  std::string session_hash_;
 };
 
 }  // namespace furrow

@@ -309,7 +309,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
   auto channel = SecureChannel::as_server(stream);
   if (!channel) return refuse_session("no secure connection: " + channel.problem().message);
   SecureChannel& ch = *channel;
-  const std::string& transcript = ch.transcript();
+  const std::string& session_hash = ch.session_hash();
 
   // hello: the device's trials.
   auto hello = receive_json(ch, "hello", kMaxHandshakeMessage);
@@ -335,7 +335,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       if (!open) continue;
       auto key = own_key(open->db);
       if (!key) continue;
-      proofs.push_back({{"uid", uid}, {"sig", to_hex(sign_parts(key->secret_key, {transcript, "station", uid}))}});
+      proofs.push_back({{"uid", uid}, {"sig", to_hex(sign_parts(key->secret_key, {session_hash, "station", uid}))}});
       asked.push_back({uid, device_id, it->second});
     }
   if (auto s = send_json(ch, {{"type", "station"}, {"trials", proofs}}); !s) return refuse_session(s.problem().message);
@@ -406,7 +406,7 @@ void SyncStation::serve_session(ByteStream& stream, const std::string& peer) {
       } else if ((*who)->revoked()) {
         e.device_label = (*who)->label;
         v["reason"] = "this device (" + (*who)->label + ") was revoked at the station on " + *(*who)->revoked_at;
-      } else if (!sig || !verify_parts((*who)->public_key, *sig, {transcript, "device", a.uid, a.device_id})) {
+      } else if (!sig || !verify_parts((*who)->public_key, *sig, {session_hash, "device", a.uid, a.device_id})) {
         e.device_label = (*who)->label;
         v["reason"] = "this device's proof of identity does not match its enrolled key";
       } else {
@@ -712,7 +712,7 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
   auto channel = SecureChannel::as_client(stream);
   if (!channel) return channel.problem();
   SecureChannel& ch = *channel;
-  const std::string& transcript = ch.transcript();
+  const std::string& session_hash = ch.session_hash();
   json trials = json::array();
   for (const Local& l : locals) trials.push_back({{"uid", l.open.trial.uid}, {"device_id", l.open.trial.device_id}});
   FURROW_TRY(send_json(ch, {{"type", "hello"}, {"version", kProtocolVersion}, {"trials", trials}}));
@@ -725,7 +725,7 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
       const auto sig = from_hex(text_of(t, "sig"));
       for (const Local& l : locals)
         if (l.open.trial.uid == uid) {
-          if (!sig || !verify_parts(l.station_key, *sig, {transcript, "station", uid}))
+          if (!sig || !verify_parts(l.station_key, *sig, {session_hash, "station", uid}))
             return make_problem("the station at this address could not prove it holds the station key of '" +
                                 l.open.trial.plan.name +
                                 "': it is not this trial's station (or someone is in between); nothing was sent");
@@ -741,7 +741,7 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
       proofs.push_back({{"uid", l.open.trial.uid},
                         {"device_id", l.open.trial.device_id},
                         {"sig", to_hex(sign_parts(l.key.secret_key,
-                                                  {transcript, "device", l.open.trial.uid, l.open.trial.device_id}))}});
+                                                  {session_hash, "device", l.open.trial.uid, l.open.trial.device_id}))}});
   json auth = {{"type", "auth"}, {"trials", proofs}};
   if (!request.token.empty()) auth["token"] = request.token;
   if (!request.code.empty()) auth["code"] = request.code;

@@ -8,11 +8,11 @@
 // secret streams). Inside it, in order:
 //   device  -> hello    {trials: [{uid, device_id}]}
 //   station -> station  {trials: [{uid, sig}]}: for each trial it serves, the
-//              trial's station key signs (transcript, "station", uid); the
+//              trial's station key signs (session_hash, "station", uid); the
 //              device checks it against the station key its copy pinned and
 //              stops at once when one fails ("not your station").
 //   device  -> auth     {token | code, trials: [{uid, device_id, sig}]}: the
-//              device's enrolled key signs (transcript, "device", uid,
+//              device's enrolled key signs (session_hash, "device", uid,
 //              device_id). A device pairs once with the station's pairing
 //              code and is given a token for later syncs; the code is sent
 //              only after the station proved itself.

@@ -1,6 +1,6 @@
 // The sync channel (storage/secure_channel.h) between two ends in this
 // process, over an in-memory wire the test can tamper with: both sides
-// derive the same transcript; messages pass both ways; a byte changed, a
+// derive the same session hash; messages pass both ways; a byte changed, a
 // message replayed from another connection, or two messages swapped do not
 // open. The primitives are libsodium's (crypto_kx,
 // crypto_secretstream_xchacha20poly1305); these checks are of our framing and
@@ -77,19 +77,19 @@ struct Connection {
   }
 };
 
-TEST_CASE("both ends agree on the transcript and messages pass both ways, in order") {
+TEST_CASE("both ends agree on the session hash and messages pass both ways, in order") {
   Connection k;
-  CHECK(k.c().transcript().size() == 32);
-  CHECK(k.c().transcript() == k.s().transcript());
+  CHECK(k.c().session_hash().size() == 32);
+  CHECK(k.c().session_hash() == k.s().session_hash());
   REQUIRE(k.c().send("hello station").ok());
   REQUIRE(k.c().send(std::string(100000, 'x')).ok());
   CHECK(*k.s().receive() == "hello station");
   CHECK(k.s().receive()->size() == 100000);
   REQUIRE(k.s().send("welcome").ok());
   CHECK(*k.c().receive() == "welcome");
-  // Another connection has another transcript (fresh keys each time).
+  // Another connection has another session hash (fresh keys each time).
   Connection other;
-  CHECK(other.c().transcript() != k.c().transcript());
+  CHECK(other.c().session_hash() != k.c().session_hash());
   // What travels is not the text.
   REQUIRE(other.c().send("plot 101 height 96").ok());
   CHECK(other.take_pending().find("plot 101") == std::string::npos);
