@@ -1,0 +1,891 @@
+// Average-information REML on sparse mixed-model equations (see reml.h for
+// the published method behind each part).
+#include "core/reml.h"
+
+#include <Eigen/Dense>
+#include <Eigen/OrderingMethods>
+#include <Eigen/Sparse>
+#include <Eigen/SparseCholesky>
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <memory>
+#include <numeric>
+
+#include "core/distributions.h"
+
+namespace furrow {
+
+namespace {
+
+using SpMat = Eigen::SparseMatrix<double>;
+using Vec = Eigen::VectorXd;
+using Mat = Eigen::MatrixXd;
+using Triplet = Eigen::Triplet<double>;
+using Cholesky = Eigen::SimplicialLLT<SpMat, Eigen::Lower, Eigen::AMDOrdering<int>>;
+
+constexpr double kLog2Pi = 1.8378770664093454836;
+constexpr double kMaxCorrelation = 0.995;
+constexpr int kMaxFixedColumns = 3000;
+
+// ------------------------------------------------------------- [AR1 pieces]
+
+// Inverse of the m x m AR1 correlation matrix (tridiagonal) and its
+// derivative with respect to rho, as (i, j, value) for |i - j| <= 1.
+double ar1_inverse(int i, int j, int m, double rho) {
+  const double s = 1.0 - rho * rho;
+  if (m == 1) return 1.0;
+  if (i == j) return (i == 0 || i == m - 1 ? 1.0 : 1.0 + rho * rho) / s;
+  return std::abs(i - j) == 1 ? -rho / s : 0.0;
+}
+double ar1_inverse_derivative(int i, int j, int m, double rho) {
+  const double s = 1.0 - rho * rho;
+  if (m == 1) return 0.0;
+  if (i == j) return (i == 0 || i == m - 1 ? 2.0 * rho : 4.0 * rho) / (s * s);
+  return std::abs(i - j) == 1 ? -(1.0 + rho * rho) / (s * s) : 0.0;
+}
+Mat ar1_matrix(int m, double rho) {
+  Mat k(m, m);
+  for (int i = 0; i < m; ++i)
+    for (int j = 0; j < m; ++j) k(i, j) = std::pow(rho, std::abs(i - j));
+  return k;
+}
+
+// K^-1 = AR1(rho_c)^-1 (x) AR1(rho_r)^-1 over cells c * rows + r, or one of
+// its two derivatives (which = 1 row, 2 column).
+SpMat field_inverse(int rows, int cols, double rho_r, double rho_c, int which) {
+  std::vector<Triplet> t;
+  t.reserve(static_cast<size_t>(rows) * cols * 9);
+  for (int c1 = 0; c1 < cols; ++c1)
+    for (int c2 = std::max(0, c1 - 1); c2 <= std::min(cols - 1, c1 + 1); ++c2) {
+      const double kc = which == 2 ? ar1_inverse_derivative(c1, c2, cols, rho_c) : ar1_inverse(c1, c2, cols, rho_c);
+      for (int r1 = 0; r1 < rows; ++r1)
+        for (int r2 = std::max(0, r1 - 1); r2 <= std::min(rows - 1, r1 + 1); ++r2) {
+          const double kr =
+              which == 1 ? ar1_inverse_derivative(r1, r2, rows, rho_r) : ar1_inverse(r1, r2, rows, rho_r);
+          t.emplace_back(c1 * rows + r1, c2 * rows + r2, kc * kr);
+        }
+    }
+  SpMat m(rows * cols, rows * cols);
+  m.setFromTriplets(t.begin(), t.end());
+  return m;
+}
+
+// ------------------------------------------------------------ [the problem]
+
+struct ModelData {
+  int n = 0;
+  Vec y;            // centred
+  double y_mean = 0;
+  // Fixed part.
+  int full_columns = 0;
+  std::vector<int> term_first;
+  std::vector<TermCells> fixed_cells;
+  std::vector<int> selected;        // full column of each selected column
+  std::vector<int> position;        // per full column: index among selected, or -1
+  Mat alias;                        // p x full: T (X_full = X_sel T)
+  double log_det_xtx = 0;
+  SpMat x_sel;                      // n x p
+  // Random part.
+  std::vector<TermCells> random_cells;
+  std::vector<SpMat> z;             // per random term, n x q_k
+  bool spatial = false;
+  int rows = 0, cols = 0;
+  SpMat z_field;                    // n x rows * cols
+  int n_var = 0;                    // number of parameters
+  int field_var = -1, rho_row = -1, rho_col = -1, resid = -1;
+};
+
+// The current set of columns in the equations and its symbolic factorisation.
+struct Equations {
+  std::vector<char> active;          // per random term (and the field last)
+  std::vector<int> offset;           // column offset per random term (and field), -1 if inactive
+  int m = 0, p = 0;
+  SpMat w;                           // n x m
+  SpMat wtw;
+  Vec wty;
+  Cholesky chol;
+  bool analysed = false;
+};
+
+struct Evaluation {
+  double loglik = -INFINITY;
+  bool ok = false;
+  Vec s;          // solution of C* s = W'y
+  Vec score;      // per parameter (0 for held ones)
+  Mat ai;
+  double sigma_e = 0;
+  std::vector<double> trace_k;       // tr(K^-1 C^kk) per random term (+ field) (unscaled C)
+  double trace_drow = 0, trace_dcol = 0;
+  double ee = 0;                     // e'e
+};
+
+class Engine {
+ public:
+  explicit Engine(const ModelData& pr) : pr_(pr) {}
+
+  int terms() const { return static_cast<int>(pr_.z.size()) + (pr_.spatial ? 1 : 0); }
+  // Parameter index of random term k's variance (the field is term z.size()).
+  int var_of_term(int k) const { return k < static_cast<int>(pr_.z.size()) ? k : pr_.field_var; }
+
+  void set_active(const std::vector<char>& active) {
+    if (eq_ && eq_->analysed && active == eq_->active) return;
+    eq_ = std::make_unique<Equations>();
+    eq_->active = active;
+    eq_->p = static_cast<int>(pr_.selected.size());
+    std::vector<Triplet> t;
+    auto add = [&](const SpMat& block, int offset) {
+      for (int c = 0; c < block.outerSize(); ++c)
+        for (SpMat::InnerIterator it(block, c); it; ++it) t.emplace_back(it.row(), offset + it.col(), it.value());
+    };
+    add(pr_.x_sel, 0);
+    int m = eq_->p;
+    eq_->offset.assign(terms(), -1);
+    for (int k = 0; k < terms(); ++k) {
+      if (!active[k]) continue;
+      const SpMat& zk = k < static_cast<int>(pr_.z.size()) ? pr_.z[k] : pr_.z_field;
+      eq_->offset[k] = m;
+      add(zk, m);
+      m += static_cast<int>(zk.cols());
+    }
+    eq_->m = m;
+    eq_->w.resize(pr_.n, m);
+    eq_->w.setFromTriplets(t.begin(), t.end());
+    eq_->wtw = SpMat(eq_->w.transpose() * eq_->w);
+    eq_->wty = eq_->w.transpose() * pr_.y;
+    eq_->analysed = false;
+  }
+
+  const Equations& equations() const { return *eq_; }
+
+  SpMat coefficient(const std::vector<double>& th) const {
+    const double se = th[pr_.resid];
+    std::vector<Triplet> t;
+    for (int k = 0; k < terms(); ++k) {
+      if (!eq_->active[k]) continue;
+      const double gamma = se / th[var_of_term(k)];
+      const int off = eq_->offset[k];
+      if (k < static_cast<int>(pr_.z.size())) {
+        for (int i = 0; i < pr_.z[k].cols(); ++i) t.emplace_back(off + i, off + i, gamma);
+      } else {
+        const SpMat kinv = field_inverse(pr_.rows, pr_.cols, th[pr_.rho_row], th[pr_.rho_col], 0);
+        for (int c = 0; c < kinv.outerSize(); ++c)
+          for (SpMat::InnerIterator it(kinv, c); it; ++it) t.emplace_back(off + it.row(), off + it.col(), gamma * it.value());
+      }
+    }
+    SpMat d(eq_->m, eq_->m);
+    d.setFromTriplets(t.begin(), t.end());
+    return eq_->wtw + d;
+  }
+
+  Evaluation evaluate(const std::vector<double>& th, bool derivatives) {
+    Evaluation ev;
+    const double se = th[pr_.resid];
+    ev.sigma_e = se;
+    if (!(se > 0)) return ev;
+    const SpMat c = coefficient(th);
+    if (!eq_->analysed) {
+      eq_->chol.analyzePattern(c);
+      eq_->analysed = true;
+    }
+    eq_->chol.factorize(c);
+    if (eq_->chol.info() != Eigen::Success) return ev;
+    const SpMat& lref = eq_->chol.matrixL().nestedExpression();
+    double log_det_c = 0;
+    for (int j = 0; j < lref.outerSize(); ++j) log_det_c += 2.0 * std::log(lref.valuePtr()[lref.outerIndexPtr()[j]]);
+    ev.s = eq_->chol.solve(eq_->wty);
+    const Vec e = pr_.y - eq_->w * ev.s;
+    ev.ee = e.squaredNorm();
+    const double ypy = (pr_.y.squaredNorm() - ev.s.dot(eq_->wty)) / se;
+    const int p = eq_->p;
+    double log_det_g = 0;
+    std::vector<int> q(terms(), 0);
+    for (int k = 0; k < terms(); ++k) {
+      if (!eq_->active[k]) continue;
+      const bool field = k == static_cast<int>(pr_.z.size());
+      q[k] = field ? pr_.rows * pr_.cols : static_cast<int>(pr_.z[k].cols());
+      log_det_g += q[k] * std::log(th[var_of_term(k)]);
+      if (field) {
+        const double rr = th[pr_.rho_row], rc = th[pr_.rho_col];
+        log_det_g += pr_.rows * (pr_.cols - 1.0) * std::log(1 - rc * rc) + pr_.cols * (pr_.rows - 1.0) * std::log(1 - rr * rr);
+      }
+    }
+    const int n = pr_.n;
+    ev.loglik = -0.5 * ((n - p) * kLog2Pi + n * std::log(se) + log_det_g + log_det_c - eq_->m * std::log(se) + ypy -
+                        pr_.log_det_xtx);
+    ev.ok = std::isfinite(ev.loglik);
+    if (!derivatives || !ev.ok) return ev;
+
+    // Selected inverse on the factor's pattern (scaled: S = C*^-1).
+    selected_inverse(lref);
+    const auto& perm = eq_->chol.permutationP().indices();
+    auto s_at = [&](int i, int j) {   // element of C*^-1 in original indices
+      int a = perm[i], b = perm[j];
+      if (a < b) std::swap(a, b);
+      return inverse_at(lref, a, b);
+    };
+    ev.score = Vec::Zero(pr_.n_var);
+    ev.trace_k.assign(terms(), 0.0);
+    std::vector<Vec> work(pr_.n_var);
+    double sum_m = 0;   // sum over active terms of (q_k - tr(G^-1 C^kk))
+    for (int k = 0; k < terms(); ++k) {
+      if (!eq_->active[k]) continue;
+      const int off = eq_->offset[k];
+      const int v = var_of_term(k);
+      const double sk = th[v];
+      const Vec u = ev.s.segment(off, q[k]);
+      if (k < static_cast<int>(pr_.z.size())) {
+        double tr = 0;
+        for (int i = 0; i < q[k]; ++i) tr += s_at(off + i, off + i);
+        tr *= se;   // unscaled C^-1 = sigma_e C*^-1
+        ev.trace_k[k] = tr;
+        ev.score[v] = -0.5 * (q[k] / sk - tr / (sk * sk) - u.squaredNorm() / (sk * sk));
+        sum_m += q[k] - tr / sk;
+        work[v] = pr_.z[k] * u / sk;
+      } else {
+        const double rr = th[pr_.rho_row], rc = th[pr_.rho_col];
+        const SpMat kinv = field_inverse(pr_.rows, pr_.cols, rr, rc, 0);
+        const SpMat dr = field_inverse(pr_.rows, pr_.cols, rr, rc, 1);
+        const SpMat dc = field_inverse(pr_.rows, pr_.cols, rr, rc, 2);
+        auto trace_with = [&](const SpMat& a) {
+          double tr = 0;
+          for (int col = 0; col < a.outerSize(); ++col)
+            for (SpMat::InnerIterator it(a, col); it; ++it) tr += it.value() * s_at(off + it.row(), off + it.col());
+          return tr * se;
+        };
+        const double tr = trace_with(kinv);
+        ev.trace_k[k] = tr;
+        ev.score[v] = -0.5 * (q[k] / sk - tr / (sk * sk) - u.dot(kinv * u) / (sk * sk));
+        sum_m += q[k] - tr / sk;
+        work[v] = pr_.z_field * u / sk;
+        const double dlog_r = -pr_.cols * (pr_.rows - 1.0) * 2 * rr / (1 - rr * rr);
+        const double dlog_c = -pr_.rows * (pr_.cols - 1.0) * 2 * rc / (1 - rc * rc);
+        ev.trace_drow = trace_with(dr);
+        ev.trace_dcol = trace_with(dc);
+        ev.score[pr_.rho_row] = -0.5 * (dlog_r + ev.trace_drow / sk + u.dot(dr * u) / sk);
+        ev.score[pr_.rho_col] = -0.5 * (dlog_c + ev.trace_dcol / sk + u.dot(dc * u) / sk);
+        work[pr_.rho_row] = -(pr_.z_field * field_times(rr, rc, dr * u));
+        work[pr_.rho_col] = -(pr_.z_field * field_times(rr, rc, dc * u));
+      }
+    }
+    ev.score[pr_.resid] = -0.5 * ((n - p - sum_m) / se - ev.ee / (se * se));
+    work[pr_.resid] = e / se;
+    // Average information: 1/2 w_i' P w_j with P w = (w - W t) / sigma_e.
+    ev.ai = Mat::Zero(pr_.n_var, pr_.n_var);
+    std::vector<Vec> pw(pr_.n_var);
+    for (int i = 0; i < pr_.n_var; ++i) {
+      if (work[i].size() == 0) continue;
+      const Vec t = eq_->chol.solve(Vec(eq_->w.transpose() * work[i]));
+      pw[i] = (work[i] - eq_->w * t) / se;
+    }
+    for (int i = 0; i < pr_.n_var; ++i)
+      for (int j = 0; j <= i; ++j) {
+        if (pw[i].size() == 0 || pw[j].size() == 0) continue;
+        ev.ai(i, j) = ev.ai(j, i) = 0.5 * work[i].dot(pw[j]);
+      }
+    return ev;
+  }
+
+  // K v over the grid (K = AR1(rho_c) (x) AR1(rho_r)).
+  Vec field_times(double rr, double rc, const Vec& v) const {
+    const Mat kr = ar1_matrix(pr_.rows, rr), kc = ar1_matrix(pr_.cols, rc);
+    const Eigen::Map<const Mat> m(v.data(), pr_.rows, pr_.cols);
+    const Mat out = kr * m * kc.transpose();
+    return Eigen::Map<const Vec>(out.data(), out.size());
+  }
+
+  // Columns of C*^-1 for the given original indices.
+  Mat inverse_columns(const std::vector<int>& cols) {
+    Mat out(eq_->m, static_cast<Eigen::Index>(cols.size()));
+    for (size_t j = 0; j < cols.size(); ++j) {
+      Vec e = Vec::Zero(eq_->m);
+      e[cols[j]] = 1.0;
+      out.col(static_cast<Eigen::Index>(j)) = eq_->chol.solve(e);
+    }
+    return out;
+  }
+  Vec solve(const Vec& b) { return eq_->chol.solve(b); }
+  double diag_inverse(int i) {
+    const SpMat& lref = eq_->chol.matrixL().nestedExpression();
+    const int a = eq_->chol.permutationP().indices()[i];
+    return inverse_at(lref, a, a);
+  }
+
+ private:
+  // Takahashi recursions: Z = (L L')^-1 on the pattern of L.
+  void selected_inverse(const SpMat& l) {
+    const int m = static_cast<int>(l.cols());
+    const int* outer = l.outerIndexPtr();
+    const int* inner = l.innerIndexPtr();
+    const double* val = l.valuePtr();
+    zval_.assign(l.nonZeros(), 0.0);
+    std::vector<double> acc;
+    for (int j = m - 1; j >= 0; --j) {
+      const int start = outer[j], end = outer[j + 1];
+      const double ljj = val[start];
+      const int len = end - start - 1;
+      acc.assign(len, 0.0);
+      for (int b = 0; b < len; ++b) {
+        const int colb = inner[start + 1 + b];
+        int ptr = outer[colb];
+        const int pend = outer[colb + 1];
+        const double lb = val[start + 1 + b];
+        for (int a = b; a < len; ++a) {
+          const int ra = inner[start + 1 + a];
+          while (ptr < pend && inner[ptr] < ra) ++ptr;
+          const double z = zval_[ptr];   // Z(ra, colb); the clique property puts ra in colb's pattern
+          acc[a] += lb * z;
+          if (a != b) acc[b] += val[start + 1 + a] * z;
+        }
+      }
+      double diag = 1.0 / (ljj * ljj);
+      for (int a = 0; a < len; ++a) {
+        zval_[start + 1 + a] = -acc[a] / ljj;
+        diag -= val[start + 1 + a] * zval_[start + 1 + a] / ljj;
+      }
+      zval_[start] = diag;
+    }
+  }
+  // Z(a, b), a >= b, in permuted indices; 0 outside the pattern (never
+  // needed there: the traces only ask for elements of C's own pattern).
+  double inverse_at(const SpMat& l, int a, int b) const {
+    const int* outer = l.outerIndexPtr();
+    const int* inner = l.innerIndexPtr();
+    const int* lo = inner + outer[b];
+    const int* hi = inner + outer[b + 1];
+    const int* it = std::lower_bound(lo, hi, a);
+    if (it == hi || *it != a) return 0.0;
+    return zval_[it - inner];
+  }
+
+  const ModelData& pr_;
+  std::unique_ptr<Equations> eq_;
+  std::vector<double> zval_;
+};
+
+// ----------------------------------------------------------- [fixed part]
+
+Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<double>& y) {
+  ModelData pr;
+  pr.n = spec.n;
+  if (static_cast<int>(y.size()) != spec.n) return make_problem("response length differs from the design");
+  pr.y = Eigen::Map<const Vec>(y.data(), spec.n);
+  pr.y_mean = pr.y.mean();
+  pr.y.array() -= pr.y_mean;
+  CodedDesign d;
+  d.n = spec.n;
+  d.factors = spec.factors;
+  // Full fixed coding.
+  std::vector<Triplet> t;
+  for (int i = 0; i < spec.n; ++i) t.emplace_back(i, 0, 1.0);
+  int col = 1;
+  for (const MixedTerm& term : spec.fixed) {
+    pr.term_first.push_back(col);
+    pr.fixed_cells.push_back(term_cells(d, term.factors));
+    const TermCells& tc = pr.fixed_cells.back();
+    for (int i = 0; i < spec.n; ++i) t.emplace_back(i, col + tc.cell_of[i], 1.0);
+    col += static_cast<int>(tc.count.size());
+  }
+  for (const auto& cov : spec.covariates) {
+    for (int i = 0; i < spec.n; ++i)
+      if (cov[i] != 0) t.emplace_back(i, col, cov[i]);
+    ++col;
+  }
+  pr.full_columns = col;
+  if (col > kMaxFixedColumns)
+    return make_problem("the fixed part has " + std::to_string(col) + " columns, over the " +
+                        std::to_string(kMaxFixedColumns) + " the REML fit holds; take the entries as random");
+  SpMat x(spec.n, col);
+  x.setFromTriplets(t.begin(), t.end());
+  const Mat xtx = Mat(SpMat(x.transpose() * x));
+  // Columns in order, each kept when it is not a combination of those kept
+  // before it (greedy Cholesky on X'X).
+  Mat lsel = Mat::Zero(col, col);
+  std::vector<int> sel;
+  pr.position.assign(col, -1);
+  for (int j = 0; j < col; ++j) {
+    const int k = static_cast<int>(sel.size());
+    Vec v(k);
+    for (int a = 0; a < k; ++a) v[a] = xtx(sel[a], j);
+    const Vec l = k ? Vec(lsel.topLeftCorner(k, k).triangularView<Eigen::Lower>().solve(v)) : Vec();
+    const double dd = xtx(j, j) - (k ? l.squaredNorm() : 0.0);
+    if (xtx(j, j) > 0 && dd > 1e-9 * xtx(j, j)) {
+      lsel.row(k).head(k) = l.transpose();
+      lsel(k, k) = std::sqrt(dd);
+      pr.position[j] = k;
+      sel.push_back(j);
+    }
+  }
+  const int p = static_cast<int>(sel.size());
+  if (spec.n - p < 1) return make_problem("the design leaves no residual degrees of freedom for the REML fit");
+  pr.selected = sel;
+  const auto lp = lsel.topLeftCorner(p, p).triangularView<Eigen::Lower>();
+  pr.log_det_xtx = 0;
+  for (int a = 0; a < p; ++a) pr.log_det_xtx += 2.0 * std::log(lsel(a, a));
+  pr.alias = Mat::Zero(p, col);
+  for (int j = 0; j < col; ++j) {
+    if (pr.position[j] >= 0) { pr.alias(pr.position[j], j) = 1.0; continue; }
+    Vec v(p);
+    for (int a = 0; a < p; ++a) v[a] = xtx(sel[a], j);
+    pr.alias.col(j) = lp.transpose().solve(Vec(lp.solve(v)));
+  }
+  std::vector<Triplet> ts;
+  for (int c = 0; c < x.outerSize(); ++c)
+    if (pr.position[c] >= 0)
+      for (SpMat::InnerIterator it(x, c); it; ++it) ts.emplace_back(it.row(), pr.position[c], it.value());
+  pr.x_sel.resize(spec.n, p);
+  pr.x_sel.setFromTriplets(ts.begin(), ts.end());
+  // Random part.
+  for (const MixedTerm& term : spec.random) {
+    TermCells tc = term_cells(d, term.factors);
+    const int q = static_cast<int>(tc.count.size());
+    if (q < 2) return make_problem("random term '" + term.label + "' has fewer than two levels with a value");
+    std::vector<Triplet> tz;
+    for (int i = 0; i < spec.n; ++i) tz.emplace_back(i, tc.cell_of[i], 1.0);
+    SpMat z(spec.n, q);
+    z.setFromTriplets(tz.begin(), tz.end());
+    pr.z.push_back(std::move(z));
+    pr.random_cells.push_back(std::move(tc));
+  }
+  int v = static_cast<int>(pr.z.size());
+  if (spec.spatial) {
+    const SpatialField& f = *spec.spatial;
+    if (f.rows < 2 || f.cols < 2) return make_problem("the field trend needs at least two rows and two columns");
+    if (static_cast<int>(f.row.size()) != spec.n || static_cast<int>(f.col.size()) != spec.n)
+      return make_problem("the field trend needs a row and a column for every plot");
+    pr.spatial = true;
+    pr.rows = f.rows;
+    pr.cols = f.cols;
+    std::vector<Triplet> tz;
+    std::vector<char> used(static_cast<size_t>(f.rows) * f.cols, 0);
+    for (int i = 0; i < spec.n; ++i) {
+      if (f.row[i] < 0 || f.row[i] >= f.rows || f.col[i] < 0 || f.col[i] >= f.cols)
+        return make_problem("a plot lies outside the field grid", "", i);
+      const int cell = f.col[i] * f.rows + f.row[i];
+      if (used[cell]++) return make_problem("two plots share one row and column of the field", "", i);
+      tz.emplace_back(i, cell, 1.0);
+    }
+    pr.z_field.resize(spec.n, f.rows * f.cols);
+    pr.z_field.setFromTriplets(tz.begin(), tz.end());
+    pr.field_var = v++;
+    pr.rho_row = v++;
+    pr.rho_col = v++;
+  }
+  pr.resid = v++;
+  pr.n_var = v;
+  return pr;
+}
+
+}  // namespace
+
+// ------------------------------------------------------------------ [fit]
+
+struct MixedFit::Impl {
+  ModelData pr;
+  std::vector<VarianceParameter> params;
+  double loglik = 0;
+  int iterations = 0;
+  bool converged = false;
+  Vec beta;                  // selected coding, with the mean restored
+  Mat cov_beta;              // p x p
+  std::vector<Mat> dcov;     // per parameter (empty when held)
+  Mat param_cov;             // n_var x n_var
+  std::vector<std::vector<double>> blups;
+  std::vector<double> field, residuals;
+  std::vector<std::vector<double>> pev;      // per random term, per cell
+  std::vector<double> mean_pev;              // per random term
+
+  Vec reduce(const std::vector<double>& x) const {
+    Vec out(pr.selected.size());
+    for (size_t a = 0; a < pr.selected.size(); ++a) out[a] = x[pr.selected[a]];
+    return out;
+  }
+};
+
+const std::vector<VarianceParameter>& MixedFit::parameters() const { return impl_->params; }
+double MixedFit::log_likelihood() const { return impl_->loglik; }
+int MixedFit::iterations() const { return impl_->iterations; }
+bool MixedFit::converged() const { return impl_->converged; }
+int MixedFit::fixed_rank() const { return static_cast<int>(impl_->pr.selected.size()); }
+int MixedFit::observations() const { return impl_->pr.n; }
+int MixedFit::fixed_columns() const { return impl_->pr.full_columns; }
+int MixedFit::fixed_term_first_column(int term) const { return impl_->pr.term_first[term]; }
+const TermCells& MixedFit::fixed_term_cells(int term) const { return impl_->pr.fixed_cells[term]; }
+const std::vector<double>& MixedFit::blups(int term) const { return impl_->blups[term]; }
+const TermCells& MixedFit::random_term_cells(int term) const { return impl_->pr.random_cells[term]; }
+std::vector<double> MixedFit::prediction_error_variance(int term) const { return impl_->pev[term]; }
+double MixedFit::mean_difference_pev(int term) const { return impl_->mean_pev[term]; }
+const std::vector<double>& MixedFit::field() const { return impl_->field; }
+const std::vector<double>& MixedFit::residuals() const { return impl_->residuals; }
+
+bool MixedFit::estimable(const std::vector<double>& x) const {
+  const ModelData& pr = impl_->pr;
+  const Vec xs = impl_->reduce(x);
+  double scale = 1.0;
+  for (double v : x) scale += std::abs(v);
+  for (int j = 0; j < pr.full_columns; ++j) {
+    if (pr.position[j] >= 0) continue;
+    if (std::abs(x[j] - pr.alias.col(j).dot(xs)) > 1e-8 * scale) return false;
+  }
+  return true;
+}
+double MixedFit::estimate(const std::vector<double>& x) const { return impl_->reduce(x).dot(impl_->beta); }
+double MixedFit::variance(const std::vector<double>& x) const {
+  const Vec xs = impl_->reduce(x);
+  return xs.dot(impl_->cov_beta * xs);
+}
+
+namespace {
+double satterthwaite(double v, const Vec& g, const Mat& a) {
+  const double denom = g.dot(a * g);
+  if (!(denom > 0)) return 1e6;
+  return std::min(1e6, 2.0 * v * v / denom);
+}
+}  // namespace
+
+double MixedFit::satterthwaite_df(const std::vector<double>& x) const {
+  const Vec xs = impl_->reduce(x);
+  const int nv = static_cast<int>(impl_->dcov.size());
+  Vec g = Vec::Zero(nv);
+  for (int i = 0; i < nv; ++i)
+    if (impl_->dcov[i].size()) g[i] = xs.dot(impl_->dcov[i] * xs);
+  return satterthwaite(xs.dot(impl_->cov_beta * xs), g, impl_->param_cov);
+}
+
+std::vector<double> MixedFit::covariance(const std::vector<std::vector<double>>& rows) const {
+  const int k = static_cast<int>(rows.size());
+  Mat xs(impl_->pr.selected.size(), k);
+  for (int i = 0; i < k; ++i) xs.col(i) = impl_->reduce(rows[i]);
+  const Mat m = xs.transpose() * impl_->cov_beta * xs;
+  return std::vector<double>(m.data(), m.data() + m.size());
+}
+
+std::vector<double> MixedFit::pairwise_df(const std::vector<std::vector<double>>& rows, double* average_df) const {
+  const int k = static_cast<int>(rows.size());
+  Mat xs(impl_->pr.selected.size(), k);
+  for (int i = 0; i < k; ++i) xs.col(i) = impl_->reduce(rows[i]);
+  const Mat m = xs.transpose() * impl_->cov_beta * xs;
+  const int nv = static_cast<int>(impl_->dcov.size());
+  std::vector<Mat> dm(nv);
+  for (int v = 0; v < nv; ++v)
+    if (impl_->dcov[v].size()) dm[v] = xs.transpose() * impl_->dcov[v] * xs;
+  std::vector<double> out(static_cast<size_t>(k) * k, 0.0);
+  Vec gsum = Vec::Zero(nv);
+  double vsum = 0;
+  int pairs = 0;
+  for (int i = 0; i < k; ++i)
+    for (int j = i + 1; j < k; ++j) {
+      Vec g = Vec::Zero(nv);
+      for (int v = 0; v < nv; ++v)
+        if (dm[v].size()) g[v] = dm[v](i, i) + dm[v](j, j) - 2 * dm[v](i, j);
+      const double var = m(i, i) + m(j, j) - 2 * m(i, j);
+      out[static_cast<size_t>(i) * k + j] = out[static_cast<size_t>(j) * k + i] =
+          satterthwaite(var, g, impl_->param_cov);
+      gsum += g;
+      vsum += var;
+      ++pairs;
+    }
+  if (average_df) *average_df = pairs ? satterthwaite(vsum / pairs, gsum / pairs, impl_->param_cov) : 0.0;
+  return out;
+}
+
+WaldTest MixedFit::wald(const std::vector<std::vector<double>>& rows) const {
+  WaldTest out;
+  for (const auto& r : rows)
+    if (!estimable(r)) { out.estimable = false; return out; }
+  const int q = static_cast<int>(rows.size());
+  const int p = static_cast<int>(impl_->pr.selected.size());
+  Mat l(q, p);
+  for (int i = 0; i < q; ++i) l.row(i) = impl_->reduce(rows[i]).transpose();
+  const Mat m = l * impl_->cov_beta * l.transpose();
+  Eigen::SelfAdjointEigenSolver<Mat> eig(m);
+  const double top = eig.eigenvalues().maxCoeff();
+  const Vec lb = l * impl_->beta;
+  const int nv = static_cast<int>(impl_->dcov.size());
+  double f = 0, e_sum = 0;
+  int rank = 0;
+  bool small = false;
+  double min_nu = 1e6;
+  for (int a = 0; a < q; ++a) {
+    const double d = eig.eigenvalues()[a];
+    if (!(d > 1e-10 * top)) continue;
+    const Vec pa = eig.eigenvectors().col(a);
+    const Vec lp = l.transpose() * pa;
+    f += std::pow(pa.dot(lb), 2) / d;
+    Vec g = Vec::Zero(nv);
+    for (int v = 0; v < nv; ++v)
+      if (impl_->dcov[v].size()) g[v] = lp.dot(impl_->dcov[v] * lp);
+    const double nu = satterthwaite(d, g, impl_->param_cov);
+    min_nu = std::min(min_nu, nu);
+    if (nu > 2) e_sum += nu / (nu - 2); else small = true;
+    ++rank;
+  }
+  if (rank == 0) { out.estimable = false; return out; }
+  out.num_df = rank;
+  out.f = f / rank;
+  out.den_df = (!small && e_sum > rank) ? 2.0 * e_sum / (e_sum - rank) : min_nu;
+  out.p = f_upper_tail(out.f, out.num_df, out.den_df);
+  return out;
+}
+
+Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>& y, const RemlOptions& options) {
+  auto built = build_problem(spec, y);
+  if (!built) return built.problem();
+  auto impl = std::make_shared<MixedFit::Impl>();
+  impl->pr = std::move(built).value();
+  const ModelData& pr = impl->pr;
+  Engine engine(pr);
+  const int nv = pr.n_var;
+  const int nt = engine.terms();
+  auto is_variance = [&](int v) { return v != pr.rho_row && v != pr.rho_col; };
+
+  // Starting values: the fixed-effects-only residual variance shared out.
+  std::vector<double> th(nv, 0.0);
+  if (!options.start.empty() && static_cast<int>(options.start.size()) == nv) {
+    th = options.start;
+  } else {
+    const Vec xty = pr.x_sel.transpose() * pr.y;
+    const Mat xtx = Mat(SpMat(pr.x_sel.transpose() * pr.x_sel));
+    const Vec b = xtx.ldlt().solve(xty);
+    const double s2 = std::max(1e-12, (pr.y.squaredNorm() - b.dot(xty)) / std::max(1, pr.n - static_cast<int>(b.size())));
+    const int nvar = nt + 1;
+    for (int v = 0; v < nv; ++v) th[v] = is_variance(v) ? s2 / nvar : 0.3;
+    if (s2 <= 1e-12) for (int v = 0; v < nv; ++v) if (is_variance(v)) th[v] = 1.0;
+  }
+  std::vector<char> active(nt, 1);
+  for (int k = 0; k < nt; ++k) active[k] = th[engine.var_of_term(k)] > 0;
+  engine.set_active(active);
+  Evaluation ev = engine.evaluate(th, true);
+  if (!ev.ok) return make_problem("the REML fit could not start: the mixed-model equations are singular");
+
+  auto free_params = [&](const std::vector<char>& act) {
+    std::vector<int> f;
+    for (int v = 0; v < nv; ++v) {
+      bool held = false;
+      for (int k = 0; k < nt; ++k)
+        if (!act[k] && (v == engine.var_of_term(k) || (k == nt - 1 && pr.spatial && (v == pr.rho_row || v == pr.rho_col))))
+          held = true;
+      if (!held) f.push_back(v);
+    }
+    return f;
+  };
+
+  int it = 0;
+  bool converged = false;
+  for (; it < options.max_iterations; ++it) {
+    const std::vector<int> fr = free_params(active);
+    const int nf = static_cast<int>(fr.size());
+    Mat a(nf, nf);
+    Vec g(nf);
+    for (int i = 0; i < nf; ++i) {
+      g[i] = ev.score[fr[i]];
+      for (int j = 0; j < nf; ++j) a(i, j) = ev.ai(fr[i], fr[j]);
+    }
+    Eigen::LDLT<Mat> ldlt(a);
+    Vec delta = ldlt.solve(g);
+    if (!delta.allFinite() || ldlt.info() != Eigen::Success) delta = Vec::Zero(nf);
+    bool accepted = false;
+    std::vector<double> tn;
+    std::vector<char> an;
+    Evaluation en;
+    double step = 1.0;
+    for (int h = 0; h < 14 && delta.size(); ++h, step *= 0.5) {
+      tn = th;
+      an = active;
+      for (int i = 0; i < nf; ++i) {
+        const int v = fr[i];
+        double val = th[v] + step * delta[i];
+        if (is_variance(v)) {
+          if (!(val > th[v] * 1e-8) && v != pr.resid) val = 0.0;
+          if (v == pr.resid && !(val > 0)) val = th[v] * 0.1;
+        } else {
+          val = std::clamp(val, -kMaxCorrelation, kMaxCorrelation);
+        }
+        tn[v] = val;
+      }
+      for (int k = 0; k < nt; ++k)
+        if (an[k] && tn[engine.var_of_term(k)] <= 0) an[k] = 0;
+      engine.set_active(an);
+      en = engine.evaluate(tn, true);
+      if (en.ok && en.loglik >= ev.loglik - 1e-12 * std::abs(ev.loglik)) { accepted = true; break; }
+    }
+    // A full step that overshoots (the average information leaves out the
+    // second derivatives of V, which the autocorrelations have) is cut back
+    // to where the slope along it vanishes (secant on the two slopes).
+    if (accepted && step == 1.0 && en.score.size()) {
+      const double s0 = g.dot(delta);
+      double s1 = 0;
+      for (int i = 0; i < nf; ++i) s1 += en.score[fr[i]] * delta[i];
+      if (s0 > 0 && s1 < 0) {
+        const double t = s0 / (s0 - s1);
+        if (t > 0.05 && t < 0.9) {
+          std::vector<double> tt = th;
+          for (int i = 0; i < nf; ++i) tt[fr[i]] = th[fr[i]] + t * delta[i];
+          bool inside = true;
+          for (int i = 0; i < nf; ++i)
+            if (is_variance(fr[i]) ? !(tt[fr[i]] > 0) : std::abs(tt[fr[i]]) > kMaxCorrelation) inside = false;
+          if (inside && tn != tt) {
+            engine.set_active(active);
+            Evaluation et = engine.evaluate(tt, true);
+            if (et.ok && et.loglik >= en.loglik - 1e-12 * std::abs(en.loglik)) { tn = tt; an = active; en = std::move(et); step = t; }
+            else engine.set_active(an);
+          }
+        }
+      }
+    }
+    if (!accepted) {
+      // EM-REML step: always a non-decreasing likelihood.
+      tn = th;
+      an = active;
+      engine.set_active(active);
+      ev = engine.evaluate(th, true);
+      for (int k = 0; k < nt; ++k) {
+        if (!active[k]) continue;
+        const int v = engine.var_of_term(k);
+        const int off = engine.equations().offset[k];
+        const int q = k < static_cast<int>(pr.z.size()) ? static_cast<int>(pr.z[k].cols()) : pr.rows * pr.cols;
+        const Vec u = ev.s.segment(off, q);
+        double uku = u.squaredNorm();
+        if (k == static_cast<int>(pr.z.size()))
+          uku = u.dot(field_inverse(pr.rows, pr.cols, th[pr.rho_row], th[pr.rho_col], 0) * u);
+        tn[v] = (uku + ev.trace_k[k]) / q;
+      }
+      tn[pr.resid] = (pr.y.squaredNorm() - ev.s.dot(engine.equations().wty)) / (pr.n - engine.equations().p);
+      en = engine.evaluate(tn, true);
+      if (!en.ok || en.loglik < ev.loglik - 1e-12 * std::abs(ev.loglik)) {
+        engine.set_active(active);
+        ev = engine.evaluate(th, true);
+        converged = true;   // no step improves the likelihood: numerically at the maximum
+        break;
+      }
+    }
+    if (std::getenv("FURROW_REML_TRACE")) {
+      std::fprintf(stderr, "it %d ll %.12f accepted %d step %g:", it, en.loglik, accepted ? 1 : 0, step);
+      for (int v = 0; v < nv; ++v) std::fprintf(stderr, " %.9g(g %.3g)", tn[v], en.score.size() ? en.score[v] : 0.0);
+      std::fprintf(stderr, "\n");
+    }
+    double change = 0;
+    for (int v = 0; v < nv; ++v) change = std::max(change, std::abs(tn[v] - th[v]) / std::max(std::abs(th[v]), 1e-8));
+    const double gain = en.loglik - ev.loglik;
+    th = tn;
+    active = an;
+    ev = std::move(en);
+    if (std::abs(gain) < options.loglik_tolerance && change < options.parameter_tolerance) {
+      // A variance held at zero comes back when its score there is positive.
+      bool released = false;
+      for (int k = 0; k < nt; ++k) {
+        if (active[k]) continue;
+        std::vector<double> tt = th;
+        std::vector<char> at = active;
+        tt[engine.var_of_term(k)] = th[pr.resid] * 1e-6;
+        at[k] = 1;
+        engine.set_active(at);
+        const Evaluation probe = engine.evaluate(tt, true);
+        if (probe.ok && probe.score[engine.var_of_term(k)] > 0) {
+          th = tt;
+          active = at;
+          ev = probe;
+          released = true;
+          break;
+        }
+      }
+      engine.set_active(active);
+      if (!released) { converged = true; break; }
+      ev = engine.evaluate(th, true);
+    }
+  }
+  engine.set_active(active);
+  ev = engine.evaluate(th, true);
+  impl->loglik = ev.loglik;
+  impl->iterations = it + 1;
+  impl->converged = converged;
+
+  // Parameters and their covariance (inverse average information over the free ones).
+  const std::vector<int> fr = free_params(active);
+  const int nf = static_cast<int>(fr.size());
+  Mat a(nf, nf);
+  for (int i = 0; i < nf; ++i)
+    for (int j = 0; j < nf; ++j) a(i, j) = ev.ai(fr[i], fr[j]);
+  const Mat ainv = a.ldlt().solve(Mat::Identity(nf, nf));
+  impl->param_cov = Mat::Zero(nv, nv);
+  for (int i = 0; i < nf; ++i)
+    for (int j = 0; j < nf; ++j) impl->param_cov(fr[i], fr[j]) = ainv(i, j);
+  for (int k = 0; k < static_cast<int>(spec.random.size()); ++k)
+    impl->params.push_back({spec.random[k].label, ParameterKind::variance, th[k], 0, !active[k]});
+  if (pr.spatial) {
+    const std::string label = spec.spatial->label;
+    impl->params.push_back({label + ": variance", ParameterKind::variance, th[pr.field_var], 0, !active[nt - 1]});
+    impl->params.push_back({label + ": row autocorrelation", ParameterKind::autocorrelation, th[pr.rho_row], 0, false});
+    impl->params.push_back({label + ": column autocorrelation", ParameterKind::autocorrelation, th[pr.rho_col], 0, false});
+  }
+  impl->params.push_back({"residual", ParameterKind::residual_variance, th[pr.resid], 0, false});
+  for (int v = 0; v < nv; ++v) impl->params[v].se = std::sqrt(std::max(0.0, impl->param_cov(v, v)));
+
+  // Fixed effects and the derivatives of their covariance.
+  const Equations& eq = engine.equations();
+  const int p = eq.p;
+  const double se = th[pr.resid];
+  impl->beta = ev.s.head(p);
+  impl->beta[0] += pr.y_mean;
+  std::vector<int> fixed_idx(p);
+  std::iota(fixed_idx.begin(), fixed_idx.end(), 0);
+  const Mat sc = engine.inverse_columns(fixed_idx) * se;   // columns of C^-1 for the fixed effects
+  impl->cov_beta = sc.topRows(p);
+  impl->dcov.assign(nv, Mat());
+  Mat euler = impl->cov_beta;
+  for (int k = 0; k < nt; ++k) {
+    if (!active[k]) continue;
+    const int off = eq.offset[k];
+    const int v = engine.var_of_term(k);
+    const double sk = th[v];
+    if (k < static_cast<int>(pr.z.size())) {
+      const auto cu = sc.middleRows(off, pr.z[k].cols());
+      impl->dcov[v] = cu.transpose() * cu / (sk * sk);
+    } else {
+      const int q = pr.rows * pr.cols;
+      const Mat cu = sc.middleRows(off, q);
+      const SpMat kinv = field_inverse(pr.rows, pr.cols, th[pr.rho_row], th[pr.rho_col], 0);
+      impl->dcov[v] = cu.transpose() * (kinv * cu) / (sk * sk);
+      const SpMat dr = field_inverse(pr.rows, pr.cols, th[pr.rho_row], th[pr.rho_col], 1);
+      const SpMat dc = field_inverse(pr.rows, pr.cols, th[pr.rho_row], th[pr.rho_col], 2);
+      impl->dcov[pr.rho_row] = -(cu.transpose() * (dr * cu)) / sk;
+      impl->dcov[pr.rho_col] = -(cu.transpose() * (dc * cu)) / sk;
+    }
+    euler -= sk * impl->dcov[v];
+  }
+  impl->dcov[pr.resid] = euler / se;
+
+  // Predictions of the random effects.
+  for (int k = 0; k < static_cast<int>(pr.z.size()); ++k) {
+    const int q = static_cast<int>(pr.z[k].cols());
+    std::vector<double> u(q, 0.0), pev(q, th[k]);
+    double mean_pev = 2.0 * th[k];
+    if (active[k]) {
+      const int off = eq.offset[k];
+      Vec ones = Vec::Zero(eq.m);
+      double tr = 0;
+      for (int i = 0; i < q; ++i) {
+        u[i] = ev.s[off + i];
+        pev[i] = se * engine.diag_inverse(off + i);
+        tr += pev[i];
+        ones[off + i] = 1.0;
+      }
+      const double sum_all = se * ones.dot(engine.solve(ones));
+      mean_pev = 2.0 / (q - 1) * (tr - sum_all / q);
+    }
+    impl->blups.push_back(std::move(u));
+    impl->pev.push_back(std::move(pev));
+    impl->mean_pev.push_back(mean_pev);
+  }
+  if (pr.spatial) {
+    impl->field.assign(static_cast<size_t>(pr.rows) * pr.cols, 0.0);
+    if (active[nt - 1])
+      for (int i = 0; i < pr.rows * pr.cols; ++i) impl->field[i] = ev.s[eq.offset[nt - 1] + i];
+  }
+  const Vec e = pr.y - eq.w * ev.s;
+  impl->residuals.assign(e.data(), e.data() + e.size());
+  return MixedFit(std::move(impl));
+}
+
+}  // namespace furrow
