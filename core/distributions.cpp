@@ -1,5 +1,6 @@
 #include "core/distributions.h"
 
+#include <boost/math/distributions/chi_squared.hpp>
 #include <boost/math/distributions/fisher_f.hpp>
 #include <boost/math/distributions/non_central_t.hpp>
 #include <boost/math/distributions/normal.hpp>
@@ -18,6 +19,16 @@ double f_upper_tail(double f, double df1, double df2) {
   try {
     if (std::isinf(f)) return 0.0;
     return boost::math::cdf(boost::math::complement(boost::math::fisher_f(df1, df2), f));
+  } catch (...) {
+    return kNaN;
+  }
+}
+
+double chi_square_upper_tail(double x, double df) {
+  if (!(df > 0) || !(x >= 0)) return kNaN;
+  try {
+    if (std::isinf(x)) return 0.0;
+    return boost::math::cdf(boost::math::complement(boost::math::chi_squared(df), x));
   } catch (...) {
     return kNaN;
   }

@@ -9,6 +9,9 @@ namespace furrow {
 // (df <= 0 or f < 0 or NaN), which callers must not pass.
 double f_upper_tail(double f, double df1, double df2);
 
+// P(X > x) for a chi-square variable on df degrees of freedom.
+double chi_square_upper_tail(double x, double df);
+
 // Quantile of Student's t: P(T <= x) = p. df may be +infinity (normal).
 double t_quantile(double p, double df);
 

@@ -1,0 +1,292 @@
+// REML analysis by design name (core/mixed_analysis.h).
+//
+// Balanced data: REML variance components equal the analysis-of-variance
+// (expected-mean-squares) estimates when none is negative, and the fixed-
+// effect F tests with Satterthwaite DF equal the stratum F tests - a property
+// of REML for balanced designs (Searle, Casella & McCulloch 1992, Variance
+// Components, ch. 6), checked here against this project's analysis-of-
+// variance engine, which is itself checked against published tables and NIST.
+// Required: 1e-6 relative.
+
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <map>
+#include <random>
+
+#include "core/analysis.h"
+#include "core/mixed_analysis.h"
+#include "tests/test_support.h"
+
+namespace furrow {
+namespace {
+
+const ComponentEstimate& component(const MixedAnalysis& a, const std::string& source) {
+  for (const auto& c : a.components)
+    if (c.source == source) return c;
+  FAIL("no component " << source);
+  return a.components.front();
+}
+const MixedTermTest& test_of(const MixedAnalysis& a, const std::string& source) {
+  for (const auto& t : a.tests)
+    if (t.source == source) return t;
+  FAIL("no test " << source);
+  return a.tests.front();
+}
+
+MixedAnalysis reml(const PlotTable& t, const DesignRoles& roles, const std::string& y, MixedAnalysisOptions o = {}) {
+  auto r = analyse_reml(t, roles, y, o);
+  if (!r) FAIL(r.problem().message);
+  return *r;
+}
+Analysis anova(const PlotTable& t, const DesignRoles& roles, const std::string& y) {
+  auto r = analyse(t, roles, y);
+  if (!r) FAIL(r.problem().message);
+  return *r;
+}
+
+void check_rel(double got, double want, double rel = 1e-6) {
+  INFO(got << " vs " << want);
+  CHECK(std::abs(got - want) <= rel * std::abs(want));
+}
+
+DesignRoles oats_roles() {
+  DesignRoles r;
+  r.kind = DesignKind::split_plot;
+  r.block = "B";
+  r.main_plot = "V";
+  r.sub_plot = "N";
+  return r;
+}
+
+TEST_CASE("balanced RCBD (Clewer & Scarisbrick 2001, Example 10.1): REML equals the analysis of variance") {
+  const PlotTable t = test::clewer();
+  const MixedAnalysis m = reml(t, test::rcbd_roles(), "yield");
+  const Analysis a = anova(t, test::rcbd_roles(), "yield");
+  const double ms_block = *test::row(a, "block").ms, ms_e = *test::row(a, "residual").ms;
+  check_rel(component(m, "block").variance, (ms_block - ms_e) / 4);
+  check_rel(component(m, "residual (plot error)").variance, ms_e);
+  const MixedTermTest& g = test_of(m, "gen");
+  check_rel(g.f, *test::row(a, "gen").f);
+  check_rel(g.num_df, 3);
+  check_rel(g.den_df, 6);
+  check_rel(g.p, *test::row(a, "gen").p);
+  REQUIRE(m.means.size() == 1);
+  // Means are the plain averages; the SED and LSD are the analysis of variance's.
+  for (size_t i = 0; i < 4; ++i) check_rel(m.means[0].levels[i].mean, a.means[0].levels[i].mean, 1e-9);
+  check_rel(m.means[0].sed, a.means[0].sed);
+  check_rel(m.means[0].lsd, a.means[0].lsd);
+  check_rel(m.means[0].hsd, a.means[0].hsd);
+  CHECK(m.differs_because.empty());
+  // With random blocks a mean's SE includes the block variance: sqrt((s2_b + s2_e / r) ... ) / ... here
+  // Var(mean) = (s2_b + s2_e) / 3 (each variety once in each of 3 blocks).
+  check_rel(m.means[0].levels[0].se, std::sqrt((component(m, "block").variance + ms_e) / 3));
+}
+
+TEST_CASE("split-plot: Yates (1935) oats; REML as printed by Pinheiro & Bates (2000)") {
+  const PlotTable t = test::load_csv(test::reference_path("field-experiments/oats.csv"));
+  const MixedAnalysis m = reml(t, oats_roles(), "Y");
+  const Analysis a = anova(t, oats_roles(), "Y");
+  // Published analysis of variance (SOURCE.md): B 3175.055556, B x V 601.330556, residual 177.083333.
+  const double ms_b = 3175.055556, ms_bv = 601.330556, ms_e = 177.083333;
+  check_rel(component(m, "B").variance, (ms_b - ms_bv) / 12, 1e-6);
+  check_rel(component(m, "B x V").variance, (ms_bv - ms_e) / 4, 1e-6);
+  check_rel(component(m, "residual (plot error)").variance, ms_e, 1e-6);
+  // Pinheiro, J. C. and Bates, D. M. (2000), Mixed-Effects Models in S and S-PLUS, Springer, section 1.6,
+  // fit this model (block and variety-within-block random) to the same Oats data and print standard
+  // deviations of about 14.6 (block), 10.3 (variety within block) and 13.3 (residual). These figures are
+  // recalled from memory, so they are checked to three figures only; the exact check is the one above,
+  // against the published analysis of variance.
+  CHECK(std::abs(std::sqrt(component(m, "B").variance) - 14.6) < 0.05);
+  CHECK(std::abs(std::sqrt(component(m, "B x V").variance) - 10.3) < 0.05);
+  CHECK(std::abs(std::sqrt(component(m, "residual (plot error)").variance) - 13.3) < 0.05);
+  // F tests equal the stratum F tests (SOURCE.md: V 1.485340 against B x V, N 37.685647, N x V 0.302824).
+  const MixedTermTest& v = test_of(m, "V");
+  check_rel(v.f, 1.485340, 1e-6);
+  check_rel(v.den_df, 10);
+  check_rel(test_of(m, "N").f, 37.685647, 1e-6);
+  check_rel(test_of(m, "N").den_df, 45);
+  check_rel(test_of(m, "V x N").f, 0.302824, 1e-5);
+  check_rel(test_of(m, "V x N").den_df, 45);
+  check_rel(v.p, *test::row(a, "V").p);
+  // Means and SEDs: the analysis of variance's (main plots against Ea, sub-plots against Eb).
+  REQUIRE(m.means.size() == 3);
+  for (int k = 0; k < 2; ++k) {
+    for (size_t i = 0; i < m.means[k].levels.size(); ++i) check_rel(m.means[k].levels[i].mean, a.means[k].levels[i].mean, 1e-9);
+    check_rel(m.means[k].sed, a.means[k].sed);
+    check_rel(m.means[k].lsd, a.means[k].lsd);
+  }
+  CHECK(m.differs_because.empty());
+}
+
+TEST_CASE("split-plot with a whole main plot lost: every mean is estimable by REML") {
+  PlotTable t = test::load_csv(test::reference_path("field-experiments/oats.csv"));
+  const DataColumn* b = t.find("B");
+  const DataColumn* v = t.find("V");
+  DataColumn* y = nullptr;
+  for (auto& c : t.columns)
+    if (c.name == "Y") y = &c;
+  int lost = 0;
+  for (int r = 0; r < t.records(); ++r)
+    if (b->cells[r] == "III" && v->cells[r] == "Marvellous") { y->cells[r] = "NA"; ++lost; }
+  REQUIRE(lost == 4);
+  const MixedAnalysis m = reml(t, oats_roles(), "Y");
+  int estimable = 0, total = 0;
+  for (const auto& tm : m.means)
+    for (const auto& r : tm.levels) { estimable += r.estimable; ++total; }
+  CHECK(estimable == total);
+  CHECK(total == 3 + 4 + 12);
+  CHECK(test_of(m, "V").estimable);
+  CHECK(test_of(m, "V").den_df > 0);
+  CHECK(test_of(m, "V").den_df < 10);   // fewer main plots than the complete trial's 10 DF
+  CHECK_FALSE(m.differs_because.empty());
+  CHECK(m.converged);
+}
+
+// A balanced several-site trial, simulated with a fixed seed.
+PlotTable sites_table(int sites, int blocks, int entries, unsigned seed) {
+  std::mt19937_64 rng(seed);
+  std::normal_distribution<double> z(0, 1);
+  PlotTable t;
+  t.columns = {{"site", {}}, {"block", {}}, {"entry", {}}, {"y", {}}};
+  std::vector<double> se(sites), ge(static_cast<size_t>(sites) * entries), g(entries);
+  for (auto& v : se) v = 5 * z(rng);
+  for (auto& v : g) v = 2 * z(rng);
+  for (auto& v : ge) v = 1.2 * z(rng);
+  for (int s = 0; s < sites; ++s)
+    for (int b = 0; b < blocks; ++b) {
+      const double bl = 1.5 * z(rng);
+      for (int e = 0; e < entries; ++e) {
+        t.columns[0].cells.push_back("S" + std::to_string(s));
+        t.columns[1].cells.push_back(std::to_string(b + 1));
+        t.columns[2].cells.push_back("E" + std::to_string(e));
+        char buf[32];
+        std::snprintf(buf, sizeof buf, "%.3f", 50 + se[s] + bl + g[e] + ge[static_cast<size_t>(s) * entries + e] + z(rng));
+        t.columns[3].cells.push_back(buf);
+      }
+    }
+  return t;
+}
+
+DesignRoles sites_roles(bool sites_random, bool entries_random) {
+  DesignRoles r;
+  r.kind = DesignKind::multi_site;
+  r.site = "site";
+  r.block = "block";
+  r.treatments = {"entry"};
+  r.sites_random = sites_random;
+  r.treatments_random = entries_random;
+  return r;
+}
+
+TEST_CASE("balanced several sites: REML components and the entry F test equal the analysis of variance") {
+  const PlotTable t = sites_table(4, 3, 8, 11);
+  const Analysis a = anova(t, sites_roles(true, false), "y");
+  const MixedAnalysis m = reml(t, sites_roles(true, false), "y");
+  const double ms_e = *test::row(a, "residual").ms;
+  const double ms_ge = *test::row(a, "site x entry").ms;
+  const double ms_b = *test::row(a, "block within site").ms;
+  const double ms_s = *test::row(a, "site").ms;
+  check_rel(component(m, "residual (plot error)").variance, ms_e);
+  check_rel(component(m, "site x entry").variance, (ms_ge - ms_e) / 3);
+  check_rel(component(m, "block within site").variance, (ms_b - ms_e) / 8);
+  // E(MS site) = s2_e + 8 s2_b + 3 s2_ge + 24 s2_s (balanced, entries fixed: s2_ge's coefficient
+  // is r = 3 in the unrestricted model).
+  check_rel(component(m, "site").variance, (ms_s - ms_b - ms_ge + ms_e) / 24);
+  const MixedTermTest& e = test_of(m, "entry");
+  check_rel(e.f, *test::row(a, "entry").f);
+  check_rel(e.num_df, 7);
+  check_rel(e.den_df, 21);
+}
+
+TEST_CASE("balanced several sites, random entries: components, and heritability by both formulas") {
+  const PlotTable t = sites_table(4, 3, 10, 23);
+  const Analysis a = anova(t, sites_roles(true, true), "y");
+  const MixedAnalysis m = reml(t, sites_roles(true, true), "y");
+  const auto& vc = a.variance_components;
+  REQUIRE(vc.treatment.has_value());
+  check_rel(component(m, "entry").variance, *vc.treatment);
+  check_rel(component(m, "site x entry").variance, *vc.treatment_by_site);
+  REQUIRE(m.heritability.has_value());
+  REQUIRE(m.heritability_classical.has_value());
+  // Cullis, Smith & Coombes (2006): their generalisation equals the entry-mean form for balanced data.
+  check_rel(*m.heritability, *m.heritability_classical, 1e-9);
+  check_rel(*m.heritability, *vc.heritability);
+  CHECK(m.predictions.size() == 10);
+  // Predictions shrink toward the mean: their spread is less than the plain entry means'.
+  double spread_blup = 0, spread_raw = 0;
+  std::map<std::string, double> raw;
+  for (int r = 0; r < t.records(); ++r) raw[t.columns[2].cells[r]] += std::stod(t.columns[3].cells[r]) / 12;
+  double mean_raw = 0;
+  for (auto& [k, v] : raw) mean_raw += v / 10;
+  for (const auto& p : m.predictions) {
+    spread_blup += std::pow(p.blup, 2);
+    spread_raw += std::pow(raw[p.level] - mean_raw, 2);
+  }
+  CHECK(spread_blup < spread_raw);
+}
+
+TEST_CASE("balanced RCBD with random entries: heritability equals s2_g / (s2_g + s2_e / r)") {
+  const PlotTable t = test::clewer();
+  DesignRoles roles = test::rcbd_roles();
+  roles.treatments_random = true;
+  const Analysis a = anova(t, roles, "yield");
+  const MixedAnalysis m = reml(t, roles, "yield");
+  check_rel(component(m, "gen").variance, *a.variance_components.treatment);
+  REQUIRE(m.heritability);
+  check_rel(*m.heritability, *a.variance_components.heritability);
+  check_rel(*m.heritability, *m.heritability_classical, 1e-9);
+}
+
+TEST_CASE("Latin square (Cochran & Cox 1957): rows and columns random, the operator F as printed") {
+  const PlotTable t = test::load_csv(test::reference_path("field-experiments/cochran-latin.csv"));
+  DesignRoles roles;
+  roles.kind = DesignKind::latin_square;
+  roles.row = "row_order";
+  roles.column = "col_area";
+  roles.treatments = {"operator"};
+  const MixedAnalysis m = reml(t, roles, "diff");
+  // Published: row 5.719833, column 15.773833, residual 3.328167 (MS); operator F 9.350243 on (5, 20).
+  check_rel(component(m, "row_order").variance, (5.719833 - 3.328167) / 6, 1e-6);
+  check_rel(component(m, "col_area").variance, (15.773833 - 3.328167) / 6, 1e-6);
+  check_rel(test_of(m, "operator").f, 9.350243, 1e-6);
+  check_rel(test_of(m, "operator").den_df, 20);
+  // LSD as published: 2.197094.
+  check_rel(m.means[0].lsd, 2.197094, 1e-6);
+}
+
+TEST_CASE("several sites with an entry absent at one site are analysed; the ANOVA's reasons are given") {
+  PlotTable t = sites_table(4, 3, 8, 5);
+  for (int r = 0; r < t.records(); ++r)
+    if (t.columns[0].cells[r] == "S2" && t.columns[2].cells[r] == "E7") t.columns[3].cells[r] = "";
+  const MixedAnalysis m = reml(t, sites_roles(false, false), "y");
+  REQUIRE(m.means.size() == 1);
+  for (const auto& r : m.means[0].levels) CHECK(r.estimable);
+  CHECK(m.means[0].levels.size() == 8);
+  // The absent entry's mean is less precise than the others'.
+  double se_absent = 0, se_other = 0;
+  for (const auto& r : m.means[0].levels) (r.label == "E7" ? se_absent : se_other) = r.se;
+  CHECK(se_absent > se_other);
+  CHECK(m.differs_because.size() >= 2);
+}
+
+TEST_CASE("bad input: a missing position column and a non-number position are named") {
+  PlotTable t = test::clewer();
+  MixedAnalysisOptions o;
+  o.trend = FieldTrendChoice::test;
+  o.row_column = "row";
+  o.col_column = "nope";
+  auto r = analyse_reml(t, test::rcbd_roles(), "yield", o);
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.problem().column == "nope");
+  o.col_column = "col";
+  for (auto& c : t.columns)
+    if (c.name == "row") c.cells[5] = "2.5";
+  r = analyse_reml(t, test::rcbd_roles(), "yield", o);
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.problem().column == "row");
+  CHECK(r.problem().record == 5);
+}
+
+}  // namespace
+}  // namespace furrow
