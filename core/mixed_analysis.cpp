@@ -298,7 +298,11 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     ce.se = params[k].se;
     ce.at_bound = params[k].at_bound;
     ce.correlation = params[k].kind == ParameterKind::autocorrelation;
-    if (ce.at_bound) out.notes.push_back("the variance of '" + ce.source + "' is held at zero (its estimate would be negative)");
+    if (ce.at_bound && params[k].kind == ParameterKind::residual_variance)
+      out.notes.push_back("the plot error is held at a floor of a millionth of the total variance: the field trend "
+                          "carries nearly all the variation between plots");
+    else if (ce.at_bound)
+      out.notes.push_back("the variance of '" + ce.source + "' is held at zero (its estimate would be negative)");
     out.components.push_back(ce);
   }
   if (!covariates.empty()) {
@@ -461,6 +465,11 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
       const bool pairs_wanted = options.comparisons &&
                                 ke <= (term.factors.size() == 1 ? kMaxLevelsForPairs : kMaxCellsForInteractionPairs);
       const std::vector<double> dfs = fit.pairwise_df(est_rows, &avg_df);
+      if (avg_df < 1.0) {
+        tm.note = "fewer than one degree of freedom for comparing these means (" + std::to_string(avg_df) +
+                  "); the LSD and HSD use one";
+        avg_df = 1.0;
+      }
       double vsum = 0, lmin = INFINITY, lmax = 0;
       int npairs = 0;
       const double q = studentized_range_quantile(1.0 - options.alpha, ke, avg_df);
@@ -470,7 +479,8 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
           vsum += var;
           ++npairs;
           const double sed = std::sqrt(std::max(0.0, var));
-          const double lsd = t_quantile(1.0 - options.alpha / 2, dfs[static_cast<size_t>(i) * ke + j]) * sed;
+          const double lsd =
+              t_quantile(1.0 - options.alpha / 2, std::max(1.0, dfs[static_cast<size_t>(i) * ke + j])) * sed;
           lmin = std::min(lmin, lsd);
           lmax = std::max(lmax, lsd);
           if (pairs_wanted) {
@@ -577,8 +587,8 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
         "entry x site is taken as random here: entries are compared against their spread across sites (the analysis "
         "of variance with fixed sites tests them against the plot error)");
   if (out.trend && out.trend->chosen) out.differs_because.push_back("field trend is modelled (rows and columns correlated)");
-  for (const auto& ce : out.components)
-    if (ce.at_bound && !ce.correlation)
+  for (size_t k = 0; k + 1 < out.components.size(); ++k)
+    if (const auto& ce = out.components[k]; ce.at_bound && !ce.correlation)
       out.differs_because.push_back("the variance of '" + ce.source +
                                     "' is held at zero, where the analysis of variance's estimate is negative");
   if (!covariates.empty()) out.differs_because.push_back("a straight-line trend over the field is in the model");

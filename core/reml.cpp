@@ -23,7 +23,8 @@ using SpMat = Eigen::SparseMatrix<double>;
 using Vec = Eigen::VectorXd;
 using Mat = Eigen::MatrixXd;
 using Triplet = Eigen::Triplet<double>;
-using Cholesky = Eigen::SimplicialLLT<SpMat, Eigen::Lower, Eigen::AMDOrdering<int>>;
+using Cholesky = Eigen::SimplicialLLT<SpMat, Eigen::Lower, Eigen::NaturalOrdering<int>>;
+using Permutation = Eigen::PermutationMatrix<Eigen::Dynamic, Eigen::Dynamic, int>;
 
 constexpr double kLog2Pi = 1.8378770664093454836;
 constexpr double kMaxCorrelation = 0.995;
@@ -106,6 +107,7 @@ struct Equations {
   SpMat wtw;
   Vec wty;
   Cholesky chol;
+  Permutation perm;                  // fill-reducing order: random effects by AMD, fixed effects last
   bool analysed = false;
 };
 
@@ -186,15 +188,16 @@ class Engine {
     if (!(se > 0)) return ev;
     const SpMat c = coefficient(th);
     if (!eq_->analysed) {
-      eq_->chol.analyzePattern(c);
+      order(c);
+      eq_->chol.analyzePattern(permuted(c));
       eq_->analysed = true;
     }
-    eq_->chol.factorize(c);
+    eq_->chol.factorize(permuted(c));
     if (eq_->chol.info() != Eigen::Success) return ev;
     const SpMat& lref = eq_->chol.matrixL().nestedExpression();
     double log_det_c = 0;
     for (int j = 0; j < lref.outerSize(); ++j) log_det_c += 2.0 * std::log(lref.valuePtr()[lref.outerIndexPtr()[j]]);
-    ev.s = eq_->chol.solve(eq_->wty);
+    ev.s = solve(eq_->wty);
     const Vec e = pr_.y - eq_->w * ev.s;
     ev.ee = e.squaredNorm();
     const double ypy = (pr_.y.squaredNorm() - ev.s.dot(eq_->wty)) / se;
@@ -218,8 +221,10 @@ class Engine {
     if (!derivatives || !ev.ok) return ev;
 
     // Selected inverse on the factor's pattern (scaled: S = C*^-1).
+    if (std::getenv("FURROW_REML_TRACE"))
+      std::fprintf(stderr, "equations %d, factor nonzeros %ld\n", eq_->m, static_cast<long>(lref.nonZeros()));
     selected_inverse(lref);
-    const auto& perm = eq_->chol.permutationP().indices();
+    const auto& perm = eq_->perm.indices();
     auto s_at = [&](int i, int j) {   // element of C*^-1 in original indices
       int a = perm[i], b = perm[j];
       if (a < b) std::swap(a, b);
@@ -276,7 +281,7 @@ class Engine {
     std::vector<Vec> pw(pr_.n_var);
     for (int i = 0; i < pr_.n_var; ++i) {
       if (work[i].size() == 0) continue;
-      const Vec t = eq_->chol.solve(Vec(eq_->w.transpose() * work[i]));
+      const Vec t = solve(Vec(eq_->w.transpose() * work[i]));
       pw[i] = (work[i] - eq_->w * t) / se;
     }
     for (int i = 0; i < pr_.n_var; ++i)
@@ -301,18 +306,47 @@ class Engine {
     for (size_t j = 0; j < cols.size(); ++j) {
       Vec e = Vec::Zero(eq_->m);
       e[cols[j]] = 1.0;
-      out.col(static_cast<Eigen::Index>(j)) = eq_->chol.solve(e);
+      out.col(static_cast<Eigen::Index>(j)) = solve(e);
     }
     return out;
   }
-  Vec solve(const Vec& b) { return eq_->chol.solve(b); }
+  Vec solve(const Vec& b) {
+    const Vec pb = eq_->perm * b;
+    const Vec z = eq_->chol.solve(pb);
+    return eq_->perm.transpose() * z;
+  }
   double diag_inverse(int i) {
     const SpMat& lref = eq_->chol.matrixL().nestedExpression();
-    const int a = eq_->chol.permutationP().indices()[i];
+    const int a = eq_->perm.indices()[i];
     return inverse_at(lref, a, a);
   }
 
  private:
+  SpMat permuted(const SpMat& c) const {
+    SpMat out(c.rows(), c.cols());
+    out = c.selfadjointView<Eigen::Lower>().twistedBy(eq_->perm);
+    return out;
+  }
+
+  // The elimination order: the random effects first, in approximate
+  // minimum degree order among themselves, then the fixed effects. Fixed
+  // effects (entries) touch plots all over the field; eliminated last they
+  // fill only their own dense corner instead of the whole factor.
+  void order(const SpMat& c) {
+    const int m = eq_->m, p = eq_->p, mr = m - p;
+    eq_->perm.resize(m);
+    auto& ind = eq_->perm.indices();
+    for (int i = 0; i < p; ++i) ind[i] = mr + i;
+    if (mr > 0) {
+      const SpMat block = c.bottomRightCorner(mr, mr);
+      Permutation pinv;
+      Eigen::AMDOrdering<int> amd;
+      amd(block, pinv);
+      const Permutation pr = pinv.inverse();
+      for (int j = 0; j < mr; ++j) ind[p + j] = pr.indices()[j];
+    }
+  }
+
   // Takahashi recursions: Z = (L L')^-1 on the pattern of L.
   void selected_inverse(const SpMat& l) {
     const int m = static_cast<int>(l.cols());
@@ -659,14 +693,25 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   Evaluation ev = engine.evaluate(th, true);
   if (!ev.ok) return make_problem("the REML fit could not start: the mixed-model equations are singular");
 
+  // The plot error beside a field can shrink to nothing (the field then
+  // carries all the variation): it is held at a floor, a millionth of the
+  // total variance, where the mixed-model equations stay defined.
+  // An autocorrelation that reaches +-0.995 is held there the same way.
+  std::vector<char> held(nv, 0);
+  auto resid_floor = [&](const std::vector<double>& t) {
+    double total = 0;
+    for (int v = 0; v < nv; ++v)
+      if (is_variance(v)) total += t[v];
+    return 1e-6 * total;
+  };
   auto free_params = [&](const std::vector<char>& act) {
     std::vector<int> f;
     for (int v = 0; v < nv; ++v) {
-      bool held = false;
+      bool is_held = held[v] != 0;
       for (int k = 0; k < nt; ++k)
         if (!act[k] && (v == engine.var_of_term(k) || (k == nt - 1 && pr.spatial && (v == pr.rho_row || v == pr.rho_col))))
-          held = true;
-      if (!held) f.push_back(v);
+          is_held = true;
+      if (!is_held) f.push_back(v);
     }
     return f;
   };
@@ -688,19 +733,36 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
     bool accepted = false;
     std::vector<double> tn;
     std::vector<char> an;
+    std::vector<char> rh = held;
     Evaluation en;
+    // The step is first shortened so that no variance falls by more than
+    // 90 % at once; a variance already under a ten-thousandth of the total
+    // may go to its bound (zero, or the plot error's floor). Jumping to the
+    // bound from far away would strand the fit at a boundary point that is
+    // not the maximum.
     double step = 1.0;
+    {
+      double total = 0;
+      for (int v = 0; v < nv; ++v)
+        if (is_variance(v)) total += th[v];
+      for (int i = 0; i < nf; ++i) {
+        const int v = fr[i];
+        if (is_variance(v) && delta[i] < 0 && th[v] > 1e-4 * total)
+          step = std::min(step, 0.9 * th[v] / -delta[i]);
+      }
+    }
     for (int h = 0; h < 14 && delta.size(); ++h, step *= 0.5) {
       tn = th;
       an = active;
+      rh = held;
       for (int i = 0; i < nf; ++i) {
         const int v = fr[i];
         double val = th[v] + step * delta[i];
         if (is_variance(v)) {
           if (!(val > th[v] * 1e-8) && v != pr.resid) val = 0.0;
-          if (v == pr.resid && !(val > 0)) val = th[v] * 0.1;
+          if (v == pr.resid && !(val > resid_floor(th))) { val = resid_floor(th); rh[v] = 1; }
         } else {
-          val = std::clamp(val, -kMaxCorrelation, kMaxCorrelation);
+          if (std::abs(val) >= kMaxCorrelation) { val = std::copysign(kMaxCorrelation, val); rh[v] = 1; }
         }
         tn[v] = val;
       }
@@ -713,7 +775,7 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
     // A full step that overshoots (the average information leaves out the
     // second derivatives of V, which the autocorrelations have) is cut back
     // to where the slope along it vanishes (secant on the two slopes).
-    if (accepted && step == 1.0 && en.score.size()) {
+    if (accepted && step == 1.0 && rh == held && en.score.size()) {
       const double s0 = g.dot(delta);
       double s1 = 0;
       for (int i = 0; i < nf; ++i) s1 += en.score[fr[i]] * delta[i];
@@ -728,7 +790,7 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
           if (inside && tn != tt) {
             engine.set_active(active);
             Evaluation et = engine.evaluate(tt, true);
-            if (et.ok && et.loglik >= en.loglik - 1e-12 * std::abs(en.loglik)) { tn = tt; an = active; en = std::move(et); step = t; }
+            if (et.ok && et.loglik >= en.loglik - 1e-12 * std::abs(en.loglik)) { tn = tt; an = active; rh = held; en = std::move(et); step = t; }
             else engine.set_active(an);
           }
         }
@@ -751,7 +813,9 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
           uku = u.dot(field_inverse(pr.rows, pr.cols, th[pr.rho_row], th[pr.rho_col], 0) * u);
         tn[v] = (uku + ev.trace_k[k]) / q;
       }
-      tn[pr.resid] = (pr.y.squaredNorm() - ev.s.dot(engine.equations().wty)) / (pr.n - engine.equations().p);
+      if (!held[pr.resid])
+        tn[pr.resid] = (pr.y.squaredNorm() - ev.s.dot(engine.equations().wty)) / (pr.n - engine.equations().p);
+      rh = held;
       en = engine.evaluate(tn, true);
       if (!en.ok || en.loglik < ev.loglik - 1e-12 * std::abs(ev.loglik)) {
         engine.set_active(active);
@@ -770,10 +834,16 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
     const double gain = en.loglik - ev.loglik;
     th = tn;
     active = an;
+    held = rh;
     ev = std::move(en);
     if (std::abs(gain) < options.loglik_tolerance && change < options.parameter_tolerance) {
       // A variance held at zero comes back when its score there is positive.
       bool released = false;
+      for (int v = 0; v < nv; ++v) {
+        if (!held[v]) continue;
+        const bool inward = v == pr.resid ? ev.score[v] > 0 : ev.score[v] * th[v] < 0;
+        if (inward) { held[v] = 0; released = true; }
+      }
       for (int k = 0; k < nt; ++k) {
         if (active[k]) continue;
         std::vector<double> tt = th;
@@ -816,10 +886,10 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   if (pr.spatial) {
     const std::string label = spec.spatial->label;
     impl->params.push_back({label + ": variance", ParameterKind::variance, th[pr.field_var], 0, !active[nt - 1]});
-    impl->params.push_back({label + ": row autocorrelation", ParameterKind::autocorrelation, th[pr.rho_row], 0, false});
-    impl->params.push_back({label + ": column autocorrelation", ParameterKind::autocorrelation, th[pr.rho_col], 0, false});
+    impl->params.push_back({label + ": row autocorrelation", ParameterKind::autocorrelation, th[pr.rho_row], 0, held[pr.rho_row] != 0});
+    impl->params.push_back({label + ": column autocorrelation", ParameterKind::autocorrelation, th[pr.rho_col], 0, held[pr.rho_col] != 0});
   }
-  impl->params.push_back({"residual", ParameterKind::residual_variance, th[pr.resid], 0, false});
+  impl->params.push_back({"residual", ParameterKind::residual_variance, th[pr.resid], 0, held[pr.resid] != 0});
   for (int v = 0; v < nv; ++v) impl->params[v].se = std::sqrt(std::max(0.0, impl->param_cov(v, v)));
 
   // Fixed effects and the derivatives of their covariance.
