@@ -276,11 +276,6 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
         if (rr >= 0 && rr < trend.rows && cc >= 0 && cc < trend.cols) trend.record_trend[r] = trend.trend[cc * trend.rows + rr];
       }
     if (trend.chosen) chosen = *spatial;
-    out.notes.push_back(std::string("field trend (rows and columns correlated, AR1 x AR1, plus plot error): ") +
-                        (trend.chosen ? "kept" : "not kept") + ", likelihood-ratio " +
-                        std::to_string(trend.lr_statistic).substr(0, 8) + " on 3 DF, P = " +
-                        std::to_string(trend.p).substr(0, 8) +
-                        (options.trend == FieldTrendChoice::always ? " (kept as asked)" : ""));
   }
   const MixedFit& fit = *chosen;
   out.loglik = fit.log_likelihood();

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/analysis.h"
+#include "core/mixed_analysis.h"
 
 namespace furrow {
 
@@ -20,5 +21,9 @@ struct RecordNames {
 
 std::string analysis_text(const Analysis& a, const RecordNames& records);
 std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNames& records);
+
+// The REML analysis (--method reml). JSON fields: README, "REML output".
+std::string reml_text(const MixedAnalysis& a);
+std::string reml_json(const std::vector<MixedAnalysis>& analyses);
 
 }  // namespace furrow

@@ -57,6 +57,40 @@ int run_analyze(const AnalyzeRequest& q) {
   const std::vector<int>& lines = read.csv.line_of_record;
   RecordNames names;
   for (int l : lines) names.names.push_back(std::to_string(l));
+  if (q.method == "reml") {
+    MixedAnalysisOptions mo;
+    mo.alpha = q.alpha;
+    mo.trend = q.field_trend == "test" ? FieldTrendChoice::test
+               : q.field_trend == "always" ? FieldTrendChoice::always
+                                           : FieldTrendChoice::off;
+    mo.row_column = q.row_position;
+    mo.col_column = q.column_position;
+    mo.linear_row = q.straight_trend == "rows" || q.straight_trend == "both";
+    mo.linear_col = q.straight_trend == "columns" || q.straight_trend == "both";
+    if ((mo.trend != FieldTrendChoice::off || !q.straight_trend.empty()) &&
+        (q.row_position.empty() || q.column_position.empty()))
+      return report(q.csv_path, 0, {}, "field trend needs --row-position and --column-position");
+    std::vector<MixedAnalysis> done;
+    for (const std::string& response : q.responses) {
+      auto r = analyse_reml(read.csv.table, roles, response, mo);
+      if (!r) {
+        const Problem& p = r.problem();
+        const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record]
+                         : !p.column.empty()                                       ? read.csv.header_line
+                                                                                   : 0;
+        return report(q.csv_path, line, p.column, p.message);
+      }
+      done.push_back(std::move(r).value());
+    }
+    if (q.json) {
+      std::cout << reml_json(done);
+    } else {
+      for (size_t i = 0; i < done.size(); ++i) std::cout << (i ? "\n" : "") << reml_text(done[i]);
+    }
+    return 0;
+  }
+  if (q.field_trend != "off" || !q.straight_trend.empty())
+    return report(q.csv_path, 0, {}, "--field-trend and --straight-trend need --method reml");
   const auto results = analyse_all(read.csv.table, roles, q.responses, options);
   std::vector<Analysis> done;
   for (const auto& r : results) {

@@ -21,6 +21,10 @@ struct AnalyzeRequest {
   std::string sums = "partial";
   std::string outliers = "threshold";
   bool json = false;
+  std::string method = "anova";        // anova | reml
+  std::string field_trend = "off";     // off | test | always (reml)
+  std::string row_position, column_position;
+  std::string straight_trend;          // rows | columns | both (reml)
 };
 
 // Runs the request, writing results to stdout and problems to stderr in the

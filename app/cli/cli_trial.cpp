@@ -334,7 +334,8 @@ int run_export(const std::string& db_path, const std::string& kind, const std::s
 }
 
 int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json, double alpha,
-                   const std::string& sums, bool without_interaction) {
+                   const std::string& sums, bool without_interaction, const std::string& method,
+                   const std::string& field_trend) {
   auto open = open_trial_database(db_path, Access::read_only);
   if (!open) return fail(db_path, open.problem().message);
   const StoredTrial& t = open->trial;
@@ -347,6 +348,22 @@ int run_analyze_db(const std::string& db_path, const std::string& trait_code, in
   options.alpha = alpha;
   options.sums = sums == "sequential" ? SumsKind::sequential : SumsKind::partial;
   options.without_interaction = without_interaction;
+  if (method == "reml") {
+    const FieldTrendChoice trend = field_trend == "test"     ? FieldTrendChoice::test
+                                   : field_trend == "always" ? FieldTrendChoice::always
+                                                             : FieldTrendChoice::off;
+    if (trend != FieldTrendChoice::off && t.plan.sites.size() > 1)
+      return fail(db_path, "field trend is fitted one site at a time; this trial has several sites");
+    auto r = reml_trial_trait(t, *live, trait_index, occasion, options, trend);
+    if (!r) {
+      std::string where = db_path;
+      if (r.problem().record >= 0) where += ": plot " + t.layout.plots[r.problem().record].label;
+      return fail(where, r.problem().message);
+    }
+    std::cout << (json ? reml_json({*r}) : reml_text(*r));
+    return 0;
+  }
+  if (field_trend != "off") return fail(db_path, "--field-trend needs --method reml");
   auto a = analyse_trial_trait(t, *live, trait_index, occasion, options);
   if (!a) {
     std::string where = db_path;

@@ -56,6 +56,7 @@ struct SheetsRequest {
 int run_sheets(const SheetsRequest& r);
 
 int run_analyze_db(const std::string& db_path, const std::string& trait_code, int occasion, bool json,
-                   double alpha, const std::string& sums, bool without_interaction = false);
+                   double alpha, const std::string& sums, bool without_interaction = false,
+                   const std::string& method = "anova", const std::string& field_trend = "off");
 
 }  // namespace furrow

@@ -45,6 +45,19 @@ int main(int argc, char** argv) {
   analyze->add_option("--sums", q.sums, "sequential | partial (default partial)");
   analyze->add_option("--outliers", q.outliers, "threshold | holm (default threshold: |studentized residual| > 3)");
   analyze->add_flag("--json", q.json, "print one JSON object instead of tables");
+  analyze->add_option("--method", q.method,
+                      "anova | reml (default anova; reml: mixed model by REML, right with missing plots and for field trend)")
+      ->check(CLI::IsMember({"anova", "reml"}));
+  analyze->add_option("--field-trend", q.field_trend,
+                      "off | test | always (reml only; default off): rows and columns correlated (AR1 x AR1), kept when a "
+                      "likelihood-ratio test finds it")
+      ->check(CLI::IsMember({"off", "test", "always"}));
+  analyze->add_option("--row-position", q.row_position, "column with each plot's field row, a whole number (field trend)");
+  analyze->add_option("--column-position", q.column_position,
+                      "column with each plot's field column, a whole number (field trend)");
+  analyze->add_option("--straight-trend", q.straight_trend,
+                      "rows | columns | both: add a straight-line trend over the field (reml, with positions)")
+      ->check(CLI::IsMember({"rows", "columns", "both"}));
 
   // trial new / trial show
   auto* trial = app.add_subcommand("trial", "Create or show a trial database");
@@ -310,7 +323,8 @@ int main(int argc, char** argv) {
         std::cerr << "analyze: --db needs --trait CODE\n";
         return 2;
       }
-      return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums, q.without_interaction);
+      return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums, q.without_interaction,
+                                    q.method, q.field_trend);
     }
     if (q.csv_path.empty() || q.design.empty() || response_list.empty()) {
       std::cerr << "analyze: give --db FILE --trait CODE, or --csv FILE --design KIND --response COL\n";

@@ -6,8 +6,16 @@
 
 namespace furrow {
 
-Result<Analysis> analyse_trial_trait(const StoredTrial& t, const std::vector<LiveObservation>& live,
-                                     size_t trait_index, int occasion, const AnalysisOptions& options) {
+namespace {
+
+struct TrialTable {
+  PlotTable table;
+  DesignRoles roles;
+  std::string response;
+};
+
+Result<TrialTable> trial_table(const StoredTrial& t, const std::vector<LiveObservation>& live, size_t trait_index,
+                               int occasion) {
   const Trait* trait = &t.plan.traits[trait_index];
   if (trait->kind == TraitKind::text || trait->kind == TraitKind::category)
     return make_problem(trait->code + " is not numeric; it cannot be analysed");
@@ -69,7 +77,33 @@ Result<Analysis> analyse_trial_trait(const StoredTrial& t, const std::vector<Liv
     default:
       break;
   }
-  return analyse(table, roles, trait->code, options);
+  return TrialTable{std::move(table), std::move(roles), trait->code};
+}
+
+}  // namespace
+
+Result<Analysis> analyse_trial_trait(const StoredTrial& t, const std::vector<LiveObservation>& live,
+                                     size_t trait_index, int occasion, const AnalysisOptions& options) {
+  auto tt = trial_table(t, live, trait_index, occasion);
+  if (!tt) return tt.problem();
+  return analyse(tt->table, tt->roles, tt->response, options);
+}
+
+Result<MixedAnalysis> reml_trial_trait(const StoredTrial& t, const std::vector<LiveObservation>& live,
+                                       size_t trait_index, int occasion, const AnalysisOptions& options,
+                                       FieldTrendChoice trend) {
+  auto tt = trial_table(t, live, trait_index, occasion);
+  if (!tt) return tt.problem();
+  tt->roles.without_interaction = options.without_interaction;
+  MixedAnalysisOptions mo;
+  mo.alpha = options.alpha;
+  mo.comparisons = options.comparisons;
+  mo.trend = trend;
+  mo.row_column = "field_row";
+  mo.col_column = "field_column";
+  // Field trend is fitted one site at a time: a trial over several sites is left without it.
+  if (t.plan.sites.size() > 1) mo.trend = FieldTrendChoice::off;
+  return analyse_reml(tt->table, tt->roles, tt->response, mo);
 }
 
 }  // namespace furrow

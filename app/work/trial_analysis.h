@@ -5,6 +5,7 @@
 // Cells in conflict are left out until they are settled.
 
 #include "core/analysis.h"
+#include "core/mixed_analysis.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
@@ -13,5 +14,11 @@ namespace furrow {
 // and with the engine's Problems (one level, no error DF, ...).
 Result<Analysis> analyse_trial_trait(const StoredTrial& trial, const std::vector<LiveObservation>& live,
                                      size_t trait_index, int occasion, const AnalysisOptions& options);
+
+// The same trait by REML (core/mixed_analysis.h), positions from the plan's
+// field rows and columns; field trend only for a trial at one site.
+Result<MixedAnalysis> reml_trial_trait(const StoredTrial& trial, const std::vector<LiveObservation>& live,
+                                       size_t trait_index, int occasion, const AnalysisOptions& options,
+                                       FieldTrendChoice trend);
 
 }  // namespace furrow

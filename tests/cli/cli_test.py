@@ -116,5 +116,35 @@ with tempfile.TemporaryDirectory() as tmp:
     bad("no_error_df.csv", b"entry,y\nA,1\nB,2\n", ["--design", "crd", "--treatment", "entry", "--response", "y"],
         ["no degrees of freedom for error"])
     bad("bad_sums.csv", good, rcbd + ["--sums", "type3"], ["--sums must be sequential or partial"])
+    bad("trend_without_reml.csv", good, rcbd + ["--field-trend", "test", "--row-position", "block",
+                                                "--column-position", "entry"], ["need --method reml"])
+    bad("trend_without_positions.csv", good, rcbd + ["--method", "reml", "--field-trend", "test"],
+        ["needs --row-position and --column-position"])
+    bad("trend_bad_position.csv", b"row,col,block,entry,y\n1,1,1,A,5\n1,2,1,B,6\n2,1,2,A,5.5\n2,x,2,B,6.1\n",
+        rcbd + ["--method", "reml", "--field-trend", "test", "--row-position", "row", "--column-position", "col"],
+        ["trend_bad_position.csv:5:", "column 'col'", "whole number"])
+
+# 6. REML through the command line on Yates' oats split-plot (SOURCE.md): balanced, so the
+#    components are the published analysis of variance's expected-mean-square estimates and
+#    the F tests are the stratum F tests.
+code, out, err = run("--csv", os.path.join(REF, "field-experiments", "oats.csv"), "--design", "split-plot",
+                     "--block", "B", "--main-plot", "V", "--sub-plot", "N", "--response", "Y", "--method", "reml",
+                     "--json")
+check(code == 0, f"REML on the oats exits 0 ({err.strip()})")
+j = json.loads(out)
+check(j["analysis"] == "reml" and j["differs_because"] == [], "REML JSON: analysis and no difference from ANOVA")
+comp = {c["source"]: c for c in j["components"]}
+check(abs(comp["B"]["estimate"] - (3175.055556 - 601.330556) / 12) < 1e-4, "oats block variance")
+check(abs(comp["B x V"]["estimate"] - (601.330556 - 177.083333) / 4) < 1e-4, "oats main-plot variance")
+check(abs(comp["residual (plot error)"]["estimate"] - 177.083333) < 1e-4, "oats plot error")
+tests = {t["source"]: t for t in j["tests"]}
+check(abs(tests["V"]["f"] - 1.485340) < 1e-5 and abs(tests["V"]["den_df"] - 10) < 1e-6, "V against B x V")
+check(abs(tests["N"]["f"] - 37.685647) < 1e-5 and abs(tests["N"]["den_df"] - 45) < 1e-6, "N against the plot error")
+for key in ["components", "tests", "means", "comparisons", "heritability", "predictions", "field_trend",
+            "log_likelihood", "model", "notes", "caution"]:
+    check(key in j, f"REML JSON has {key}")
+code, out, err = run(*DEMO_ARGS, "--response", "height_cm", "--method", "reml", "--field-trend", "test",
+                     "--row-position", "field_row", "--column-position", "field_column")
+check(code == 0 and "Field trend" in out and "REML" in out, f"REML with a field-trend test on the demo ({err.strip()})")
 
 check.finish()
