@@ -886,11 +886,14 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   if (pr.spatial) {
     const std::string label = spec.spatial->label;
     impl->params.push_back({label + ": variance", ParameterKind::variance, th[pr.field_var], 0, !active[nt - 1]});
-    impl->params.push_back({label + ": row autocorrelation", ParameterKind::autocorrelation, th[pr.rho_row], 0, held[pr.rho_row] != 0});
-    impl->params.push_back({label + ": column autocorrelation", ParameterKind::autocorrelation, th[pr.rho_col], 0, held[pr.rho_col] != 0});
+    impl->params.push_back({label + ": row autocorrelation", ParameterKind::autocorrelation, th[pr.rho_row], 0,
+                             held[pr.rho_row] != 0 || std::abs(th[pr.rho_row]) >= kMaxCorrelation - 1e-12});
+    impl->params.push_back({label + ": column autocorrelation", ParameterKind::autocorrelation, th[pr.rho_col], 0,
+                             held[pr.rho_col] != 0 || std::abs(th[pr.rho_col]) >= kMaxCorrelation - 1e-12});
   }
   impl->params.push_back({"residual", ParameterKind::residual_variance, th[pr.resid], 0, held[pr.resid] != 0});
-  for (int v = 0; v < nv; ++v) impl->params[v].se = std::sqrt(std::max(0.0, impl->param_cov(v, v)));
+  for (int v = 0; v < nv; ++v)
+    impl->params[v].se = impl->params[v].at_bound ? 0.0 : std::sqrt(std::max(0.0, impl->param_cov(v, v)));
 
   // Fixed effects and the derivatives of their covariance.
   const Equations& eq = engine.equations();

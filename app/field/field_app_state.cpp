@@ -774,6 +774,28 @@ class FieldApp final : public FieldAppState {
     return *analysis_;
   }
 
+  // The same trait by REML, with a field-trend test at a one-site trial.
+  // Computed with the analysis for trials up to kAutoRemlPlots plots; above
+  // that only when asked on the Check screen (it takes seconds there).
+  static constexpr size_t kAutoRemlPlots = 3000;
+  bool reml_wanted() const {
+    return session_->trial().layout.plots.size() <= kAutoRemlPlots || check_ui_.reml_requested;
+  }
+  const Result<MixedAnalysis>* reml() {
+    if (!reml_wanted()) return nullptr;
+    const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0,
+                  check_ui_.without_interaction};
+    if (!reml_ || !(reml_key_ == key)) {
+      AnalysisOptions options;
+      options.alpha = settings_.alpha;
+      options.without_interaction = check_ui_.without_interaction;
+      reml_.emplace(reml_trial_trait(session_->trial(), session_->live(), key.trait, key.occasion, options,
+                                     FieldTrendChoice::test));
+      reml_key_ = key;
+    }
+    return &*reml_;
+  }
+
   void step_trait(int delta) {
     const size_t n = session_->trial().plan.traits.size();
     session_->set_trait((session_->trait_index() + n + delta) % n);
@@ -784,11 +806,12 @@ class FieldApp final : public FieldAppState {
                   static_cast<int>(map_ui_.colouring)};
     if (!map_ || !(map_key_ == key)) {
       const Result<Analysis>* a = map_ui_.colouring == MapColouring::residual ? &analysis() : nullptr;
+      const Result<MixedAnalysis>* r = map_ui_.colouring == MapColouring::trend ? reml() : nullptr;
       // The status map marks what Before leaving would ask about this trait
       // and occasion on every plot, whatever today's walk is.
       map_ = build_field_map(session_->trial(), session_->live(), key.trait, key.occasion, map_ui_.colouring, theme_,
                              map_ui_.colouring == MapColouring::status ? &trait_list() : nullptr,
-                             a && *a ? &**a : nullptr);
+                             a && *a ? &**a : nullptr, r && *r ? &**r : nullptr);
       map_key_ = key;
       labels_.clear();
       for (const PlannedPlot& p : session_->trial().layout.plots) labels_.push_back(p.label);
@@ -838,9 +861,14 @@ class FieldApp final : public FieldAppState {
       if (blind && blind->kind == CheckAction::Kind::previous_trait) step_trait(-1);
       return;
     }
+    const Result<MixedAnalysis>* r = a ? reml() : nullptr;
+    RemlView rv;
+    rv.analysis = r && *r ? &**r : nullptr;
+    rv.problem = r && !*r ? r->problem().message : "";
+    rv.on_request = !reml_wanted();
     const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
                                           trait_title(), session_->trial().plan.traits[session_->trait_index()].unit,
-                                          every_trait_ ? *every_trait_ : kNone, theme_, scale, top, &check_ui_);
+                                          every_trait_ ? *every_trait_ : kNone, theme_, scale, top, &check_ui_, rv);
     if (!action) return;
     switch (action->kind) {
       case CheckAction::Kind::open_plot:
@@ -897,6 +925,8 @@ class FieldApp final : public FieldAppState {
   Key map_key_;
   std::vector<std::string> labels_;
   std::optional<Result<Analysis>> analysis_;
+  std::optional<Result<MixedAnalysis>> reml_;
+  Key reml_key_;
   Key analysis_key_;
   std::vector<TapTarget> help_targets_;
   std::optional<BeforeLeaving> question_list_;

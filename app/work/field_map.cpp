@@ -49,7 +49,7 @@ Rgb text_on(const Rgb& fill) {
 
 FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation>& live, size_t trait_index,
                          int occasion, MapColouring colouring, const Theme& theme, const BeforeLeaving* leaving,
-                         const Analysis* analysis) {
+                         const Analysis* analysis, const MixedAnalysis* reml) {
   FieldMap m;
   m.rows = t.plan.rows;
   m.columns = t.plan.columns;
@@ -84,6 +84,12 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
     for (const PlotFit& f : analysis->fits)
       if (f.record >= 0 && static_cast<size_t>(f.record) < residuals.size()) residuals[f.record] = f.studentized;
 
+  // The fitted field trend, centred on zero: its largest size sets the scale.
+  const FieldTrendFit* trend = reml && reml->trend ? &*reml->trend : nullptr;
+  double trend_end = 0;
+  if (trend)
+    for (double v : trend->record_trend) trend_end = std::max(trend_end, std::abs(v));
+
   double lo = 0, hi = 0;
   bool any_value = false;
   for (const auto& n : numbers)
@@ -105,6 +111,7 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
     else if (values[i].size() == 1) mp.state = reasoned[i] && !numbers[i] ? PlotState::missing : PlotState::collected;
     if (values[i].size() == 1) mp.value = numbers[i];
     mp.residual = residuals[i];
+    if (trend && i < trend->record_trend.size()) mp.trend = trend->record_trend[i];
     // Status decides the pattern in every colouring, so that a conflict or a
     // value to check stays visible on a value map too.
     switch (mp.state) {
@@ -118,6 +125,8 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
       mp.fill = value_colour(hi > lo ? (*mp.value - lo) / (hi - lo) : 0.5);
     if (colouring == MapColouring::residual && mp.residual && mp.state != PlotState::conflict)
       mp.fill = residual_colour(std::clamp(*mp.residual / kResidualScaleEnd, -1.0, 1.0));
+    if (colouring == MapColouring::trend && mp.trend && trend_end > 0)
+      mp.fill = residual_colour(std::clamp(*mp.trend / trend_end, -1.0, 1.0));
     if (colouring != MapColouring::status && mp.state == PlotState::collected) mp.pattern = MapPattern::none;
     mp.text = mp.state == PlotState::not_yet ? theme.text : text_on(mp.fill);
     m.plots.push_back(mp);
@@ -144,6 +153,21 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
       m.scale_low = number_text(lo);
       m.scale_high = number_text(hi);
     }
+  } else if (colouring == MapColouring::trend) {
+    if (!trend) {
+      m.note = reml ? "No field trend: it is fitted for a trial at one site whose plots have field rows and columns."
+                    : "No mixed-model analysis of this trait yet (it needs values in every treatment).";
+    } else {
+      char p[32];
+      std::snprintf(p, sizeof p, "%.3g", trend->p);
+      m.note = std::string("Fitted field trend (rows and columns correlated, REML): ") +
+               (trend->chosen ? "kept, it improves the fit" : "not kept, it does not improve the fit") +
+               " (likelihood-ratio P = " + p + "). Blue: lower than the field average; orange: higher.";
+    }
+    for (int k = -2; k <= 2; ++k)
+      m.legend.push_back({residual_colour(k / 2.0), MapPattern::none, number_text(k * trend_end / 2.0)});
+    m.scale_low = "-" + number_text(trend_end) + " (poorer ground)";
+    m.scale_high = "+" + number_text(trend_end) + " (better ground)";
   } else {
     if (!analysis) m.note = "No interim analysis of this trait yet (it needs values in every treatment).";
     for (int k = -2; k <= 2; ++k)

@@ -18,11 +18,12 @@
 #include "app/work/before_leaving.h"
 #include "app/work/theme.h"
 #include "core/analysis.h"
+#include "core/mixed_analysis.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
 
-enum class MapColouring { status, value, residual };
+enum class MapColouring { status, value, residual, trend };
 
 enum class PlotState { not_yet, collected, missing, to_check, conflict };
 
@@ -35,6 +36,7 @@ struct MapPlot {
   PlotState state = PlotState::not_yet;
   std::optional<double> value;    // the trait's live value (numeric traits)
   std::optional<double> residual; // internally studentized residual, when analysed
+  std::optional<double> trend;    // fitted field trend (REML, AR1 x AR1), in the trait's unit
   Rgb fill, text;                 // text: black or white, whichever contrasts more
   MapPattern pattern = MapPattern::none;
 };
@@ -55,10 +57,11 @@ struct FieldMap {
 };
 
 // `leaving` marks values to check (flagged or outliers) for the trait;
-// `analysis` (of the same trait and occasion) gives residuals.
+// `analysis` (of the same trait and occasion) gives residuals; `reml` (the
+// same, by REML with a field-trend test) gives the fitted field trend.
 FieldMap build_field_map(const StoredTrial& trial, const std::vector<LiveObservation>& live, size_t trait_index,
                          int occasion, MapColouring colouring, const Theme& theme, const BeforeLeaving* leaving,
-                         const Analysis* analysis);
+                         const Analysis* analysis, const MixedAnalysis* reml = nullptr);
 
 // A point on the value scale, t in [0, 1] (dark blue to yellow).
 Rgb value_colour(double t);

@@ -165,17 +165,12 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
     h << "</tbody></table>\n";
   }
 
-  // Field map.
-  if (map_trait < p.traits.size()) {
-    const Theme theme = make_theme(ThemeKind::daylight);
-    const FieldMap m = build_field_map(t, *live, map_trait, 1, MapColouring::value, theme, nullptr, nullptr);
+  // A field map as inline SVG: every plot at its place, filled as the map says.
+  const auto svg_map = [&](const FieldMap& m, const char* aria) {
     const float cellpx = std::max(14.0f, std::min(44.0f, 1000.0f / std::max(1, m.columns * static_cast<int>(m.site_names.size()))));
     const MapGeometry g = map_geometry(m, cellpx, m.site_names.size() > 1 ? 18.0f : 0.0f);
-    h << "<h2>Field map: " << esc(p.traits[map_trait].name) << "</h2>\n<p class=muted>Row 1 at the top, column 1 "
-         "on the left; colour from low (dark blue) to high (yellow); a cross marks a conflict, a diagonal a plot "
-         "without a value; blank plots are not recorded yet.</p>\n";
     h << "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" << g.width << "\" height=\"" << g.height
-      << "\" viewBox=\"0 0 " << g.width << " " << g.height << "\" role=img aria-label=\"field map\">\n";
+      << "\" viewBox=\"0 0 " << g.width << " " << g.height << "\" role=img aria-label=\"" << aria << "\">\n";
     for (size_t s = 0; s < m.site_names.size() && g.header > 0; ++s)
       h << "<text x=\"" << g.site_x(static_cast<int>(s)) << "\" y=\"13\" font-size=\"13\">" << esc(m.site_names[s])
         << "</text>";
@@ -184,6 +179,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
       const std::string fill = mp.state == PlotState::not_yet ? "#ffffff" : hex(mp.fill);
       h << "<g class=plot data-plot=\"" << esc(t.layout.plots[mp.plot_index].label) << "\"";
       if (mp.value) h << " data-value=\"" << exact(*mp.value) << "\"";
+      if (mp.trend) h << " data-trend=\"" << exact(*mp.trend) << "\"";
       h << "><title>plot " << esc(t.layout.plots[mp.plot_index].label)
         << (mp.value ? ": " + value_text(*mp.value) : std::string()) << "</title><rect x=\"" << r.x0 << "\" y=\""
         << r.y0 << "\" width=\"" << (r.x1 - r.x0) << "\" height=\"" << (r.y1 - r.y0) << "\" fill=\"" << fill
@@ -205,6 +201,16 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
     for (const LegendEntry& e : m.legend)
       h << "<span><span class=swatch style=\"background:" << hex(e.fill) << "\"></span>" << esc(e.label) << "</span>";
     h << "</p>\n";
+  };
+
+  // Field map.
+  if (map_trait < p.traits.size()) {
+    const Theme theme = make_theme(ThemeKind::daylight);
+    const FieldMap m = build_field_map(t, *live, map_trait, 1, MapColouring::value, theme, nullptr, nullptr);
+    h << "<h2>Field map: " << esc(p.traits[map_trait].name) << "</h2>\n<p class=muted>Row 1 at the top, column 1 "
+         "on the left; colour from low (dark blue) to high (yellow); a cross marks a conflict, a diagonal a plot "
+         "without a value; blank plots are not recorded yet.</p>\n";
+    svg_map(m, "field map");
   }
 
   // The layout as a table: every plot's place and treatment.
@@ -221,6 +227,7 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
 
   // Analyses.
   h << "<h2>Analyses</h2>\n";
+  constexpr size_t kReportRemlPlots = 3000;
   AnalysisOptions ao;
   ao.alpha = options.alpha;
   for (size_t k = 0; k < p.traits.size(); ++k) {
@@ -296,6 +303,50 @@ Result<std::string> report_html(const std::string& db_path, const ReportOptions&
         h << "</p>\n";
       }
       for (const auto& n : a->notes) h << "<p class=muted>Note: " << esc(n) << "</p>\n";
+      // The mixed-model check (REML), with a field-trend test at a one-site trial.
+      if (t.layout.plots.size() > kReportRemlPlots) {
+        h << "<p class=muted>Mixed-model check (REML): not run for a trial of over " << kReportRemlPlots
+          << " plots in the report; the command line runs it (analyze --method reml).</p>\n";
+      } else if (auto r = reml_trial_trait(t, *live, k, occ, ao, FieldTrendChoice::test); !r) {
+        h << "<p class=muted>Mixed-model check (REML) not available: " << esc(r.problem().message) << "</p>\n";
+      } else {
+        h << "<div class=reml data-differs=\"" << (r->differs_because.empty() ? "no" : "yes") << "\">";
+        if (r->differs_because.empty()) {
+          h << "<p>Mixed-model check (REML): the same answer; the analysis of variance is exact for these data.</p>";
+        } else {
+          h << "<p>Mixed-model check (REML) differs from the analysis of variance because:</p><ul>";
+          for (const auto& why : r->differs_because) h << "<li>" << esc(why) << "</li>";
+          h << "</ul><table class=reml_tests><thead><tr><th>Term</th><th>DF</th><th>Denominator DF</th><th>F</th>"
+               "<th>P</th></tr></thead><tbody>";
+          for (const MixedTermTest& x : r->tests)
+            h << "<tr>" << cell(x.source)
+              << (x.estimable ? num_cell(x.num_df, df_text(x.num_df)) + num_cell(x.den_df, table_number(x.den_df, 3)) +
+                                    num_cell(x.f, table_number(x.f, 4)) + num_cell(x.p, p_text(x.p))
+                              : cell(term::kNotEstimable) + cell("") + cell("") + cell(""))
+              << "</tr>";
+          h << "</tbody></table>";
+        }
+        h << "<p>REML variance components:";
+        for (const ComponentEstimate& c : r->components)
+          h << " " << esc(c.source) << " " << esc(table_number(c.variance, 4))
+            << (c.at_bound ? " (held at bound)" : " (SE " + esc(table_number(c.se, 3)) + ")") << ";";
+        if (r->heritability) h << " heritability (Cullis, Smith & Coombes 2006) " << esc(table_number(*r->heritability, 3)) << ";";
+        h << "</p>";
+        if (r->trend) {
+          const FieldTrendFit& f = *r->trend;
+          h << "<p class=trend data-kept=\"" << (f.chosen ? "yes" : "no") << "\">Field trend (rows and columns "
+            << "correlated, AR1 x AR1): " << (f.chosen ? "kept" : "not kept") << ", likelihood-ratio P "
+            << esc(p_text(f.p)) << "; autocorrelation down rows " << esc(table_number(f.rho_row, 2))
+            << ", across columns " << esc(table_number(f.rho_col, 2)) << ".</p>";
+          if (f.chosen) {
+            const FieldMap fm = build_field_map(t, *live, k, occ, MapColouring::trend, make_theme(ThemeKind::daylight),
+                                                nullptr, nullptr, &*r);
+            h << "<p class=muted>" << esc(fm.note) << "</p>\n";
+            svg_map(fm, "fitted field trend");
+          }
+        }
+        h << "</div>\n";
+      }
       h << "</section>\n";
     }
   }

@@ -68,12 +68,110 @@ Chart begin_chart(const char* title, double y_lo, double y_hi, float height, con
   return c;
 }
 
+// The mixed-model check: one line when it agrees, else why it differs and
+// its components, tests, means and field trend.
+void draw_reml(const RemlView& v, const std::string& unit_suffix, int digits, const Theme& t, float scale,
+               CheckScreenState* st) {
+  const float h = touch_px(scale);
+  const ImGuiTableFlags tf = ImGuiTableFlags_Borders | ImGuiTableFlags_RowBg | ImGuiTableFlags_SizingStretchProp;
+  if (!v.analysis) {
+    if (v.on_request) {
+      heading("Mixed-model check (REML)");
+      ImGui::TextWrapped("It is right where plots, main plots or entries at a site are missing, and tests for field "
+                         "trend. On a trial this size it takes some seconds.");
+      const char* label = "Run the mixed-model check";
+      if (solid_button(label, ImVec2(button_width(label, scale), h), ButtonLook{t.button, t.button_text}, &st->targets,
+                       "run reml"))
+        st->reml_requested = true;
+    } else if (!v.problem.empty()) {
+      ImGui::TextWrapped("Mixed-model check (REML) not available: %s", v.problem.c_str());
+    }
+    return;
+  }
+  const MixedAnalysis& r = *v.analysis;
+  if (r.differs_because.empty()) {
+    std::string line = "Mixed-model check (REML): the same answer; the analysis of variance is exact for these data.";
+    if (r.trend)
+      line += " Field trend tested and not kept (likelihood-ratio P " + p_text(r.trend->p) + ").";
+    ImGui::TextWrapped("%s", line.c_str());
+    return;
+  }
+  heading("Mixed-model check (REML): it differs from the analysis of variance");
+  for (const std::string& why : r.differs_because) ImGui::TextWrapped("- Because %s.", why.c_str());
+  ImGui::TextWrapped("Where they differ, the REML figures below are the better guide for checking the data.");
+  if (ImGui::BeginTable("reml_components", 3, tf)) {
+    for (const char* c : {"Variance component", "Estimate", "SE"}) ImGui::TableSetupColumn(c);
+    ImGui::TableHeadersRow();
+    for (const ComponentEstimate& c : r.components) {
+      ImGui::TableNextRow();
+      const std::string cells[3] = {c.source + (c.correlation ? " (autocorrelation)" : ""), table_number(c.variance, 4),
+                                    c.at_bound ? "held at bound" : table_number(c.se, 3)};
+      for (int k = 0; k < 3; ++k) {
+        ImGui::TableSetColumnIndex(k);
+        ImGui::TextUnformatted(cells[k].c_str());
+      }
+    }
+    ImGui::EndTable();
+  }
+  if (ImGui::BeginTable("reml_tests", 5, tf)) {
+    for (const char* c : {term::kTerm, "DF", "Denominator DF", "F", "P"}) ImGui::TableSetupColumn(c);
+    ImGui::TableHeadersRow();
+    for (const MixedTermTest& x : r.tests) {
+      ImGui::TableNextRow();
+      const std::string cells[5] = {x.source, x.estimable ? df_text(x.num_df) : term::kNotEstimable,
+                                    x.estimable ? table_number(x.den_df, 3) : "", x.estimable ? table_number(x.f, 4) : "",
+                                    x.estimable ? p_text(x.p) : ""};
+      for (int k = 0; k < 5; ++k) {
+        ImGui::TableSetColumnIndex(k);
+        ImGui::TextUnformatted(cells[k].c_str());
+      }
+    }
+    ImGui::EndTable();
+  }
+  for (const TermMeans& m : r.means) {
+    ImGui::TextWrapped("Predicted means of %s (REML), highest first:", m.term.c_str());
+    std::vector<const MeanRow*> rows;
+    for (const MeanRow& x : m.levels) rows.push_back(&x);
+    std::stable_sort(rows.begin(), rows.end(), [](const MeanRow* x, const MeanRow* y) {
+      if (x->estimable != y->estimable) return x->estimable;
+      return x->mean > y->mean;
+    });
+    if (ImGui::BeginTable(("reml_means" + m.term).c_str(), 4, tf)) {
+      for (const char* c : {m.term.c_str(), term::kMean, term::kSe, term::kLsdGroup}) ImGui::TableSetupColumn(c);
+      ImGui::TableHeadersRow();
+      for (const MeanRow* x : rows) {
+        ImGui::TableNextRow();
+        const std::string cells[4] = {x->label, x->estimable ? table_number(x->mean, digits) : term::kNotEstimable,
+                                      x->estimable ? table_number(x->se, 3) : "-", x->group_lsd};
+        for (int k = 0; k < 4; ++k) {
+          ImGui::TableSetColumnIndex(k);
+          ImGui::TextUnformatted(cells[k].c_str());
+        }
+      }
+      ImGui::EndTable();
+    }
+    std::string line = "SE of a difference " + table_number(m.sed, 3) + unit_suffix + ", LSD " + table_number(m.lsd, 4) +
+                       unit_suffix + " on " + table_number(m.error_df, 3) + " DF (Satterthwaite).";
+    if (!m.note.empty()) line += " " + m.note + ".";
+    ImGui::TextWrapped("%s", line.c_str());
+  }
+  if (r.heritability) ImGui::TextWrapped("Heritability (Cullis, Smith & Coombes 2006): %s", table_number(*r.heritability, 3).c_str());
+  if (r.trend) {
+    const FieldTrendFit& f = *r.trend;
+    ImGui::TextWrapped("Field trend (rows and columns correlated): %s, likelihood-ratio P %s; autocorrelation down rows "
+                       "%s, across columns %s. The Field map's \"Field trend\" colouring draws it.",
+                       f.chosen ? "kept" : "not kept", p_text(f.p).c_str(), table_number(f.rho_row, 2).c_str(),
+                       table_number(f.rho_col, 2).c_str());
+  }
+  for (const std::string& n : r.notes) ImGui::TextWrapped("note: %s", n.c_str());
+}
+
 }  // namespace
 
 std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Analysis* a, const std::string& problem,
                                              const std::string& trait_title, const std::string& unit,
                                              const std::vector<EveryTraitOutlier>& every_trait, const Theme& t,
-                                             float scale, float top_px, CheckScreenState* st) {
+                                             float scale, float top_px, CheckScreenState* st, const RemlView& reml) {
   st->targets.clear();
   std::optional<CheckAction> action;
   const ScreenWindow window("Check", t, top_px,
@@ -249,6 +347,9 @@ std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Ana
     ImGui::TextWrapped("%s", line.c_str());
     if (!m.note.empty()) ImGui::TextWrapped("%s", m.note.c_str());
   }
+
+  // The mixed-model check, after the analysis of variance's own answer.
+  draw_reml(reml, unit_suffix, digits_for(a->grand_mean, a->residual_sd, 4), t, scale, st);
 
   // Chart: every plot's value by treatment, with the treatment's mean.
   std::map<std::string, std::vector<double>> by_treatment;

@@ -15,6 +15,7 @@
 #include "app/field/screens/record_screen.h"
 #include "app/work/theme.h"
 #include "core/analysis.h"
+#include "core/mixed_analysis.h"
 #include "storage/trial_store.h"
 
 namespace furrow {
@@ -23,6 +24,7 @@ struct CheckScreenState {
   bool means_in_plan_order = false;    // else highest mean first
   bool every_trait_outliers = false;   // the supervisor's list instead of one trait's analysis
   bool without_interaction = false;    // main effects only (factorial, split-plot, several sites)
+  bool reml_requested = false;         // a large trial's mixed-model check, asked for
   std::vector<TapTarget> targets;      // rebuilt every frame
 };
 
@@ -40,12 +42,22 @@ struct EveryTraitOutlier {
   std::string text;
 };
 
+// The mixed-model (REML) check beside the analysis of variance: shown where
+// it differs (missing plots, a lost main plot, entries absent at a site,
+// field trend) and why; one line where the analysis of variance is exact.
+struct RemlView {
+  const MixedAnalysis* analysis = nullptr;   // null: not computed (see on_request) or failed (see problem)
+  std::string problem;
+  bool on_request = false;                   // a large trial: a button computes it
+};
+
 // `analysis` is null when the trait cannot be analysed yet; `problem` then
 // says why in plain words. `unit` is the trait's unit (may be empty);
 // `every_trait` the outlier plots of every trait (shown on request).
 std::optional<CheckAction> draw_check_screen(const StoredTrial& trial, const Analysis* analysis,
                                              const std::string& problem, const std::string& trait_title,
                                              const std::string& unit, const std::vector<EveryTraitOutlier>& every_trait,
-                                             const Theme& theme, float scale, float top_px, CheckScreenState* state);
+                                             const Theme& theme, float scale, float top_px, CheckScreenState* state,
+                                             const RemlView& reml = {});
 
 }  // namespace furrow

@@ -57,7 +57,8 @@ std::optional<MapAction> draw_map_screen(const FieldMap& map, const std::vector<
 
   // Controls: what colours the plots, which trait, how near.
   const struct { const char* label; MapColouring c; } modes[] = {
-      {"Status", MapColouring::status}, {"Value", MapColouring::value}, {"Residual", MapColouring::residual}};
+      {"Status", MapColouring::status}, {"Value", MapColouring::value}, {"Residual", MapColouring::residual},
+      {"Field trend", MapColouring::trend}};
   bool first = true;
   for (const auto& m : modes) {
     const float w = button_width(m.label, scale);

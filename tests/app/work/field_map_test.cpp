@@ -176,6 +176,33 @@ TEST_CASE("value and residual maps take their numbers from the log and the inter
   CHECK_FALSE(none.note.empty());
 }
 
+TEST_CASE("field trend map: each plot takes the REML fitted trend at its own row and column") {
+  DemoMap d;
+  const StoredTrial& t = d.session->trial();
+  AnalysisOptions options;
+  const auto r = reml_trial_trait(t, d.session->live(), 1, 1, options, FieldTrendChoice::always);
+  REQUIRE(r.ok());
+  REQUIRE(r->trend.has_value());
+  const FieldTrendFit& f = *r->trend;
+  const FieldMap m = build_field_map(t, d.session->live(), 1, 1, MapColouring::trend, d.theme, nullptr, nullptr, &*r);
+  double end = 0;
+  for (double v : f.record_trend) end = std::max(end, std::abs(v));
+  REQUIRE(end > 0);
+  for (const MapPlot& p : m.plots) {
+    const PlannedPlot& pp = t.layout.plots[p.plot_index];
+    const double want = f.trend[(pp.column - f.first_col) * f.rows + (pp.row - f.first_row)];
+    REQUIRE(p.trend.has_value());
+    CHECK(*p.trend == doctest::Approx(want));
+    if (p.state == PlotState::collected) CHECK(delta_e(p.fill, residual_colour(std::clamp(want / end, -1.0, 1.0))) < 1e-3);
+  }
+  // The flooded plot has no value but the field still has a trend there.
+  CHECK(m.plots[d.index_of("214")].trend.has_value());
+  CHECK(m.note.find("Fitted field trend") != std::string::npos);
+  CHECK(m.legend.size() == 5);
+  const FieldMap none = build_field_map(t, d.session->live(), 1, 1, MapColouring::trend, d.theme, nullptr, nullptr);
+  CHECK_FALSE(none.note.empty());
+}
+
 TEST_CASE("plot positions: row 1 at the top, column 1 on the left, sites side by side; taps find the plot") {
   FieldMap m;
   m.rows = 2;
