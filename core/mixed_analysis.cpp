@@ -300,15 +300,11 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
       out.notes.push_back("the variance of '" + ce.source + "' is held at zero (its estimate would be negative)");
     out.components.push_back(ce);
   }
-  if (!covariates.empty()) {
-    for (size_t k = 0; k < covariates.size(); ++k) {
-      std::vector<double> x(fit.fixed_columns(), 0.0);
-      x[fit.fixed_columns() - covariates.size() + k] = 1.0;
-      const double slope = fit.estimate(x);
-      trend.linear.push_back(slope);
-      out.notes.push_back(covariates[k].first + ": " + std::to_string(slope) + " per row/column, SE " +
-                          std::to_string(std::sqrt(fit.variance(x))));
-    }
+  for (size_t k = 0; k < covariates.size(); ++k) {
+    std::vector<double> x(fit.fixed_columns(), 0.0);
+    x[fit.fixed_columns() - covariates.size() + k] = 1.0;
+    const bool rows = covariates[k].first.find("rows") != std::string::npos;
+    out.straight_trend.push_back({rows ? "rows" : "columns", fit.estimate(x), std::sqrt(std::max(0.0, fit.variance(x)))});
   }
   if (field) out.trend = trend;
 

@@ -74,7 +74,6 @@ struct FieldTrendFit {
   int rows = 0, cols = 0, first_row = 0, first_col = 0;   // grid (positions first_row .. first_row + rows - 1)
   std::vector<double> trend;    // per grid cell, col * rows + row: the fitted field
   std::vector<double> record_trend;   // per input record (0 for records without a position)
-  std::vector<double> linear;   // fitted straight-line slopes (row, column) when asked
 };
 
 struct MixedAnalysis {
@@ -94,6 +93,11 @@ struct MixedAnalysis {
   std::vector<EntryPrediction> predictions;   // random entries
   std::optional<double> mdd_percent;          // of the first fixed treatment term
   std::optional<FieldTrendFit> trend;
+  struct Slope {
+    std::string direction;   // "rows" or "columns"
+    double slope = 0, se = 0;   // per row (column) step, in the trait's unit
+  };
+  std::vector<Slope> straight_trend;          // when asked (--straight-trend)
   std::vector<std::string> notes;
   // Why this answer differs from the analysis of variance (empty when the
   // analysis of variance is exact for these data).

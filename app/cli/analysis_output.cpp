@@ -281,6 +281,9 @@ std::string reml_text(const MixedAnalysis& a) {
       << "), across columns " << num(t.rho_col, 3) << " (SE " << num(t.rho_col_se, 2) << "), field variance "
       << num(t.variance, 4) << "\n";
   }
+  for (const auto& sl : a.straight_trend)
+    o << "Straight-line trend across the " << sl.direction << ": " << num(sl.slope, 4) << " per " 
+      << (sl.direction == "rows" ? "row" : "column") << " (SE " << num(sl.se, 3) << ")\n";
   for (const std::string& n : a.notes) o << "Note: " << n << "\n";
   return o.str();
 }
@@ -343,11 +346,13 @@ std::string reml_json(const std::vector<MixedAnalysis>& analyses) {
                           {"first_row", t.first_row},
                           {"first_column", t.first_col},
                           {"trend", t.trend}};
-      if (!t.linear.empty()) f["straight_line_slopes"] = t.linear;
       j["field_trend"] = f;
     } else {
       j["field_trend"] = nullptr;
     }
+    j["straight_trend"] = nlohmann::json::array();
+    for (const auto& sl : a.straight_trend)
+      j["straight_trend"].push_back({{"direction", sl.direction}, {"slope", sl.slope}, {"se", sl.se}});
     j["notes"] = a.notes;
     all.push_back(j);
   }

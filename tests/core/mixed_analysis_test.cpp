@@ -270,6 +270,41 @@ TEST_CASE("several sites with an entry absent at one site are analysed; the ANOV
   CHECK(m.differs_because.size() >= 2);
 }
 
+TEST_CASE("a straight-line trend down the rows is estimated within its SE") {
+  // 12 rows x 6 columns, 3 blocks of 4 rows, 24 entries; y rises 0.8 per row. Deterministic
+  // pseudo-noise from a fixed linear congruence (no library generator).
+  PlotTable t;
+  t.columns = {{"row", {}}, {"col", {}}, {"block", {}}, {"entry", {}}, {"y", {}}};
+  unsigned state = 12345;
+  for (int r = 0; r < 12; ++r)
+    for (int c = 0; c < 6; ++c) {
+      state = state * 1103515245u + 12345u;
+      const double noise = ((state >> 8) % 2001) / 1000.0 - 1.0;
+      const int e = (r % 4) * 6 + (c + r / 4 * 5) % 6;
+      char buf[32];
+      std::snprintf(buf, sizeof buf, "%.4f", 30 + (e % 5) * 0.7 + 0.8 * r + noise);
+      t.columns[0].cells.push_back(std::to_string(r + 1));
+      t.columns[1].cells.push_back(std::to_string(c + 1));
+      t.columns[2].cells.push_back(std::to_string(r / 4 + 1));
+      t.columns[3].cells.push_back("E" + std::to_string(e));
+      t.columns[4].cells.push_back(buf);
+    }
+  DesignRoles roles;
+  roles.kind = DesignKind::randomised_complete_block;
+  roles.block = "block";
+  roles.treatments = {"entry"};
+  MixedAnalysisOptions o;
+  o.row_column = "row";
+  o.col_column = "col";
+  o.linear_row = true;
+  const MixedAnalysis m = reml(t, roles, "y", o);
+  REQUIRE(m.straight_trend.size() == 1);
+  CHECK(m.straight_trend[0].direction == "rows");
+  CHECK(m.straight_trend[0].se > 0);
+  CHECK(std::abs(m.straight_trend[0].slope - 0.8) < 3 * m.straight_trend[0].se);
+  CHECK_FALSE(m.trend.has_value());
+}
+
 TEST_CASE("bad input: a missing position column and a non-number position are named") {
   PlotTable t = test::clewer();
   MixedAnalysisOptions o;
