@@ -775,25 +775,25 @@ class FieldApp final : public FieldAppState {
   }
 
   // The same trait by REML, with a field-trend test at a one-site trial.
-  // Computed with the analysis for trials up to kAutoRemlPlots plots; above
-  // that only when asked on the Check screen (it takes seconds there).
-  static constexpr size_t kAutoRemlPlots = 3000;
-  bool reml_wanted() const {
-    return session_->trial().layout.plots.size() <= kAutoRemlPlots || check_ui_.reml_requested;
-  }
+  // Computed with the analysis for trials up to kAutoRemlPlots plots (a
+  // fraction of a second); above that only when asked on the Check screen,
+  // once for the data as they stand (a new value asks again).
+  static constexpr size_t kAutoRemlPlots = 600;
+  bool reml_automatic() const { return session_->trial().layout.plots.size() <= kAutoRemlPlots; }
   const Result<MixedAnalysis>* reml() {
-    if (!reml_wanted()) return nullptr;
     const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0,
                   check_ui_.without_interaction};
-    if (!reml_ || !(reml_key_ == key)) {
+    const bool fresh = reml_ && reml_key_ == key;
+    if (!fresh && (reml_automatic() || check_ui_.reml_requested)) {
       AnalysisOptions options;
       options.alpha = settings_.alpha;
       options.without_interaction = check_ui_.without_interaction;
       reml_.emplace(reml_trial_trait(session_->trial(), session_->live(), key.trait, key.occasion, options,
                                      FieldTrendChoice::test));
       reml_key_ = key;
+      check_ui_.reml_requested = false;
     }
-    return &*reml_;
+    return reml_ && reml_key_ == key ? &*reml_ : nullptr;
   }
 
   void step_trait(int delta) {
@@ -865,7 +865,7 @@ class FieldApp final : public FieldAppState {
     RemlView rv;
     rv.analysis = r && *r ? &**r : nullptr;
     rv.problem = r && !*r ? r->problem().message : "";
-    rv.on_request = !reml_wanted();
+    rv.on_request = r == nullptr;
     const auto action = draw_check_screen(session_->trial(), a ? &*a : nullptr, a ? "" : a.problem().message,
                                           trait_title(), session_->trial().plan.traits[session_->trait_index()].unit,
                                           every_trait_ ? *every_trait_ : kNone, theme_, scale, top, &check_ui_, rv);

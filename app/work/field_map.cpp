@@ -156,7 +156,8 @@ FieldMap build_field_map(const StoredTrial& t, const std::vector<LiveObservation
   } else if (colouring == MapColouring::trend) {
     if (!trend) {
       m.note = reml ? "No field trend: it is fitted for a trial at one site whose plots have field rows and columns."
-                    : "No mixed-model analysis of this trait yet (it needs values in every treatment).";
+                    : "No mixed-model analysis of this trait yet: it needs values in every treatment, and on a large "
+                      "trial it runs when asked on the Check screen.";
     } else {
       char p[32];
       std::snprintf(p, sizeof p, "%.3g", trend->p);
