@@ -86,6 +86,15 @@ void means_json(nlohmann::json& j, const TermMeans& m) {
   j["comparisons"].push_back(c);
 }
 
+// One object (or an array), with a note on stderr when bytes had to be replaced.
+std::string json_output(const nlohmann::json& j) {
+  bool replaced = false;
+  std::string text = json_text(j, &replaced) + "\n";
+  if (replaced)
+    std::cerr << "note: some level names or values held bytes that are not valid UTF-8; they are shown as U+FFFD\n";
+  return text;
+}
+
 }  // namespace
 
 std::string analysis_text(const Analysis& a, const RecordNames& records) {
@@ -217,11 +226,7 @@ std::string analysis_json(const std::vector<Analysis>& analyses, const RecordNam
     j["notes"] = a.notes;
     all.push_back(j);
   }
-  bool replaced = false;
-  std::string text = json_text(analyses.size() == 1 ? all[0] : all, &replaced) + "\n";
-  if (replaced)
-    std::cerr << "note: some level names or values held bytes that are not valid UTF-8; they are shown as U+FFFD\n";
-  return text;
+  return json_output(analyses.size() == 1 ? all[0] : all);
 }
 
 std::string reml_text(const MixedAnalysis& a) {
@@ -356,11 +361,7 @@ std::string reml_json(const std::vector<MixedAnalysis>& analyses) {
     j["notes"] = a.notes;
     all.push_back(j);
   }
-  bool replaced = false;
-  std::string text = json_text(analyses.size() == 1 ? all[0] : all, &replaced) + "\n";
-  if (replaced)
-    std::cerr << "note: some level names or values held bytes that are not valid UTF-8; they are shown as U+FFFD\n";
-  return text;
+  return json_output(analyses.size() == 1 ? all[0] : all);
 }
 
 }  // namespace furrow

@@ -57,6 +57,13 @@ int run_analyze(const AnalyzeRequest& q) {
   const std::vector<int>& lines = read.csv.line_of_record;
   RecordNames names;
   for (int l : lines) names.names.push_back(std::to_string(l));
+  // A problem with a record points at its line; with a column as a whole, at the header line.
+  const auto report_problem = [&](const Problem& p) {
+    const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record]
+                     : !p.column.empty()                                       ? read.csv.header_line
+                                                                               : 0;
+    return report(q.csv_path, line, p.column, p.message);
+  };
   if (q.method == "reml") {
     MixedAnalysisOptions mo;
     mo.alpha = q.alpha;
@@ -73,13 +80,7 @@ int run_analyze(const AnalyzeRequest& q) {
     std::vector<MixedAnalysis> done;
     for (const std::string& response : q.responses) {
       auto r = analyse_reml(read.csv.table, roles, response, mo);
-      if (!r) {
-        const Problem& p = r.problem();
-        const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record]
-                         : !p.column.empty()                                       ? read.csv.header_line
-                                                                                   : 0;
-        return report(q.csv_path, line, p.column, p.message);
-      }
+      if (!r) return report_problem(r.problem());
       done.push_back(std::move(r).value());
     }
     if (q.json) {
@@ -94,14 +95,7 @@ int run_analyze(const AnalyzeRequest& q) {
   const auto results = analyse_all(read.csv.table, roles, q.responses, options);
   std::vector<Analysis> done;
   for (const auto& r : results) {
-    if (!r) {
-      const Problem& p = r.problem();
-      // A problem with a column as a whole points at the header line.
-      const int line = p.record >= 0 && p.record < static_cast<int>(lines.size()) ? lines[p.record]
-                       : !p.column.empty()                                       ? read.csv.header_line
-                                                                                 : 0;
-      return report(q.csv_path, line, p.column, p.message);
-    }
+    if (!r) return report_problem(r.problem());
     done.push_back(*r);
   }
   if (q.json) {
