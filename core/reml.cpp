@@ -674,18 +674,24 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   const int nt = engine.terms();
   auto is_variance = [&](int v) { return v != pr.rho_row && v != pr.rho_col; };
 
+  // The fixed effects alone: the values must vary around them (beyond
+  // rounding), or there is no variance to estimate.
+  const Vec xty = pr.x_sel.transpose() * pr.y;
+  const Mat xtx = Mat(SpMat(pr.x_sel.transpose() * pr.x_sel));
+  const Vec b = xtx.ldlt().solve(xty);
+  const double rss = std::max(0.0, pr.y.squaredNorm() - b.dot(xty));
+  const double magnitude = std::max(std::abs(pr.y_mean), pr.y.cwiseAbs().maxCoeff());
+  if (!(rss > std::pow(1e-12 * magnitude, 2) * pr.n) || !(rss > 0))
+    return make_problem("the values do not vary around the treatment means (every plot of a treatment has the same "
+                        "value); there is no plot-to-plot variation to estimate");
   // Starting values: the fixed-effects-only residual variance shared out.
   std::vector<double> th(nv, 0.0);
   if (!options.start.empty() && static_cast<int>(options.start.size()) == nv) {
     th = options.start;
   } else {
-    const Vec xty = pr.x_sel.transpose() * pr.y;
-    const Mat xtx = Mat(SpMat(pr.x_sel.transpose() * pr.x_sel));
-    const Vec b = xtx.ldlt().solve(xty);
-    const double s2 = std::max(1e-12, (pr.y.squaredNorm() - b.dot(xty)) / std::max(1, pr.n - static_cast<int>(b.size())));
+    const double s2 = rss / std::max(1, pr.n - static_cast<int>(b.size()));
     const int nvar = nt + 1;
     for (int v = 0; v < nv; ++v) th[v] = is_variance(v) ? s2 / nvar : 0.3;
-    if (s2 <= 1e-12) for (int v = 0; v < nv; ++v) if (is_variance(v)) th[v] = 1.0;
   }
   std::vector<char> active(nt, 1);
   for (int k = 0; k < nt; ++k) active[k] = th[engine.var_of_term(k)] > 0;

@@ -116,6 +116,8 @@ with tempfile.TemporaryDirectory() as tmp:
     bad("no_error_df.csv", b"entry,y\nA,1\nB,2\n", ["--design", "crd", "--treatment", "entry", "--response", "y"],
         ["no degrees of freedom for error"])
     bad("bad_sums.csv", good, rcbd + ["--sums", "type3"], ["--sums must be sequential or partial"])
+    bad("reml_no_variation.csv", b"block,entry,y\n1,A,5\n1,B,5\n2,A,5\n2,B,5\n3,A,5\n3,B,5\n",
+        rcbd + ["--method", "reml"], ["reml_no_variation.csv", "do not vary"])
     bad("trend_without_reml.csv", good, rcbd + ["--field-trend", "test", "--row-position", "block",
                                                 "--column-position", "entry"], ["need --method reml"])
     bad("trend_without_positions.csv", good, rcbd + ["--method", "reml", "--field-trend", "test"],
