@@ -205,9 +205,14 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     }
     const long long rows = static_cast<long long>(rmax) - rmin + 1, cols = static_cast<long long>(cmax) - cmin + 1;
     if (rows < 2 || cols < 2) return make_problem("field trend needs plots in at least two rows and two columns", rc->name);
-    if (rows * cols > 40000)
+    if (rows * cols > 10000)
       return make_problem("the field spans " + std::to_string(rows) + " rows x " + std::to_string(cols) +
-                              " columns; field trend is fitted for at most 40,000 positions",
+                              " columns; field trend is fitted for at most 10,000 positions (a minute's work)",
+                          rc->name);
+    if (rows * cols > 4LL * static_cast<long long>(c.records.size()))
+      return make_problem("the plots with a value fill " + std::to_string(c.records.size()) + " of the field's " +
+                              std::to_string(rows * cols) +
+                              " positions; field trend needs plots over most of the rectangle they span",
                           rc->name);
     trend.rows = static_cast<int>(rows);
     trend.cols = static_cast<int>(cols);
@@ -246,15 +251,23 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
   if (!independent) return make_problem(independent.problem().message);
   std::optional<MixedFit> chosen = *independent;
   if (field) {
-    RemlOptions ro;
+    // The field's likelihood can have more than one peak (one often at an
+    // autocorrelation's limit): fits from four starting points, the highest kept.
     const auto& ip = independent->parameters();
-    for (size_t k = 0; k + 1 < ip.size(); ++k) ro.start.push_back(std::max(ip[k].value, 1e-3 * ip.back().value));
-    ro.start.push_back(ip.back().value * 0.5);
-    ro.start.push_back(0.3);
-    ro.start.push_back(0.3);
-    ro.start.push_back(ip.back().value * 0.5);
-    auto spatial = fit_model(m, c, fixed_terms, random_terms, field, covariates, ro);
-    if (!spatial) return make_problem(spatial.problem().message);
+    std::optional<MixedFit> best;
+    const double starts[4][2] = {{0.3, 0.3}, {-0.3, -0.3}, {0.6, -0.2}, {-0.2, 0.6}};
+    for (const auto& st : starts) {
+      RemlOptions ro;
+      for (size_t k = 0; k + 1 < ip.size(); ++k) ro.start.push_back(std::max(ip[k].value, 1e-3 * ip.back().value));
+      ro.start.push_back(ip.back().value * 0.5);
+      ro.start.push_back(st[0]);
+      ro.start.push_back(st[1]);
+      ro.start.push_back(ip.back().value * 0.5);
+      auto fit = fit_model(m, c, fixed_terms, random_terms, field, covariates, ro);
+      if (!fit) return make_problem(fit.problem().message);
+      if (!best || fit->log_likelihood() > best->log_likelihood()) best = *fit;
+    }
+    const MixedFit* spatial = &*best;
     trend.loglik_independent = independent->log_likelihood();
     trend.loglik_trend = spatial->log_likelihood();
     trend.lr_statistic = std::max(0.0, 2.0 * (trend.loglik_trend - trend.loglik_independent));
@@ -296,6 +309,9 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     if (ce.at_bound && params[k].kind == ParameterKind::residual_variance)
       out.notes.push_back("the plot error is held at a floor of a millionth of the total variance: the field trend "
                           "carries nearly all the variation between plots");
+    else if (ce.at_bound && ce.correlation)
+      out.notes.push_back("'" + ce.source + "' reached its limit of 0.995: the trend is smoother than the model's "
+                          "correlation describes (a straight-line trend may describe it better)");
     else if (ce.at_bound)
       out.notes.push_back("the variance of '" + ce.source + "' is held at zero (its estimate would be negative)");
     out.components.push_back(ce);
@@ -307,6 +323,8 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     out.straight_trend.push_back({rows ? "rows" : "columns", fit.estimate(x), std::sqrt(std::max(0.0, fit.variance(x)))});
   }
   if (field) out.trend = trend;
+  if (out.trend && out.trend->chosen) out.model += "; field trend (AR1 x AR1)";
+  for (const auto& cv : covariates) out.model += "; " + cv.first;
 
   // ---- predicted means on the grid of fixed factors
   std::vector<int> grid_factors;
@@ -578,8 +596,8 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
         "entry x site is taken as random here: entries are compared against their spread across sites (the analysis "
         "of variance with fixed sites tests them against the plot error)");
   if (out.trend && out.trend->chosen) out.differs_because.push_back("field trend is modelled (rows and columns correlated)");
-  for (size_t k = 0; k + 1 < out.components.size(); ++k)
-    if (const auto& ce = out.components[k]; ce.at_bound && !ce.correlation)
+  for (size_t k = 0; k < random_terms.size() && k < out.components.size(); ++k)
+    if (const auto& ce = out.components[k]; ce.at_bound && !(out.trend && out.trend->chosen))
       out.differs_because.push_back("the variance of '" + ce.source +
                                     "' is held at zero, where the analysis of variance's estimate is negative");
   if (!covariates.empty()) out.differs_because.push_back("a straight-line trend over the field is in the model");

@@ -479,6 +479,19 @@ Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<do
     for (int i = 0; i < spec.n; ++i) tz.emplace_back(i, tc.cell_of[i], 1.0);
     SpMat z(spec.n, q);
     z.setFromTriplets(tz.begin(), tz.end());
+    // A random term whose every level is a combination of fixed effects
+    // (blocks that coincide with an entry) has no variance of its own to estimate.
+    {
+      const Mat zx = Mat(SpMat(z.transpose() * pr.x_sel));
+      bool free_part = false;
+      for (int j = 0; j < q && !free_part; ++j) {
+        const Vec l = lp.solve(Vec(zx.row(j).transpose()));
+        if (tc.count[j] - l.squaredNorm() > 1e-9 * tc.count[j]) free_part = true;
+      }
+      if (!free_part)
+        return make_problem("'" + term.label + "' coincides with the fixed effects (each of its levels is one "
+                            "treatment or combination): its variance cannot be estimated; check the design's columns");
+    }
     pr.z.push_back(std::move(z));
     pr.random_cells.push_back(std::move(tc));
   }
@@ -871,6 +884,9 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
       ev = engine.evaluate(th, true);
     }
   }
+  if (!pr.spatial && (held[pr.resid] || th[pr.resid] < 1e3 * resid_floor(th)))
+    return make_problem("the plots fit the design exactly (no plot-to-plot variation is left once blocks and "
+                        "treatments are allowed for); there is no plot error to estimate");
   engine.set_active(active);
   ev = engine.evaluate(th, true);
   impl->loglik = ev.loglik;

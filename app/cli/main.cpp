@@ -323,6 +323,16 @@ int main(int argc, char** argv) {
         std::cerr << "analyze: --db needs --trait CODE\n";
         return 2;
       }
+      if (!q.straight_trend.empty() || q.treatments_random || q.sites_random || !q.row_position.empty() ||
+          !q.column_position.empty() || !q.design.empty()) {
+        std::cerr << "analyze: a trial database is analysed with its own design and field positions; --design, "
+                     "--treatments-random, --sites-random, --straight-trend and the position columns are for --csv\n";
+        return 2;
+      }
+      if (!(q.alpha > 0 && q.alpha < 1)) {
+        std::cerr << "analyze: --alpha must lie between 0 and 1 (e.g. 0.05)\n";
+        return 2;
+      }
       return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums, q.without_interaction,
                                     q.method, q.field_trend);
     }
