@@ -775,10 +775,10 @@ class FieldApp final : public FieldAppState {
   }
 
   // The same trait by REML, with a field-trend test at a one-site trial.
-  // Computed with the analysis for trials up to kAutoRemlPlots plots (a
+  // Computed with the analysis for trials up to kAutoRemlPlots plots (about
   // fraction of a second); above that only when asked on the Check screen,
   // once for the data as they stand (a new value asks again).
-  static constexpr size_t kAutoRemlPlots = 600;
+  static constexpr size_t kAutoRemlPlots = 300;
   bool reml_automatic() const { return session_->trial().layout.plots.size() <= kAutoRemlPlots; }
   const Result<MixedAnalysis>* reml() {
     const Key key{session_->trait_index(), session_->occasion(), session_->revision(), 0,
