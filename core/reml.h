@@ -32,8 +32,9 @@
 //    freedom for multi-degree-of-freedom hypotheses (Fai & Cornelius 1996,
 //    J. Statist. Comput. Simul. 54, 363-378), the covariance of the variance
 //    parameters taken as the inverse average information. Derivatives of
-//    Var(b) follow from the equations' inverse; the autocorrelations are taken
-//    as known in the degrees of freedom.
+//    Var(b) with respect to every parameter, the autocorrelations included,
+//    follow from the equations' inverse (for the residual variance, from
+//    Var(b) being homogeneous of degree one in the variances).
 //
 // The header carries no Eigen types: only reml.cpp includes Eigen.
 
