@@ -10,6 +10,7 @@
 //   [driver]      analyse_all / analyse
 
 #include "core/analysis.h"
+#include "core/text.h"
 
 #include <algorithm>
 #include <cmath>
@@ -44,19 +45,6 @@ bool is_missing_text(const std::string& cell) {
 }
 
 namespace {
-
-std::string trimmed(const std::string& s) {
-  size_t b = 0, e = s.size();
-  while (b < e && std::isspace(static_cast<unsigned char>(s[b]))) ++b;
-  while (e > b && std::isspace(static_cast<unsigned char>(s[e - 1]))) --e;
-  return s.substr(b, e - b);
-}
-
-std::string join(const std::vector<std::string>& parts, const char* sep) {
-  std::string out;
-  for (size_t i = 0; i < parts.size(); ++i) { if (i) out += sep; out += parts[i]; }
-  return out;
-}
 
 // ------------------------------------------------------------------ [input]
 

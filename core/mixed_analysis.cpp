@@ -12,22 +12,10 @@
 #include "core/letter_groups.h"
 #include "core/reml.h"
 #include "core/studentized_range.h"
+#include "core/text.h"
 
 namespace furrow {
 namespace {
-
-std::string trimmed(const std::string& s) {
-  size_t a = 0, b = s.size();
-  while (a < b && std::isspace(static_cast<unsigned char>(s[a]))) ++a;
-  while (b > a && std::isspace(static_cast<unsigned char>(s[b - 1]))) --b;
-  return s.substr(a, b - a);
-}
-
-std::string join(const std::vector<std::string>& parts, const char* sep) {
-  std::string out;
-  for (size_t i = 0; i < parts.size(); ++i) out += (i ? sep : "") + parts[i];
-  return out;
-}
 
 std::optional<int> whole_number(const std::string& text) {
   const std::string t = trimmed(text);
@@ -37,10 +25,6 @@ std::optional<int> whole_number(const std::string& text) {
   for (size_t k = i; k < t.size(); ++k)
     if (!std::isdigit(static_cast<unsigned char>(t[k]))) return std::nullopt;
   return std::stoi(t);
-}
-
-double to_double(const ExactDecimal& d) {
-  return std::stod(std::to_string(static_cast<long long>(d.mantissa)) + "e" + std::to_string(-d.scale));
 }
 
 struct Coded {
@@ -121,12 +105,19 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
 
   // ---- the plots with a value, coded
   Coded c;
+  std::vector<ExactDecimal> decimals;
   for (int r = 0; r < table.records(); ++r) {
     if (is_missing_text(ycol->cells[r])) { ++out.n_missing; continue; }
     auto v = parse_exact_decimal(ycol->cells[r]);
     if (!v) return make_problem(v.problem().message + " (expected a number)", response, r);
     c.records.push_back(r);
-    c.y.push_back(to_double(*v));
+    decimals.push_back(*v);
+  }
+  if (!decimals.empty()) {
+    // Exact centring first (exact_decimal.h), so that values far from zero keep their digits.
+    auto centred = centre_decimals(decimals);
+    if (!centred) return make_problem(centred.problem().message, response);
+    for (double d : centred->centred) c.y.push_back(centred->offset + d);
   }
   if (c.y.size() < 3) return make_problem("column '" + response + "' has fewer than three values", response);
   out.n = static_cast<int>(c.y.size());
@@ -341,7 +332,6 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
   for (int f : grid_factors) grid_size *= c.factors[f].levels;
   if (grid_size > 200000) return make_problem("too many combinations of fixed factors for predicted means");
   const int pcols = fit.fixed_columns();
-  const int ncov = static_cast<int>(covariates.size());
   // x row of one grid cell (levels per grid factor); nullopt when a term's cell was never observed.
   auto grid_row = [&](const std::vector<int>& levels) -> std::optional<std::vector<double>> {
     std::vector<double> x(pcols, 0.0);
@@ -354,7 +344,7 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
       if (it == cell_index[k].end()) return std::nullopt;
       x[fit.fixed_term_first_column(static_cast<int>(k)) + it->second] = 1.0;
     }
-    (void)ncov;   // covariates are centred: predicted at their mean (0)
+    // Covariates are centred: means are predicted at their mean (0).
     return x;
   };
   // Average x over the grid cells whose levels of `factors` are `levels`.

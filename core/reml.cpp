@@ -221,8 +221,6 @@ class Engine {
     if (!derivatives || !ev.ok) return ev;
 
     // Selected inverse on the factor's pattern (scaled: S = C*^-1).
-    if (std::getenv("FURROW_REML_TRACE"))
-      std::fprintf(stderr, "equations %d, factor nonzeros %ld\n", eq_->m, static_cast<long>(lref.nonZeros()));
     selected_inverse(lref);
     const auto& perm = eq_->perm.indices();
     auto s_at = [&](int i, int j) {   // element of C*^-1 in original indices
@@ -735,6 +733,7 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
     return f;
   };
 
+  const bool trace = std::getenv("FURROW_REML_TRACE") != nullptr;   // every iteration on stderr
   int it = 0;
   bool converged = false;
   for (; it < options.max_iterations; ++it) {
@@ -843,7 +842,7 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
         break;
       }
     }
-    if (std::getenv("FURROW_REML_TRACE")) {
+    if (trace) {
       std::fprintf(stderr, "it %d ll %.12f accepted %d step %g:", it, en.loglik, accepted ? 1 : 0, step);
       for (int v = 0; v < nv; ++v) std::fprintf(stderr, " %.9g(g %.3g)", tn[v], en.score.size() ? en.score[v] : 0.0);
       std::fprintf(stderr, "\n");

@@ -1,4 +1,5 @@
 #include "app/work/sheet_entry.h"
+#include "core/text.h"
 
 #include <algorithm>
 #include <cctype>
@@ -35,13 +36,6 @@ std::string sheet_column(const Trait& trait, int occasion) {
 }
 
 namespace {
-
-std::string trimmed(const std::string& s) {
-  size_t a = 0, b = s.size();
-  while (a < b && std::isspace(static_cast<unsigned char>(s[a]))) ++a;
-  while (b > a && std::isspace(static_cast<unsigned char>(s[b - 1]))) --b;
-  return s.substr(a, b - a);
-}
 
 std::string lower(std::string s) {
   for (char& c : s) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));

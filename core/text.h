@@ -1,0 +1,27 @@
+#pragma once
+// Small text helpers shared by the analyses and the app: cells trimmed of
+// surrounding white space, names joined with a separator.
+
+#include <cctype>
+#include <string>
+#include <vector>
+
+namespace furrow {
+
+inline std::string trimmed(const std::string& s) {
+  size_t b = 0, e = s.size();
+  while (b < e && std::isspace(static_cast<unsigned char>(s[b]))) ++b;
+  while (e > b && std::isspace(static_cast<unsigned char>(s[e - 1]))) --e;
+  return s.substr(b, e - b);
+}
+
+inline std::string join(const std::vector<std::string>& parts, const char* sep) {
+  std::string out;
+  for (size_t i = 0; i < parts.size(); ++i) {
+    if (i) out += sep;
+    out += parts[i];
+  }
+  return out;
+}
+
+}  // namespace furrow
