@@ -798,7 +798,7 @@ Result<SyncResult> sync_device_session(ByteStream& stream, const SyncRequest& re
         FURROW_TRY(send_json(ch, {{"type", "bundle"}, {"uid", l.open.trial.uid}, {"rows", b->first.observations}}));
         FURROW_TRY(ch.send(b->second));
         auto merged = receive_json(ch, "merged");
-        if (!merged) return make_problem("the station refused a bundle of '" + r.name + "': " + merged.problem().message);
+        if (!merged) return make_problem("a bundle of '" + r.name + "' was not merged: " + merged.problem().message);
         const auto added = int_of(*merged, "added");
         auto now_holds = holds_of(object_of(*merged, "holds"));
         const auto before = holds.count(l.open.trial.device_id) ? holds[l.open.trial.device_id] : 0;

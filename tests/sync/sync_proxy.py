@@ -8,7 +8,8 @@ import threading
 class Proxy:
     """Forwards one connection to the station; after `cut` bytes in total
     (both directions) it closes both sides; `stall_at` stops forwarding for
-    good at that byte (the peers time out); `flip_at` alters one byte of the
+    good at that byte, in both directions, closes included, as a radio link
+    that drops out would (the peers time out); `flip_at` alters one byte of the
     device's stream; `record` keeps what the device sent."""
 
     def __init__(self, target_port, cut=None, stall_at=None, flip_at=None, record=None):
@@ -29,12 +30,20 @@ class Proxy:
             return
         st = socket.create_connection(("127.0.0.1", self.target_port))
         done = threading.Event()
+        stalled = threading.Event()
+
+        def hold():
+            # a stalled link forwards nothing more, not even a close
+            done.wait(60)
 
         def pump(a, b, from_device):
             sent_by_device = 0
             try:
                 while not done.is_set():
                     data = a.recv(4096)
+                    if stalled.is_set():
+                        hold()
+                        break
                     if not data:
                         break
                     with self.lock:
@@ -49,7 +58,8 @@ class Proxy:
                         sent_by_device += len(data)
                     if self.stall_at is not None and start + len(data) > self.stall_at:
                         b.sendall(data[:max(0, self.stall_at - start)])
-                        done.wait(60)
+                        stalled.set()
+                        hold()
                         break
                     if self.cut is not None and start + len(data) > self.cut:
                         b.sendall(data[:max(0, self.cut - start)])
