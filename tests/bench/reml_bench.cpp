@@ -10,6 +10,7 @@
 // Data are simulated with RandomStream (the same on every machine).
 //   build/tests/reml_bench            all sizes
 //   build/tests/reml_bench quick      the two smallest of each
+//   build/tests/reml_bench trend      the field-trend sizes only
 
 #include <chrono>
 #include <cmath>
@@ -97,12 +98,14 @@ double seconds_since(std::chrono::steady_clock::time_point t0) {
 }  // namespace
 
 int main(int argc, char** argv) {
-  const bool quick = argc > 1 && std::string(argv[1]) == "quick";
+  const std::string mode = argc > 1 ? argv[1] : "";
+  const bool quick = mode == "quick";
+  const bool trend_only = mode == "trend";   // only the field-trend sizes (for profiling)
   std::printf("REML benchmark (one thread)\n\n");
   std::printf("several sites, 12 sites x 3 blocks, 3 %% missing, one entry absent at one site\n");
   std::printf("%8s %8s  %-16s %9s %6s %14s\n", "entries", "plots", "entries are", "seconds", "iter", "log-likelihood");
   for (int entries : {100, 200, 400, 800}) {
-    if (quick && entries > 200) break;
+    if ((quick && entries > 200) || trend_only) break;
     const PlotTable t = sites_trial(12, entries);
     for (bool random_entries : {false, true}) {
       furrow::DesignRoles roles;
@@ -125,7 +128,7 @@ int main(int argc, char** argv) {
   std::printf("\nfield trend at one site (AR1 x AR1 + plot error, and independent errors), 4 blocks, entries fixed\n");
   std::printf("%8s %8s %9s %9s %8s %8s %6s\n", "plots", "entries", "seconds", "LR", "rho row", "rho col", "kept");
   for (auto [rows, cols] : {std::pair{25, 20}, std::pair{40, 25}, std::pair{50, 40}, std::pair{80, 50}}) {
-    if (quick && rows * cols > 1000) break;
+    if ((quick && rows * cols > 1000) || (trend_only && rows * cols > 2000)) break;
     const PlotTable t = field_trial(rows, cols);
     furrow::DesignRoles roles;
     roles.kind = furrow::DesignKind::randomised_complete_block;
