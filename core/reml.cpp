@@ -14,6 +14,7 @@
 #include <numeric>
 
 #include "core/distributions.h"
+#include "core/selected_inverse.h"
 
 namespace furrow {
 
@@ -221,7 +222,7 @@ class Engine {
     if (!derivatives || !ev.ok) return ev;
 
     // Selected inverse on the factor's pattern (scaled: S = C*^-1).
-    selected_inverse(lref);
+    zval_ = selected_inverse(lref);
     const auto& perm = eq_->perm.indices();
     auto s_at = [&](int i, int j) {   // element of C*^-1 in original indices
       int a = perm[i], b = perm[j];
@@ -345,40 +346,6 @@ class Engine {
     }
   }
 
-  // Takahashi recursions: Z = (L L')^-1 on the pattern of L.
-  void selected_inverse(const SpMat& l) {
-    const int m = static_cast<int>(l.cols());
-    const int* outer = l.outerIndexPtr();
-    const int* inner = l.innerIndexPtr();
-    const double* val = l.valuePtr();
-    zval_.assign(l.nonZeros(), 0.0);
-    std::vector<double> acc;
-    for (int j = m - 1; j >= 0; --j) {
-      const int start = outer[j], end = outer[j + 1];
-      const double ljj = val[start];
-      const int len = end - start - 1;
-      acc.assign(len, 0.0);
-      for (int b = 0; b < len; ++b) {
-        const int colb = inner[start + 1 + b];
-        int ptr = outer[colb];
-        const int pend = outer[colb + 1];
-        const double lb = val[start + 1 + b];
-        for (int a = b; a < len; ++a) {
-          const int ra = inner[start + 1 + a];
-          while (ptr < pend && inner[ptr] < ra) ++ptr;
-          const double z = zval_[ptr];   // Z(ra, colb); the clique property puts ra in colb's pattern
-          acc[a] += lb * z;
-          if (a != b) acc[b] += val[start + 1 + a] * z;
-        }
-      }
-      double diag = 1.0 / (ljj * ljj);
-      for (int a = 0; a < len; ++a) {
-        zval_[start + 1 + a] = -acc[a] / ljj;
-        diag -= val[start + 1 + a] * zval_[start + 1 + a] / ljj;
-      }
-      zval_[start] = diag;
-    }
-  }
   // Z(a, b), a >= b, in permuted indices; 0 outside the pattern (never
   // needed there: the traces only ask for elements of C's own pattern).
   double inverse_at(const SpMat& l, int a, int b) const {
