@@ -30,6 +30,9 @@ using Permutation = Eigen::PermutationMatrix<Eigen::Dynamic, Eigen::Dynamic, int
 constexpr double kLog2Pi = 1.8378770664093454836;
 constexpr double kMaxCorrelation = 0.995;
 constexpr int kMaxFixedColumns = 3000;
+// Designs of more plots always leave plot-to-plot degrees of freedom in
+// practice; the dense rank check below is only run up to this size.
+constexpr int kMaxPlotsForRankCheck = 3000;
 
 // ------------------------------------------------------------- [AR1 pieces]
 
@@ -460,6 +463,32 @@ Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<do
     pr.z.push_back(std::move(z));
     pr.random_cells.push_back(std::move(tc));
   }
+  // The plot error needs degrees of freedom of its own: when the fixed and
+  // random terms together take up every plot (one plot per block, say) the
+  // likelihood cannot tell the plot error from the random terms.
+  {
+    int columns = p;
+    for (size_t k = 0; k < pr.z.size(); ++k) {
+      if (pr.z[k].cols() == spec.n)
+        return make_problem("'" + spec.random[k].label + "' has one plot per level, so it cannot be told apart from "
+                            "the plot error; check the design's columns");
+      columns += static_cast<int>(pr.z[k].cols());
+    }
+    if (!pr.z.empty() && columns >= spec.n && spec.n <= kMaxPlotsForRankCheck) {
+      Mat all(spec.n, columns);
+      all.leftCols(p) = Mat(pr.x_sel);
+      int at = p;
+      for (const SpMat& z : pr.z) {
+        all.middleCols(at, z.cols()) = Mat(z);
+        at += static_cast<int>(z.cols());
+      }
+      Eigen::ColPivHouseholderQR<Mat> qr(all);
+      qr.setThreshold(1e-10);
+      if (qr.rank() >= spec.n)
+        return make_problem("no plot-to-plot degrees of freedom are left once blocks and treatments are allowed for, "
+                            "so the plot error cannot be told apart from the random terms; the trial needs more plots");
+    }
+  }
   int v = static_cast<int>(pr.z.size());
   if (spec.spatial) {
     const SpatialField& f = *spec.spatial;
@@ -821,7 +850,10 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
     active = an;
     held = rh;
     ev = std::move(en);
-    if (std::abs(gain) < options.loglik_tolerance && change < options.parameter_tolerance) {
+    // The log-likelihood of tens of thousands of plots carries rounding of
+    // about 1e-13 of its size; a gain below that is no gain.
+    const double gain_tolerance = std::max(options.loglik_tolerance, 1e-12 * std::abs(ev.loglik));
+    if (std::abs(gain) < gain_tolerance && change < options.parameter_tolerance) {
       // A variance held at zero comes back when its score there is positive.
       bool released = false;
       for (int v = 0; v < nv; ++v) {

@@ -84,7 +84,8 @@ struct VarianceParameter {
 
 struct RemlOptions {
   int max_iterations = 200;
-  // Stop when the likelihood changes by less than this and no parameter
+  // Stop when the likelihood changes by less than this (or by less than
+  // 1e-12 of its size, its own rounding on large trials) and no parameter
   // moves by more than its relative tolerance.
   double loglik_tolerance = 1e-10;
   double parameter_tolerance = 1e-8;

@@ -323,5 +323,29 @@ TEST_CASE("bad input: a missing position column and a non-number position are na
   CHECK(r.problem().record == 5);
 }
 
+TEST_CASE("bad input: no plot-to-plot degrees of freedom once blocks are random is refused in words") {
+  // Common practice (no source): the plot error needs plots beyond those that
+  // blocks and treatments use up; the analysis of variance has 0 residual DF.
+  auto table = [](std::vector<std::string> block, std::vector<std::string> gen, std::vector<std::string> y) {
+    PlotTable t;
+    t.columns = {{"block", std::move(block)}, {"gen", std::move(gen)}, {"yield", std::move(y)}};
+    return t;
+  };
+  // Two blocks, two entries, one plot lost: three plots, three fixed and block parameters.
+  auto r = analyse_reml(table({"1", "1", "2", "2"}, {"a", "b", "a", "b"}, {"4.1", "5.0", "4.6", "NA"}),
+                        test::rcbd_roles(), "yield", {});
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.problem().message.find("no plot-to-plot degrees of freedom") != std::string::npos);
+  // Four blocks of one plot each: a block is a plot.
+  r = analyse_reml(table({"1", "2", "3", "4"}, {"a", "b", "a", "b"}, {"4.1", "5.0", "4.6", "5.9"}),
+                   test::rcbd_roles(), "yield", {});
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.problem().message.find("one plot per level") != std::string::npos);
+  // The same two blocks with every plot: one residual DF, and the fit goes ahead.
+  r = analyse_reml(table({"1", "1", "2", "2"}, {"a", "b", "a", "b"}, {"4.1", "5.0", "4.6", "5.2"}),
+                   test::rcbd_roles(), "yield", {});
+  CHECK(r.ok());
+}
+
 }  // namespace
 }  // namespace furrow
