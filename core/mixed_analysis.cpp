@@ -1,10 +1,14 @@
 #include "core/mixed_analysis.h"
 
 #include <algorithm>
+#include <atomic>
 #include <cctype>
 #include <cmath>
+#include <cstdlib>
 #include <map>
+#include <optional>
 #include <set>
+#include <thread>
 #include <unordered_map>
 
 #include "core/distributions.h"
@@ -245,18 +249,37 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     // The field's likelihood can have more than one peak (one often at an
     // autocorrelation's limit): fits from four starting points, the highest kept.
     const auto& ip = independent->parameters();
+    // The starts are independent fits; they run on up to as many threads as
+    // the machine has cores, and the highest is taken in start order, so the
+    // answer does not depend on which finishes first.
+    constexpr int kStarts = 4;
+    const double starts[kStarts][2] = {{0.3, 0.3}, {-0.3, -0.3}, {0.6, -0.2}, {-0.2, 0.6}};
+    std::vector<std::optional<Result<MixedFit>>> fits(kStarts);
+    std::atomic<int> next{0};
+    auto work = [&] {
+      for (int i = next++; i < kStarts; i = next++) {
+        RemlOptions ro;
+        for (size_t k = 0; k + 1 < ip.size(); ++k) ro.start.push_back(std::max(ip[k].value, 1e-3 * ip.back().value));
+        ro.start.push_back(ip.back().value * 0.5);
+        ro.start.push_back(starts[i][0]);
+        ro.start.push_back(starts[i][1]);
+        ro.start.push_back(ip.back().value * 0.5);
+        fits[i] = fit_model(m, c, fixed_terms, random_terms, field, covariates, ro);
+      }
+    };
+    // With FURROW_REML_TRACE set they run one after another, so that the
+    // trace's lines stay in order.
+    const int threads = std::getenv("FURROW_REML_TRACE") != nullptr
+                            ? 1
+                            : std::clamp(static_cast<int>(std::thread::hardware_concurrency()), 1, kStarts);
+    std::vector<std::thread> helpers;
+    for (int t = 1; t < threads; ++t) helpers.emplace_back(work);
+    work();
+    for (std::thread& h : helpers) h.join();
     std::optional<MixedFit> best;
-    const double starts[4][2] = {{0.3, 0.3}, {-0.3, -0.3}, {0.6, -0.2}, {-0.2, 0.6}};
-    for (const auto& st : starts) {
-      RemlOptions ro;
-      for (size_t k = 0; k + 1 < ip.size(); ++k) ro.start.push_back(std::max(ip[k].value, 1e-3 * ip.back().value));
-      ro.start.push_back(ip.back().value * 0.5);
-      ro.start.push_back(st[0]);
-      ro.start.push_back(st[1]);
-      ro.start.push_back(ip.back().value * 0.5);
-      auto fit = fit_model(m, c, fixed_terms, random_terms, field, covariates, ro);
-      if (!fit) return make_problem(fit.problem().message);
-      if (!best || fit->log_likelihood() > best->log_likelihood()) best = *fit;
+    for (auto& fit : fits) {
+      if (!*fit) return make_problem(fit->problem().message);
+      if (!best || (*fit)->log_likelihood() > best->log_likelihood()) best = **fit;
     }
     const MixedFit* spatial = &*best;
     trend.loglik_independent = independent->log_likelihood();

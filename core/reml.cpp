@@ -732,6 +732,10 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   const bool trace = std::getenv("FURROW_REML_TRACE") != nullptr;   // every iteration on stderr
   int it = 0;
   bool converged = false;
+  // The last accepted move, kept to spot slow (linear) convergence, and
+  // iterations since the last extrapolated jump.
+  std::vector<double> last_move;
+  int since_jump = 0;
   for (; it < options.max_iterations; ++it) {
     const std::vector<int> fr = free_params(active);
     const int nf = static_cast<int>(fr.size());
@@ -810,6 +814,39 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
         }
       }
     }
+    if (!accepted && delta.size()) {
+      // Every shortened step crossed a bound: a variance close to its bound
+      // (under a ten-thousandth of the total) whose score points past it is
+      // put on the bound and held there; the others move from there on the
+      // next step. (Otherwise the fit would stall with the autocorrelations'
+      // scores far from zero: the EM step below does not move them.)
+      double total = 0;
+      for (int v = 0; v < nv; ++v)
+        if (is_variance(v)) total += th[v];
+      tn = th;
+      an = active;
+      rh = held;
+      bool moved = false;
+      for (int i = 0; i < nf; ++i) {
+        const int v = fr[i];
+        if (!is_variance(v) || !(th[v] < 1e-4 * total) || !(g[i] < 0)) continue;
+        if (v == pr.resid) {
+          tn[v] = resid_floor(th);
+          rh[v] = 1;
+        } else {
+          tn[v] = 0.0;
+        }
+        moved = true;
+      }
+      if (moved) {
+        for (int k = 0; k < nt; ++k)
+          if (an[k] && tn[engine.var_of_term(k)] <= 0) an[k] = 0;
+        engine.set_active(an);
+        en = engine.evaluate(tn, true);
+        if (en.ok && en.loglik >= ev.loglik - 1e-12 * std::abs(ev.loglik)) accepted = true;
+        else engine.set_active(active);
+      }
+    }
     if (!accepted) {
       // EM-REML step: always a non-decreasing likelihood.
       tn = th;
@@ -838,7 +875,52 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
         break;
       }
     }
+    // Slow convergence (the average information can be far from the observed
+    // information, near an autocorrelation's limit) shows as moves in one
+    // direction that shrink by a steady ratio r; their remaining sum
+    // r / (1 - r) times the last move is tried at once (Aitken's
+    // extrapolation), and kept only if the likelihood is higher there.
+    ++since_jump;
+    bool jumped = false;
+    if (accepted && an == active && rh == held) {
+      std::vector<double> move(nv);
+      for (int v = 0; v < nv; ++v) move[v] = tn[v] - th[v];
+      if (!last_move.empty() && since_jump >= 3) {
+        double dot = 0, n0 = 0, n1 = 0;
+        for (int v = 0; v < nv; ++v) {
+          dot += move[v] * last_move[v];
+          n0 += last_move[v] * last_move[v];
+          n1 += move[v] * move[v];
+        }
+        const double r = std::sqrt(n1 / n0);
+        if (n0 > 0 && n1 > 0 && dot > 0.99 * std::sqrt(n0 * n1) && r > 0.5 && r < 0.95) {
+          std::vector<double> tj = tn;
+          bool inside = true;
+          for (int v = 0; v < nv; ++v) {
+            if (move[v] == 0) continue;   // held at a bound, or not in the model
+            tj[v] += move[v] * r / (1 - r);
+            if (is_variance(v) ? !(tj[v] > (v == pr.resid ? resid_floor(th) : 0.0)) : std::abs(tj[v]) >= kMaxCorrelation)
+              inside = false;
+          }
+          if (inside) {
+            Evaluation ej = engine.evaluate(tj, true);
+            if (ej.ok && ej.loglik > en.loglik) {
+              tn = std::move(tj);
+              en = std::move(ej);
+              since_jump = 0;
+              jumped = true;
+            } else {
+              engine.set_active(an);
+            }
+          }
+        }
+      }
+      last_move = jumped ? std::vector<double>() : std::move(move);
+    } else {
+      last_move.clear();
+    }
     if (trace) {
+      if (jumped) std::fprintf(stderr, "(extrapolated) ");
       std::fprintf(stderr, "it %d ll %.12f accepted %d step %g:", it, en.loglik, accepted ? 1 : 0, step);
       for (int v = 0; v < nv; ++v) std::fprintf(stderr, " %.9g(g %.3g)", tn[v], en.score.size() ? en.score[v] : 0.0);
       std::fprintf(stderr, "\n");
