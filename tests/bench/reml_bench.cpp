@@ -15,7 +15,9 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <algorithm>
 #include <string>
+#include <thread>
 
 #include "core/mixed_analysis.h"
 #include "core/random_stream.h"
@@ -101,7 +103,8 @@ int main(int argc, char** argv) {
   const std::string mode = argc > 1 ? argv[1] : "";
   const bool quick = mode == "quick";
   const bool trend_only = mode == "trend";   // only the field-trend sizes (for profiling)
-  std::printf("REML benchmark (one thread)\n\n");
+  std::printf("REML benchmark (several sites: one thread; field trend: its four starts on up to %u threads)\n\n",
+              std::max(1u, std::min(4u, std::thread::hardware_concurrency())));
   std::printf("several sites, 12 sites x 3 blocks, 3 %% missing, one entry absent at one site\n");
   std::printf("%8s %8s  %-16s %9s %6s %14s\n", "entries", "plots", "entries are", "seconds", "iter", "log-likelihood");
   for (int entries : {100, 200, 400, 800}) {
