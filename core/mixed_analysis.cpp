@@ -277,32 +277,44 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     work();
     for (std::thread& h : helpers) h.join();
     std::optional<MixedFit> best;
+    std::string refused;
     for (auto& fit : fits) {
-      if (!*fit) return make_problem(fit->problem().message);
+      if (!*fit) {
+        refused = fit->problem().message;
+        break;
+      }
       if (!best || (*fit)->log_likelihood() > best->log_likelihood()) best = **fit;
     }
-    const MixedFit* spatial = &*best;
-    trend.loglik_independent = independent->log_likelihood();
-    trend.loglik_trend = spatial->log_likelihood();
-    trend.lr_statistic = std::max(0.0, 2.0 * (trend.loglik_trend - trend.loglik_independent));
-    trend.p = trend.lr_statistic > 0 ? chi_square_upper_tail(trend.lr_statistic, 3.0) : 1.0;
-    trend.chosen = options.trend == FieldTrendChoice::always || trend.p < options.trend_alpha;
-    const auto& sp = spatial->parameters();
-    const size_t base = random_terms.size();
-    trend.variance = sp[base].value;
-    trend.variance_se = sp[base].se;
-    trend.rho_row = sp[base + 1].value;
-    trend.rho_row_se = sp[base + 1].se;
-    trend.rho_col = sp[base + 2].value;
-    trend.rho_col_se = sp[base + 2].se;
-    trend.trend = spatial->field();
-    trend.record_trend.assign(table.records(), 0.0);
-    for (int r = 0; r < table.records(); ++r)
-      if (row_of[r] != INT32_MIN) {
-        const int rr = row_of[r] - trend.first_row, cc = col_of[r] - trend.first_col;
-        if (rr >= 0 && rr < trend.rows && cc >= 0 && cc < trend.cols) trend.record_trend[r] = trend.trend[cc * trend.rows + rr];
-      }
-    if (trend.chosen) chosen = *spatial;
+    if (!refused.empty()) {
+      // Asked to test for a trend the trial cannot support: the analysis
+      // goes on without it, and says why.
+      if (options.trend == FieldTrendChoice::always) return make_problem(refused);
+      out.notes.push_back("field trend not tested: " + refused);
+      field.reset();
+    } else {
+      const MixedFit* spatial = &*best;
+      trend.loglik_independent = independent->log_likelihood();
+      trend.loglik_trend = spatial->log_likelihood();
+      trend.lr_statistic = std::max(0.0, 2.0 * (trend.loglik_trend - trend.loglik_independent));
+      trend.p = trend.lr_statistic > 0 ? chi_square_upper_tail(trend.lr_statistic, 3.0) : 1.0;
+      trend.chosen = options.trend == FieldTrendChoice::always || trend.p < options.trend_alpha;
+      const auto& sp = spatial->parameters();
+      const size_t base = random_terms.size();
+      trend.variance = sp[base].value;
+      trend.variance_se = sp[base].se;
+      trend.rho_row = sp[base + 1].value;
+      trend.rho_row_se = sp[base + 1].se;
+      trend.rho_col = sp[base + 2].value;
+      trend.rho_col_se = sp[base + 2].se;
+      trend.trend = spatial->field();
+      trend.record_trend.assign(table.records(), 0.0);
+      for (int r = 0; r < table.records(); ++r)
+        if (row_of[r] != INT32_MIN) {
+          const int rr = row_of[r] - trend.first_row, cc = col_of[r] - trend.first_col;
+          if (rr >= 0 && rr < trend.rows && cc >= 0 && cc < trend.cols) trend.record_trend[r] = trend.trend[cc * trend.rows + rr];
+        }
+      if (trend.chosen) chosen = *spatial;
+    }
   }
   const MixedFit& fit = *chosen;
   out.loglik = fit.log_likelihood();
@@ -323,9 +335,13 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     if (ce.at_bound && params[k].kind == ParameterKind::residual_variance)
       out.notes.push_back("the plot error is held at a floor of a millionth of the total variance: the field trend "
                           "carries nearly all the variation between plots");
-    else if (ce.at_bound && ce.correlation)
+    else if (ce.at_bound && ce.correlation && ce.variance > 0)
       out.notes.push_back("'" + ce.source + "' reached its limit of 0.995: the trend is smoother than the model's "
                           "correlation describes (a straight-line trend may describe it better)");
+    else if (ce.at_bound && ce.correlation)
+      out.notes.push_back("'" + ce.source + "' reached its limit of -0.995: neighbouring plots alternate high and low "
+                          "more than the model's correlation describes (look for a pattern of the layout, such as "
+                          "alternate rows sown or harvested differently)");
     else if (ce.at_bound)
       out.notes.push_back("the variance of '" + ce.source + "' is held at zero (its estimate would be negative)");
     out.components.push_back(ce);

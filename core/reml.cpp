@@ -515,6 +515,13 @@ Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<do
   }
   pr.resid = v++;
   pr.n_var = v;
+  // A field trend adds three parameters to the random terms' variances and
+  // the plot error; with fewer than two error contrasts (plots beyond the
+  // fixed effects) for each, the fit chases noise. A rule of this project.
+  if (pr.spatial && spec.n - p < 2 * pr.n_var)
+    return make_problem("the field trend has " + std::to_string(pr.n_var) + " variances and autocorrelations to estimate "
+                        "from " + std::to_string(spec.n - p) + " plots beyond the treatment and fixed effects; it needs at "
+                        "least " + std::to_string(2 * pr.n_var) + " (a larger trial)");
   return pr;
 }
 
@@ -745,9 +752,20 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
       g[i] = ev.score[fr[i]];
       for (int j = 0; j < nf; ++j) a(i, j) = ev.ai(fr[i], fr[j]);
     }
-    Eigen::LDLT<Mat> ldlt(a);
-    Vec delta = ldlt.solve(g);
-    if (!delta.allFinite() || ldlt.info() != Eigen::Success) delta = Vec::Zero(nf);
+    // The step A^-1 g, by eigenvalues: directions the data cannot inform
+    // (two random terms that the likelihood cannot tell apart make A
+    // singular) are left out rather than turned into a zero or wild step.
+    Vec delta = Vec::Zero(nf);
+    if (nf > 0) {
+      Eigen::SelfAdjointEigenSolver<Mat> es(a);
+      if (es.info() == Eigen::Success) {
+        const Vec& lam = es.eigenvalues();
+        const double top = lam.cwiseAbs().maxCoeff();
+        for (int i = 0; i < nf; ++i)
+          if (lam[i] > 1e-12 * top) delta += es.eigenvectors().col(i) * (es.eigenvectors().col(i).dot(g) / lam[i]);
+      }
+      if (!delta.allFinite()) delta = Vec::Zero(nf);
+    }
     bool accepted = false;
     std::vector<double> tn;
     std::vector<char> an;
@@ -979,6 +997,33 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   Mat a(nf, nf);
   for (int i = 0; i < nf; ++i)
     for (int j = 0; j < nf; ++j) a(i, j) = ev.ai(fr[i], fr[j]);
+  // Parameters the likelihood cannot tell apart: the information, scaled to
+  // relative changes of each variance, has a (near) null direction. The
+  // estimates along it are arbitrary, so the fit is refused in words.
+  if (nf > 1) {
+    Mat scaled = a;
+    for (int i = 0; i < nf; ++i)
+      for (int j = 0; j < nf; ++j)
+        scaled(i, j) *= (is_variance(fr[i]) ? th[fr[i]] : 1.0) * (is_variance(fr[j]) ? th[fr[j]] : 1.0);
+    Eigen::SelfAdjointEigenSolver<Mat> es(scaled);
+    if (es.info() == Eigen::Success && es.eigenvalues()[0] < 1e-9 * es.eigenvalues()[nf - 1]) {
+      auto label = [&](int v) -> std::string {
+        if (v < static_cast<int>(spec.random.size())) return spec.random[v].label;
+        if (v == pr.resid) return "plot error";
+        const std::string field = spec.spatial ? spec.spatial->label : std::string("field");
+        if (v == pr.rho_row) return field + ": row autocorrelation";
+        if (v == pr.rho_col) return field + ": column autocorrelation";
+        return field + ": variance";
+      };
+      std::vector<std::string> names;
+      for (int i = 0; i < nf; ++i)
+        if (std::abs(es.eigenvectors()(i, 0)) > 0.2) names.push_back("'" + label(fr[i]) + "'");
+      std::string list;
+      for (size_t i = 0; i < names.size(); ++i) list += (i == 0 ? "" : i + 1 == names.size() ? " and " : ", ") + names[i];
+      return make_problem("these data cannot tell " + list + " apart (the likelihood is flat along a mix of them), so "
+                          "their sizes cannot be estimated; check the design's columns, or use the analysis of variance");
+    }
+  }
   const Mat ainv = a.ldlt().solve(Mat::Identity(nf, nf));
   impl->param_cov = Mat::Zero(nv, nv);
   for (int i = 0; i < nf; ++i)

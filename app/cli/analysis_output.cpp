@@ -282,8 +282,10 @@ std::string reml_text(const MixedAnalysis& a) {
     o << "\nField trend (rows and columns correlated, AR1 x AR1, plus plot error): " << (t.chosen ? "kept" : "not kept")
       << "\n  likelihood ratio " << num(t.lr_statistic, 4) << " on 3 DF, P " << p_text(t.p)
       << "   (REML log-likelihood " << num(t.loglik_trend, 10) << " against " << num(t.loglik_independent, 10)
-      << " with independent plots)\n  autocorrelation down rows " << num(t.rho_row, 3) << " (SE " << num(t.rho_row_se, 2)
-      << "), across columns " << num(t.rho_col, 3) << " (SE " << num(t.rho_col_se, 2) << "), field variance "
+      << " with independent plots)\n  autocorrelation down rows " << num(t.rho_row, 3) << " ("
+      << (t.rho_row_se > 0 ? "SE " + num(t.rho_row_se, 2) : std::string("at its limit")) << "), across columns "
+      << num(t.rho_col, 3) << " (" << (t.rho_col_se > 0 ? "SE " + num(t.rho_col_se, 2) : std::string("at its limit"))
+      << "), field variance "
       << num(t.variance, 4) << "\n";
   }
   for (const auto& sl : a.straight_trend)
@@ -342,9 +344,9 @@ std::string reml_json(const std::vector<MixedAnalysis>& analyses) {
                           {"log_likelihood_trend", t.loglik_trend},
                           {"log_likelihood_independent", t.loglik_independent},
                           {"rho_row", t.rho_row},
-                          {"rho_row_se", t.rho_row_se},
+                          {"rho_row_se", t.rho_row_se > 0 ? nlohmann::json(t.rho_row_se) : nlohmann::json()},   // null at its limit
                           {"rho_column", t.rho_col},
-                          {"rho_column_se", t.rho_col_se},
+                          {"rho_column_se", t.rho_col_se > 0 ? nlohmann::json(t.rho_col_se) : nlohmann::json()},
                           {"variance", t.variance},
                           {"rows", t.rows},
                           {"columns", t.cols},

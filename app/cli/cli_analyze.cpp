@@ -43,7 +43,8 @@ int run_analyze(const AnalyzeRequest& q) {
     return report(q.csv_path, 0, {}, "split-plot needs --main-plot and --sub-plot (or two --treatment columns)");
   if (*kind == DesignKind::split_plot && !roles.main_plot.empty() && !roles.sub_plot.empty())
     roles.treatments.clear();
-  if (!(q.alpha > 0 && q.alpha < 1)) return report(q.csv_path, 0, {}, "--alpha must lie between 0 and 1 (e.g. 0.05)");
+  if (!(q.alpha >= 0.01 && q.alpha <= 0.10))
+    return report(q.csv_path, 0, {}, "--alpha must lie between 0.01 and 0.10 (e.g. 0.05): the range over which the studentized-range quantiles are checked");
   AnalysisOptions options;
   options.alpha = q.alpha;
   if (q.sums == "sequential") options.sums = SumsKind::sequential;

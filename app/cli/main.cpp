@@ -329,8 +329,9 @@ int main(int argc, char** argv) {
                      "--treatments-random, --sites-random, --straight-trend and the position columns are for --csv\n";
         return 2;
       }
-      if (!(q.alpha > 0 && q.alpha < 1)) {
-        std::cerr << "analyze: --alpha must lie between 0 and 1 (e.g. 0.05)\n";
+      if (!(q.alpha >= 0.01 && q.alpha <= 0.10)) {
+        std::cerr << "analyze: --alpha must lie between 0.01 and 0.10 (e.g. 0.05): the range over which the "
+                     "studentized-range quantiles are checked\n";
         return 2;
       }
       return furrow::run_analyze_db(db_path, trait_code, occasion, q.json, q.alpha, q.sums, q.without_interaction,

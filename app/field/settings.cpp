@@ -41,7 +41,7 @@ Result<Settings> load_settings(const std::string& path) {
   });
   if (!st) return st.problem();
   st = field("alpha", [&](const nlohmann::json& v) {
-    if (!v.is_number() || !(v.get<double>() > 0 && v.get<double>() < 0.5)) return false;
+    if (!v.is_number() || !(v.get<double>() >= 0.01 && v.get<double>() <= 0.10)) return false;
     s.alpha = v.get<double>();
     return true;
   });

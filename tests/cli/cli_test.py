@@ -120,7 +120,7 @@ with tempfile.TemporaryDirectory() as tmp:
         rcbd + ["--method", "reml"], ["reml_no_variation.csv", "do not vary"])
     bad("reml_confounded.csv", b"block,entry,y\n1,A,5\n1,A,5.2\n2,B,6\n2,B,6.3\n3,C,5.5\n3,C,5.9\n",
         rcbd + ["--method", "reml"], ["reml_confounded.csv", "'block' coincides with the fixed effects"])
-    bad("reml_bad_alpha.csv", good, rcbd + ["--method", "reml", "--alpha", "1.5"], ["--alpha must lie between 0 and 1"])
+    bad("reml_bad_alpha.csv", good, rcbd + ["--method", "reml", "--alpha", "1.5"], ["--alpha must lie between 0.01 and 0.10"])
     bad("trend_without_reml.csv", good, rcbd + ["--field-trend", "test", "--row-position", "block",
                                                 "--column-position", "entry"], ["need --method reml"])
     bad("trend_without_positions.csv", good, rcbd + ["--method", "reml", "--field-trend", "test"],

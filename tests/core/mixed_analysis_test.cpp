@@ -347,5 +347,71 @@ TEST_CASE("bad input: no plot-to-plot degrees of freedom once blocks are random 
   CHECK(r.ok());
 }
 
+PlotTable split_table(const std::vector<std::string>& rep, const std::vector<std::string>& main,
+                      const std::vector<std::string>& sub, const std::vector<std::string>& y) {
+  PlotTable t;
+  t.columns = {{"B", rep}, {"V", main}, {"N", sub}, {"y", y}};
+  return t;
+}
+
+TEST_CASE("split-plot whose variances sit on zero: REML reaches the boundary maximum") {
+  // Two blocks; main plot A1 lost in block 2. With block and block x main
+  // plot at zero, REML's plot error is the residual mean square of the
+  // fixed-effects fit (Searle, Casella & McCulloch 1992, ch. 6): here the
+  // three A0 sub-plot pairs, sum of (y1 - y2)^2 / 2 over 3 DF. An earlier
+  // version stopped at 0.0106 / 0.0100 / 0.2127 (log-likelihood -2.74634);
+  // a reviewer's independent numpy/scipy maximisation gave -2.60594.
+  const PlotTable t = split_table({"1", "1", "1", "1", "1", "1", "2", "2", "2", "2", "2", "2"},
+                                  {"A0", "A0", "A0", "A1", "A1", "A1", "A0", "A0", "A0", "A1", "A1", "A1"},
+                                  {"S0", "S1", "S2", "S0", "S1", "S2", "S0", "S1", "S2", "S0", "S1", "S2"},
+                                  {"21.272", "21.926", "22.694", "20.880", "22.740", "24.050", "21.500", "21.720",
+                                   "21.315", "", "", ""});
+  const MixedAnalysis m = reml(t, oats_roles(), "y");
+  const double d0 = 21.272 - 21.500, d1 = 21.926 - 21.720, d2 = 22.694 - 21.315;
+  const double ms = (d0 * d0 + d1 * d1 + d2 * d2) / 2 / 3;
+  CHECK(component(m, "B").variance == 0.0);
+  CHECK(component(m, "B x V").variance == 0.0);
+  check_rel(component(m, "residual (plot error)").variance, ms, 1e-6);
+  CHECK(m.loglik > -2.60594 - 1e-5);
+  CHECK(m.loglik < -2.60594 + 1e-5);
+}
+
+TEST_CASE("split-plot where block and block x main plot cannot be told apart is refused in words") {
+  // Main plot A1 only in block 1 of 3: the likelihood is flat along a mix of
+  // the two variances (found by a reviewer: any split gave the same fit).
+  const PlotTable t = split_table(
+      {"1", "1", "1", "1", "1", "1", "2", "2", "2", "2", "2", "2", "3", "3", "3", "3", "3", "3"},
+      {"A0", "A0", "A0", "A1", "A1", "A1", "A0", "A0", "A0", "A1", "A1", "A1", "A0", "A0", "A0", "A1", "A1", "A1"},
+      {"S0", "S1", "S2", "S0", "S1", "S2", "S0", "S1", "S2", "S0", "S1", "S2", "S0", "S1", "S2", "S0", "S1", "S2"},
+      {"20.666", "21.932", "21.940", "21.018", "21.980", "22.546", "20.489", "20.962", "23.648", "", "", "", "22.531",
+       "24.421", "23.726", "", "", ""});
+  const auto r = analyse_reml(t, oats_roles(), "y", {});
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.problem().message.find("cannot tell 'B' and 'B x V' apart") != std::string::npos);
+}
+
+TEST_CASE("field trend on a trial too small for its parameters: refused when asked always, a note when tested") {
+  // 8 plots, 2 blocks x 4 entries: 4 error contrasts for 5 parameters.
+  PlotTable t;
+  t.columns = {{"block", {"1", "1", "1", "1", "2", "2", "2", "2"}},
+               {"row", {"1", "1", "1", "1", "2", "2", "2", "2"}},
+               {"col", {"1", "2", "3", "4", "1", "2", "3", "4"}},
+               {"gen", {"E02", "E03", "E01", "E00", "E02", "E00", "E03", "E01"}},
+               {"yield", {"9.593", "11.065", "10.758", "8.534", "11.515", "8.885", "11.463", "10.638"}}};
+  MixedAnalysisOptions o;
+  o.trend = FieldTrendChoice::always;
+  o.row_column = "row";
+  o.col_column = "col";
+  auto r = analyse_reml(t, test::rcbd_roles(), "yield", o);
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.problem().message.find("needs at least 10") != std::string::npos);
+  o.trend = FieldTrendChoice::test;
+  r = analyse_reml(t, test::rcbd_roles(), "yield", o);
+  REQUIRE(r.ok());
+  CHECK_FALSE(r->trend.has_value());
+  REQUIRE(r->notes.size() >= 1);
+  CHECK(r->notes.back().find("field trend not tested") == 0);
+}
+
 }  // namespace
 }  // namespace furrow
