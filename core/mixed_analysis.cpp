@@ -139,6 +139,17 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
       cf.codes.push_back(it->second);
     }
     cf.levels = static_cast<int>(code_of.size());
+    // Levels of the plan with no plot that has a value drop out of the model; say so.
+    std::vector<std::string> absent;
+    std::unordered_map<std::string, int> absent_seen;
+    for (int r = 0; r < table.records(); ++r) {
+      const std::string v = trimmed(col->cells[r]);
+      if (!v.empty() && !code_of.count(v) && absent_seen.emplace(v, 0).second) absent.push_back(v);
+    }
+    if (!absent.empty())
+      out.notes.push_back("'" + col->name + "' " + (absent.size() == 1 ? "level " : "levels ") + "'" +
+                          join(absent, "', '") + "' " + (absent.size() == 1 ? "has" : "have") +
+                          " no plot with a value and " + (absent.size() == 1 ? "is" : "are") + " left out");
     const bool nested_block = f == m.block_factor && m.site_factor >= 0;
     if (cf.levels < 2 && !nested_block)
       return make_problem("column '" + col->name + "' has only one level ('" + c.names[f][0] +

@@ -57,6 +57,37 @@ int run_analyze(const AnalyzeRequest& q) {
   const CsvRead read = read_csv_file(q.csv_path);
   if (!read.ok) return report(q.csv_path, read.problem.line, read.problem.column, read.problem.message);
   const std::vector<int>& lines = read.csv.line_of_record;
+  // A factor level with a character that does not show (a control
+  // character, a no-break or zero-width space, a byte-order mark) would
+  // print exactly like another level and be analysed as a different one.
+  {
+    std::vector<std::string> factor_columns = q.treatments;
+    for (const std::string* c : {&q.block, &q.row, &q.column, &q.main_plot, &q.sub_plot, &q.site})
+      if (!c->empty()) factor_columns.push_back(*c);
+    for (const std::string& name : factor_columns) {
+      const DataColumn* col = read.csv.table.find(name);
+      if (!col) continue;
+      for (size_t r = 0; r < col->cells.size(); ++r) {
+        const std::string& v = col->cells[r];
+        const char* what = nullptr;
+        for (size_t i = 0; i < v.size() && !what; ++i) {
+          const auto b = static_cast<unsigned char>(v[i]);
+          if (b < 0x20 || b == 0x7F) what = "a control character";
+          else if (b == 0xC2 && i + 1 < v.size() && static_cast<unsigned char>(v[i + 1]) == 0xA0) what = "a no-break space";
+          else if (b == 0xEF && v.compare(i, 3, "\xEF\xBB\xBF") == 0) what = "a byte-order mark";
+          else if (b == 0xE2 && i + 2 < v.size()) {
+            // U+200B to U+200F (zero-width spaces, joiners, marks) and U+2060 (word joiner)
+            const auto b1 = static_cast<unsigned char>(v[i + 1]), b2 = static_cast<unsigned char>(v[i + 2]);
+            if ((b1 == 0x80 && b2 >= 0x8B && b2 <= 0x8F) || (b1 == 0x81 && b2 == 0xA0)) what = "a zero-width character";
+          }
+        }
+        if (what)
+          return report(q.csv_path, lines[r], name,
+                        std::string("'") + name + "' holds " + what + " that does not show when printed; remove it, or "
+                        "two levels that look alike would be analysed apart");
+      }
+    }
+  }
   RecordNames names;
   for (int l : lines) names.names.push_back(std::to_string(l));
   // A problem with a record points at its line; with a column as a whole, at the header line.

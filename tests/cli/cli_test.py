@@ -107,6 +107,14 @@ with tempfile.TemporaryDirectory() as tmp:
     bad("empty.csv", b"", rcbd, ["empty.csv", "empty"])
     bad("bad_utf8.csv", b"block,entry,y\n1,A\xff,5\n", rcbd, ["bad_utf8.csv:2:", "UTF-8"])
     bad("no_such_file.csv", None, rcbd, ["no_such_file.csv", "cannot open"])
+    # Levels that would print alike: a no-break space, a zero-width space, a control character.
+    bad("nbsp_level.csv", good.replace(b"2,B,6.1", b"2,B\xc2\xa0,6.1"), rcbd,
+        ["nbsp_level.csv:5:", "column 'entry'", "no-break space"])
+    bad("zero_width_level.csv", good.replace(b"3,B,6.4", b"3,\xe2\x80\x8bB,6.4"), rcbd + ["--method", "reml"],
+        ["zero_width_level.csv:7:", "zero-width character"])
+    bad("control_level.csv", good.replace(b"1,B,6", b"1\x07,B,6"), rcbd, ["control_level.csv:3:", "column 'block'",
+                                                                         "control character"])
+    bad("tiny_alpha.csv", good, rcbd + ["--alpha", "1e-12"], ["--alpha must lie between 0.01 and 0.10"])
     bad("unknown_design.csv", good, ["--design", "rcbdx", "--block", "block", "--treatment", "entry",
                                      "--response", "y"], ["unknown design 'rcbdx'"])
     bad("missing_block.csv", good, ["--design", "rcbd", "--treatment", "entry", "--response", "y"],

@@ -413,5 +413,16 @@ TEST_CASE("field trend on a trial too small for its parameters: refused when ask
   CHECK(r->notes.back().find("field trend not tested") == 0);
 }
 
+TEST_CASE("an entry of the plan with no value is named in a note, not dropped silently") {
+  PlotTable t;
+  t.columns = {{"block", {"1", "1", "1", "2", "2", "2", "3", "3", "3"}},
+               {"gen", {"A", "B", "C", "A", "B", "C", "A", "B", "C"}},
+               {"yield", {"4.1", "5.0", "", "4.6", "5.2", "NA", "4.0", "5.1", ""}}};
+  const MixedAnalysis m = reml(t, test::rcbd_roles(), "yield");
+  bool named = false;
+  for (const auto& n : m.notes) named |= n == "'gen' level 'C' has no plot with a value and is left out";
+  CHECK(named);
+}
+
 }  // namespace
 }  // namespace furrow
