@@ -43,6 +43,40 @@ int run_analyze(const AnalyzeRequest& q) {
     return report(q.csv_path, 0, {}, "split-plot needs --main-plot and --sub-plot (or two --treatment columns)");
   if (*kind == DesignKind::split_plot && !roles.main_plot.empty() && !roles.sub_plot.empty())
     roles.treatments.clear();
+  // Options the chosen design does not use are refused rather than ignored.
+  {
+    const bool crd = *kind == DesignKind::completely_randomised;
+    const bool latin = *kind == DesignKind::latin_square, split = *kind == DesignKind::split_plot;
+    const bool sites = *kind == DesignKind::multi_site;
+    const std::pair<const char*, bool> unused[] = {
+        {"--block", !q.block.empty() && (crd || latin)},
+        {"--row", !q.row.empty() && !latin},
+        {"--column", !q.column.empty() && !latin},
+        {"--main-plot", !q.main_plot.empty() && !split},
+        {"--sub-plot", !q.sub_plot.empty() && !split},
+        {"--site", !q.site.empty() && !sites},
+        {"--sites-random", q.sites_random && !sites},
+    };
+    for (const auto& [option, bad] : unused)
+      if (bad)
+        return report(q.csv_path, 0, {}, std::string(option) + " is not used by the " + q.design +
+                                             " design; leave it out, or choose the design that has it");
+  }
+  // One column in two roles (the response also a treatment, say) cannot be analysed.
+  {
+    std::vector<std::pair<std::string, std::string>> named;
+    for (const std::string& t : roles.treatments) named.emplace_back(t, "--treatment");
+    for (const auto& [col, option] : {std::pair{q.block, "--block"}, {q.row, "--row"}, {q.column, "--column"},
+                                      {q.main_plot, "--main-plot"}, {q.sub_plot, "--sub-plot"}, {q.site, "--site"}})
+      if (!col.empty()) named.emplace_back(col, option);
+    for (const std::string& r : q.responses) named.emplace_back(r, "--response");
+    for (size_t i = 0; i < named.size(); ++i)
+      for (size_t j = i + 1; j < named.size(); ++j)
+        if (named[i].first == named[j].first)
+          return report(q.csv_path, 0, {}, "column '" + named[i].first + "' is named by both " +
+                                                           named[i].second + " and " + named[j].second +
+                                                           "; each column has one role");
+  }
   if (!(q.alpha >= 0.01 && q.alpha <= 0.10))
     return report(q.csv_path, 0, {}, "--alpha must lie between 0.01 and 0.10 (e.g. 0.05): the range over which the studentized-range quantiles are checked");
   AnalysisOptions options;

@@ -115,6 +115,11 @@ with tempfile.TemporaryDirectory() as tmp:
     bad("control_level.csv", good.replace(b"1,B,6", b"1\x07,B,6"), rcbd, ["control_level.csv:3:", "column 'block'",
                                                                          "control character"])
     bad("tiny_alpha.csv", good, rcbd + ["--alpha", "1e-12"], ["--alpha must lie between 0.01 and 0.10"])
+    bad("site_with_rcbd.csv", good, rcbd + ["--site", "block"], ["--site is not used by the rcbd design"])
+    bad("block_with_crd.csv", good, ["--design", "crd", "--block", "block", "--treatment", "entry", "--response", "y"],
+        ["--block is not used by the crd design"])
+    bad("two_roles.csv", good, ["--design", "rcbd", "--block", "block", "--treatment", "y", "--response", "y"],
+        ["column 'y' is named by both --treatment and --response"])
     bad("unknown_design.csv", good, ["--design", "rcbdx", "--block", "block", "--treatment", "entry",
                                      "--response", "y"], ["unknown design 'rcbdx'"])
     bad("missing_block.csv", good, ["--design", "rcbd", "--treatment", "entry", "--response", "y"],
