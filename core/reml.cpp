@@ -30,9 +30,9 @@ using Permutation = Eigen::PermutationMatrix<Eigen::Dynamic, Eigen::Dynamic, int
 constexpr double kLog2Pi = 1.8378770664093454836;
 constexpr double kMaxCorrelation = 0.995;
 constexpr int kMaxFixedColumns = 3000;
-// Designs of more plots always leave plot-to-plot degrees of freedom in
-// practice; the dense rank check below is only run up to this size.
-constexpr int kMaxPlotsForRankCheck = 3000;
+// Designs of more plots leave the plot error contrasts of its own in
+// practice; the dense identifiability check below is only run up to this size.
+constexpr int kMaxPlotsForIdentityCheck = 300;
 
 // ------------------------------------------------------------- [AR1 pieces]
 
@@ -463,9 +463,14 @@ Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<do
     pr.z.push_back(std::move(z));
     pr.random_cells.push_back(std::move(tc));
   }
-  // The plot error needs degrees of freedom of its own: when the fixed and
-  // random terms together take up every plot (one plot per block, say) the
-  // likelihood cannot tell the plot error from the random terms.
+  // The variances must be told apart by the error contrasts K (the part of
+  // the data the fixed effects leave): REML sees the data only through
+  // K'y, with covariance sum_i s_i K'Z_i Z_i'K + s_e I, so the matrices
+  // K'Z_i Z_i'K and I must be linearly independent (Searle, Casella &
+  // McCulloch 1992, ch. 6, on identifiable variance components). A random
+  // term with one plot per level is the plot error over again. The full
+  // test is run when the terms' levels are as many as the plots (one plot
+  // per block, a lost plot in a 2 x 2), up to a size where it is cheap.
   {
     int columns = p;
     for (size_t k = 0; k < pr.z.size(); ++k) {
@@ -474,19 +479,37 @@ Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<do
                             "the plot error; check the design's columns");
       columns += static_cast<int>(pr.z[k].cols());
     }
-    if (!pr.z.empty() && columns >= spec.n && spec.n <= kMaxPlotsForRankCheck) {
-      Mat all(spec.n, columns);
-      all.leftCols(p) = Mat(pr.x_sel);
-      int at = p;
-      for (const SpMat& z : pr.z) {
-        all.middleCols(at, z.cols()) = Mat(z);
-        at += static_cast<int>(z.cols());
+    const int e = spec.n - p;
+    if (!pr.z.empty() && columns >= spec.n && spec.n <= kMaxPlotsForIdentityCheck) {
+      const Mat xd = Mat(pr.x_sel);
+      Eigen::HouseholderQR<Mat> qr(xd);
+      const Mat q = qr.householderQ() * Mat::Identity(spec.n, spec.n);
+      const Mat kc = q.rightCols(e);
+      const int nk = static_cast<int>(pr.z.size());
+      Mat m(static_cast<Eigen::Index>(e) * e, nk + 1);
+      for (int k = 0; k < nk; ++k) {
+        const Mat kz = kc.transpose() * Mat(pr.z[k]);
+        const Mat s2 = kz * kz.transpose();
+        m.col(k) = Eigen::Map<const Vec>(s2.data(), s2.size());
       }
-      Eigen::ColPivHouseholderQR<Mat> qr(all);
-      qr.setThreshold(1e-10);
-      if (qr.rank() >= spec.n)
-        return make_problem("no plot-to-plot degrees of freedom are left once blocks and treatments are allowed for, "
-                            "so the plot error cannot be told apart from the random terms; the trial needs more plots");
+      const Mat id = Mat::Identity(e, e);
+      m.col(nk) = Eigen::Map<const Vec>(id.data(), id.size());
+      for (int k = 0; k <= nk; ++k) {
+        const double norm = m.col(k).norm();
+        if (norm > 0) m.col(k) /= norm;
+      }
+      Eigen::SelfAdjointEigenSolver<Mat> es(Mat(m.transpose() * m));
+      if (es.info() == Eigen::Success && es.eigenvalues()[0] < 1e-10 * es.eigenvalues()[nk]) {
+        // Name the terms in the dependence (the null direction's large entries).
+        std::vector<std::string> names;
+        for (int k = 0; k <= nk; ++k)
+          if (std::abs(es.eigenvectors()(k, 0)) > 0.2) names.push_back(k < nk ? "'" + spec.random[k].label + "'" : "the plot error");
+        std::string list;
+        for (size_t i = 0; i < names.size(); ++i) list += (i == 0 ? "" : i + 1 == names.size() ? " and " : ", ") + names[i];
+        return make_problem("these plots cannot tell " + list + " apart (too few plots are left once the treatments "
+                            "are allowed for), so their sizes cannot be estimated; check the design's columns, or use "
+                            "the analysis of variance");
+      }
     }
   }
   int v = static_cast<int>(pr.z.size());

@@ -19,6 +19,44 @@ int report(const std::string& file, int line, const std::string& column, const s
   return kExitBadInput;
 }
 
+// What kind of character that does not show when printed `v` holds, or
+// null: control characters (C0, DEL, C1), no-break and other fixed-width
+// spaces, zero-width and direction marks, soft hyphens, byte-order marks
+// and fillers that print as nothing. Text that is not UTF-8 is left to the
+// CSV reader, which refuses it.
+const char* invisible_character(const std::string& v) {
+  for (size_t i = 0; i < v.size();) {
+    const auto b = static_cast<unsigned char>(v[i]);
+    char32_t cp = b;
+    size_t len = 1;
+    if (b >= 0xF0 && i + 3 < v.size()) {
+      cp = ((b & 0x07u) << 18) | ((static_cast<unsigned char>(v[i + 1]) & 0x3Fu) << 12) |
+           ((static_cast<unsigned char>(v[i + 2]) & 0x3Fu) << 6) | (static_cast<unsigned char>(v[i + 3]) & 0x3Fu);
+      len = 4;
+    } else if (b >= 0xE0 && i + 2 < v.size()) {
+      cp = ((b & 0x0Fu) << 12) | ((static_cast<unsigned char>(v[i + 1]) & 0x3Fu) << 6) |
+           (static_cast<unsigned char>(v[i + 2]) & 0x3Fu);
+      len = 3;
+    } else if (b >= 0xC0 && i + 1 < v.size()) {
+      cp = ((b & 0x1Fu) << 6) | (static_cast<unsigned char>(v[i + 1]) & 0x3Fu);
+      len = 2;
+    }
+    i += len;
+    if (cp < 0x20 || (cp >= 0x7F && cp <= 0x9F)) return "a control character";
+    if (cp == 0xA0 || cp == 0x2007 || cp == 0x202F) return "a no-break space";
+    if (cp == 0xAD) return "a soft hyphen";
+    if (cp == 0xFEFF) return "a byte-order mark";
+    if ((cp >= 0x200B && cp <= 0x200F) || (cp >= 0x2060 && cp <= 0x2064) || cp == 0x180E)
+      return "a zero-width character";
+    if ((cp >= 0x202A && cp <= 0x202E) || (cp >= 0x2066 && cp <= 0x2069) || cp == 0x061C)
+      return "a direction mark";
+    if ((cp >= 0x2000 && cp <= 0x200A) || cp == 0x205F || cp == 0x3000 || cp == 0x2028 || cp == 0x2029 || cp == 0x1680)
+      return "an unusual space";
+    if (cp == 0x3164 || cp == 0xFFA0 || cp == 0x115F || cp == 0x1160 || cp == 0x2800) return "a filler character";
+  }
+  return nullptr;
+}
+
 }  // namespace
 
 int run_analyze(const AnalyzeRequest& q) {
@@ -103,18 +141,7 @@ int run_analyze(const AnalyzeRequest& q) {
       if (!col) continue;
       for (size_t r = 0; r < col->cells.size(); ++r) {
         const std::string& v = col->cells[r];
-        const char* what = nullptr;
-        for (size_t i = 0; i < v.size() && !what; ++i) {
-          const auto b = static_cast<unsigned char>(v[i]);
-          if (b < 0x20 || b == 0x7F) what = "a control character";
-          else if (b == 0xC2 && i + 1 < v.size() && static_cast<unsigned char>(v[i + 1]) == 0xA0) what = "a no-break space";
-          else if (b == 0xEF && v.compare(i, 3, "\xEF\xBB\xBF") == 0) what = "a byte-order mark";
-          else if (b == 0xE2 && i + 2 < v.size()) {
-            // U+200B to U+200F (zero-width spaces, joiners, marks) and U+2060 (word joiner)
-            const auto b1 = static_cast<unsigned char>(v[i + 1]), b2 = static_cast<unsigned char>(v[i + 2]);
-            if ((b1 == 0x80 && b2 >= 0x8B && b2 <= 0x8F) || (b1 == 0x81 && b2 == 0xA0)) what = "a zero-width character";
-          }
-        }
+        const char* what = invisible_character(v);
         if (what)
           return report(q.csv_path, lines[r], name,
                         std::string("'") + name + "' holds " + what + " that does not show when printed; remove it, or "

@@ -114,6 +114,10 @@ with tempfile.TemporaryDirectory() as tmp:
         ["zero_width_level.csv:7:", "zero-width character"])
     bad("control_level.csv", good.replace(b"1,B,6", b"1\x07,B,6"), rcbd, ["control_level.csv:3:", "column 'block'",
                                                                          "control character"])
+    for name, ch in (("soft_hyphen", b"\xc2\xad"), ("c1_control", b"\xc2\x85"), ("narrow_nbsp", b"\xe2\x80\xaf"),
+                     ("hangul_filler", b"\xe3\x85\xa4"), ("bom_inside", b"\xef\xbb\xbf")):
+        bad(name + ".csv", good.replace(b"2,A,5.5", b"2,A" + ch + b",5.5"), rcbd,
+            [name + ".csv:4:", "column 'entry'", "does not show"])
     bad("tiny_alpha.csv", good, rcbd + ["--alpha", "1e-12"], ["--alpha must lie between 0.01 and 0.10"])
     bad("site_with_rcbd.csv", good, rcbd + ["--site", "block"], ["--site is not used by the rcbd design"])
     bad("block_with_crd.csv", good, ["--design", "crd", "--block", "block", "--treatment", "entry", "--response", "y"],
