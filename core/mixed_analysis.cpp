@@ -142,7 +142,11 @@ Result<MixedAnalysis> analyse_reml(const PlotTable& table, const DesignRoles& ro
     // Levels of the plan with no plot that has a value drop out of the model; say so.
     std::vector<std::string> absent;
     std::unordered_map<std::string, int> absent_seen;
-    for (int r = 0; r < table.records(); ++r) {
+    for (int r = 0, next = 0; r < table.records(); ++r) {
+      if (next < static_cast<int>(c.records.size()) && c.records[next] == r) {   // a plot with a value: coded above
+        ++next;
+        continue;
+      }
       const std::string v = trimmed(col->cells[r]);
       if (!v.empty() && !code_of.count(v) && absent_seen.emplace(v, 0).second) absent.push_back(v);
     }

@@ -15,6 +15,7 @@
 
 #include "core/distributions.h"
 #include "core/selected_inverse.h"
+#include "core/text.h"
 
 namespace furrow {
 
@@ -504,9 +505,7 @@ Result<ModelData> build_problem(const MixedModelSpec& spec, const std::vector<do
         std::vector<std::string> names;
         for (int k = 0; k <= nk; ++k)
           if (std::abs(es.eigenvectors()(k, 0)) > 0.2) names.push_back(k < nk ? "'" + spec.random[k].label + "'" : "the plot error");
-        std::string list;
-        for (size_t i = 0; i < names.size(); ++i) list += (i == 0 ? "" : i + 1 == names.size() ? " and " : ", ") + names[i];
-        return make_problem("these plots cannot tell " + list + " apart (too few plots are left once the treatments "
+        return make_problem("these plots cannot tell " + listed(names) + " apart (too few plots are left once the treatments "
                             "are allowed for), so their sizes cannot be estimated; check the design's columns, or use "
                             "the analysis of variance");
       }
@@ -741,11 +740,21 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   // total variance, where the mixed-model equations stay defined.
   // An autocorrelation that reaches +-0.995 is held there the same way.
   std::vector<char> held(nv, 0);
-  auto resid_floor = [&](const std::vector<double>& t) {
+  auto variance_total = [&](const std::vector<double>& t) {
     double total = 0;
     for (int v = 0; v < nv; ++v)
       if (is_variance(v)) total += t[v];
-    return 1e-6 * total;
+    return total;
+  };
+  auto resid_floor = [&](const std::vector<double>& t) { return 1e-6 * variance_total(t); };
+  // The parameters' names, as the fit reports them.
+  auto param_label = [&](int v) -> std::string {
+    if (v < static_cast<int>(spec.random.size())) return spec.random[v].label;
+    if (v == pr.resid) return "residual";
+    const std::string& field = spec.spatial->label;
+    if (v == pr.rho_row) return field + ": row autocorrelation";
+    if (v == pr.rho_col) return field + ": column autocorrelation";
+    return field + ": variance";
   };
   auto free_params = [&](const std::vector<char>& act) {
     std::vector<int> f;
@@ -801,9 +810,7 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
     // not the maximum.
     double step = 1.0;
     {
-      double total = 0;
-      for (int v = 0; v < nv; ++v)
-        if (is_variance(v)) total += th[v];
+      const double total = variance_total(th);
       for (int i = 0; i < nf; ++i) {
         const int v = fr[i];
         if (is_variance(v) && delta[i] < 0 && th[v] > 1e-4 * total)
@@ -861,9 +868,7 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
       // put on the bound and held there; the others move from there on the
       // next step. (Otherwise the fit would stall with the autocorrelations'
       // scores far from zero: the EM step below does not move them.)
-      double total = 0;
-      for (int v = 0; v < nv; ++v)
-        if (is_variance(v)) total += th[v];
+      const double total = variance_total(th);
       tn = th;
       an = active;
       rh = held;
@@ -1030,20 +1035,11 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
         scaled(i, j) *= (is_variance(fr[i]) ? th[fr[i]] : 1.0) * (is_variance(fr[j]) ? th[fr[j]] : 1.0);
     Eigen::SelfAdjointEigenSolver<Mat> es(scaled);
     if (es.info() == Eigen::Success && es.eigenvalues()[0] < 1e-9 * es.eigenvalues()[nf - 1]) {
-      auto label = [&](int v) -> std::string {
-        if (v < static_cast<int>(spec.random.size())) return spec.random[v].label;
-        if (v == pr.resid) return "plot error";
-        const std::string field = spec.spatial ? spec.spatial->label : std::string("field");
-        if (v == pr.rho_row) return field + ": row autocorrelation";
-        if (v == pr.rho_col) return field + ": column autocorrelation";
-        return field + ": variance";
-      };
       std::vector<std::string> names;
       for (int i = 0; i < nf; ++i)
-        if (std::abs(es.eigenvectors()(i, 0)) > 0.2) names.push_back("'" + label(fr[i]) + "'");
-      std::string list;
-      for (size_t i = 0; i < names.size(); ++i) list += (i == 0 ? "" : i + 1 == names.size() ? " and " : ", ") + names[i];
-      return make_problem("these data cannot tell " + list + " apart (the likelihood is flat along a mix of them), so "
+        if (std::abs(es.eigenvectors()(i, 0)) > 0.2)
+          names.push_back(fr[i] == pr.resid ? "the plot error" : "'" + param_label(fr[i]) + "'");
+      return make_problem("these data cannot tell " + listed(names) + " apart (the likelihood is flat along a mix of them), so "
                           "their sizes cannot be estimated; check the design's columns, or use the analysis of variance");
     }
   }
@@ -1052,16 +1048,15 @@ Result<MixedFit> fit_reml(const MixedModelSpec& spec, const std::vector<double>&
   for (int i = 0; i < nf; ++i)
     for (int j = 0; j < nf; ++j) impl->param_cov(fr[i], fr[j]) = ainv(i, j);
   for (int k = 0; k < static_cast<int>(spec.random.size()); ++k)
-    impl->params.push_back({spec.random[k].label, ParameterKind::variance, th[k], 0, !active[k]});
+    impl->params.push_back({param_label(k), ParameterKind::variance, th[k], 0, !active[k]});
   if (pr.spatial) {
-    const std::string label = spec.spatial->label;
-    impl->params.push_back({label + ": variance", ParameterKind::variance, th[pr.field_var], 0, !active[nt - 1]});
-    impl->params.push_back({label + ": row autocorrelation", ParameterKind::autocorrelation, th[pr.rho_row], 0,
+    impl->params.push_back({param_label(pr.field_var), ParameterKind::variance, th[pr.field_var], 0, !active[nt - 1]});
+    impl->params.push_back({param_label(pr.rho_row), ParameterKind::autocorrelation, th[pr.rho_row], 0,
                              held[pr.rho_row] != 0 || std::abs(th[pr.rho_row]) >= kMaxCorrelation - 1e-12});
-    impl->params.push_back({label + ": column autocorrelation", ParameterKind::autocorrelation, th[pr.rho_col], 0,
+    impl->params.push_back({param_label(pr.rho_col), ParameterKind::autocorrelation, th[pr.rho_col], 0,
                              held[pr.rho_col] != 0 || std::abs(th[pr.rho_col]) >= kMaxCorrelation - 1e-12});
   }
-  impl->params.push_back({"residual", ParameterKind::residual_variance, th[pr.resid], 0, held[pr.resid] != 0});
+  impl->params.push_back({param_label(pr.resid), ParameterKind::residual_variance, th[pr.resid], 0, held[pr.resid] != 0});
   for (int v = 0; v < nv; ++v)
     impl->params[v].se = impl->params[v].at_bound ? 0.0 : std::sqrt(std::max(0.0, impl->param_cov(v, v)));
 

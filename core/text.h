@@ -1,6 +1,7 @@
 #pragma once
 // Small text helpers shared by the analyses and the app: cells trimmed of
-// surrounding white space, names joined with a separator.
+// surrounding white space, names joined with a separator or as a list in
+// words ("a, b and c").
 
 #include <cctype>
 #include <string>
@@ -21,6 +22,12 @@ inline std::string join(const std::vector<std::string>& parts, const char* sep) 
     if (i) out += sep;
     out += parts[i];
   }
+  return out;
+}
+
+inline std::string listed(const std::vector<std::string>& parts) {
+  std::string out;
+  for (size_t i = 0; i < parts.size(); ++i) out += (i == 0 ? "" : i + 1 == parts.size() ? " and " : ", ") + parts[i];
   return out;
 }
 

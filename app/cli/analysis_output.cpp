@@ -22,6 +22,9 @@ std::string pad(const std::string& s, size_t width, bool right = true) {
 }
 
 nlohmann::json opt(const std::optional<double>& v) { return v ? nlohmann::json(*v) : nlohmann::json(nullptr); }
+// An autocorrelation's SE, none when it is held at its limit of +-0.995.
+std::optional<double> rho_se(double se) { return se > 0 ? std::optional<double>(se) : std::nullopt; }
+std::string rho_se_text(double se) { return se > 0 ? "SE " + table_number(se, 2) : std::string("at its limit"); }
 
 void means_text(std::ostringstream& o, const TermMeans& m, double alpha, int md) {
   o << "\nMeans of " << m.term << (m.adjusted ? " (adjusted for the other terms)" : "") << ", SE from '"
@@ -282,10 +285,8 @@ std::string reml_text(const MixedAnalysis& a) {
     o << "\nField trend (rows and columns correlated, AR1 x AR1, plus plot error): " << (t.chosen ? "kept" : "not kept")
       << "\n  likelihood ratio " << num(t.lr_statistic, 4) << " on 3 DF, P " << p_text(t.p)
       << "   (REML log-likelihood " << num(t.loglik_trend, 10) << " against " << num(t.loglik_independent, 10)
-      << " with independent plots)\n  autocorrelation down rows " << num(t.rho_row, 3) << " ("
-      << (t.rho_row_se > 0 ? "SE " + num(t.rho_row_se, 2) : std::string("at its limit")) << "), across columns "
-      << num(t.rho_col, 3) << " (" << (t.rho_col_se > 0 ? "SE " + num(t.rho_col_se, 2) : std::string("at its limit"))
-      << "), field variance "
+      << " with independent plots)\n  autocorrelation down rows " << num(t.rho_row, 3) << " (" << rho_se_text(t.rho_row_se)
+      << "), across columns " << num(t.rho_col, 3) << " (" << rho_se_text(t.rho_col_se) << "), field variance "
       << num(t.variance, 4) << "\n";
   }
   for (const auto& sl : a.straight_trend)
@@ -344,9 +345,9 @@ std::string reml_json(const std::vector<MixedAnalysis>& analyses) {
                           {"log_likelihood_trend", t.loglik_trend},
                           {"log_likelihood_independent", t.loglik_independent},
                           {"rho_row", t.rho_row},
-                          {"rho_row_se", t.rho_row_se > 0 ? nlohmann::json(t.rho_row_se) : nlohmann::json()},   // null at its limit
+                          {"rho_row_se", opt(rho_se(t.rho_row_se))},
                           {"rho_column", t.rho_col},
-                          {"rho_column_se", t.rho_col_se > 0 ? nlohmann::json(t.rho_col_se) : nlohmann::json()},
+                          {"rho_column_se", opt(rho_se(t.rho_col_se))},
                           {"variance", t.variance},
                           {"rows", t.rows},
                           {"columns", t.cols},
